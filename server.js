@@ -1,0 +1,22 @@
+// Production entry: adapter-node's handler and the socket.io live hub on one HTTP server.
+// The handler is registered first: engine.io wraps the listeners present when it attaches and
+// keeps /socket.io requests for itself.
+import http from 'node:http';
+import { attachSocketIO } from './src/lib/server/socket-host.js';
+
+const { handler } = await import('./build/handler.js');
+const server = http.createServer(handler);
+attachSocketIO(server);
+
+const port = Number(process.env.PORT ?? 3000);
+const host = process.env.HOST ?? '127.0.0.1';
+server.listen(port, host, () => {
+	console.log(`Strainline listening on http://${host}:${port}`);
+});
+
+function shutdown() {
+	server.close(() => process.exit(0));
+	setTimeout(() => process.exit(0), 3000).unref();
+}
+process.on('SIGTERM', shutdown);
+process.on('SIGINT', shutdown);

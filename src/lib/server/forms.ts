@@ -1,0 +1,69 @@
+import { fail, type ActionFailure } from '@sveltejs/kit';
+import { z } from 'zod';
+
+export type FieldErrors = Record<string, string>;
+
+export interface FormFailure {
+	values: Record<string, string | string[]>;
+	errors: FieldErrors;
+	message?: string;
+}
+
+const SECRET_FIELD = /password|token|secret/i;
+
+/** What the person typed, to put back in the form (never a password or token). */
+export function echoValues(form: FormData): Record<string, string | string[]> {
+	const values: Record<string, string | string[]> = {};
+	for (const key of new Set(form.keys())) {
+		if (SECRET_FIELD.test(key)) continue;
+		const all = form.getAll(key).filter((v): v is string => typeof v === 'string');
+		values[key] = all.length > 1 || key.endsWith('[]') ? all : (all[0] ?? '');
+	}
+	return values;
+}
+
+/** Plain object from a form: repeated keys (checkboxes) become arrays when `arrays` names them. */
+export function formObject(form: FormData, arrays: readonly string[] = []): Record<string, unknown> {
+	const out: Record<string, unknown> = {};
+	for (const key of new Set(form.keys())) {
+		const all = form.getAll(key).filter((v): v is string => typeof v === 'string');
+		out[key] = arrays.includes(key) ? all : all[0];
+	}
+	for (const key of arrays) out[key] ??= [];
+	return out;
+}
+
+export function issuesToErrors(error: z.ZodError): FieldErrors {
+	const errors: FieldErrors = {};
+	for (const issue of error.issues) {
+		const key = issue.path.length ? String(issue.path[0]) : '_form';
+		errors[key] ??= issue.message;
+	}
+	return errors;
+}
+
+/**
+ * Validate a submitted form. On failure returns the `fail(400, …)` to hand back from the action,
+ * with field-level messages and the values typed (secrets left out).
+ */
+export async function validateForm<S extends z.ZodType>(
+	request: Request,
+	schema: S,
+	arrays: readonly string[] = []
+): Promise<{ data: z.infer<S>; form: FormData; failure?: never } | { failure: ActionFailure<FormFailure>; data?: never; form: FormData }> {
+	let form: FormData;
+	try {
+		form = await request.formData();
+	} catch {
+		return { failure: fail(400, { values: {}, errors: {}, message: 'The form could not be read.' }), form: new FormData() };
+	}
+	const parsed = schema.safeParse(formObject(form, arrays));
+	if (!parsed.success) {
+		return { failure: fail(400, { values: echoValues(form), errors: issuesToErrors(parsed.error) }), form };
+	}
+	return { data: parsed.data, form };
+}
+
+export function failWith(form: FormData, errors: FieldErrors, status = 400, message?: string) {
+	return fail(status, { values: echoValues(form), errors, message } satisfies FormFailure);
+}

@@ -1,0 +1,34 @@
+import nodemailer, { type Transporter } from 'nodemailer';
+import { config } from './config';
+import { startFakeSmtp, fakeSmtpPort } from './fake-smtp';
+
+export interface OutgoingMail {
+	to: string;
+	subject: string;
+	text: string;
+}
+
+let transporter: Transporter | null = null;
+
+/** True when mail goes to the local catcher; the mailbox page exists only then. */
+export function usesFakeSmtp(): boolean {
+	return !config.smtpUrl;
+}
+
+/** Prepare the transport; starts the local catcher when no SMTP_URL is configured. */
+export async function startMail(): Promise<void> {
+	if (transporter) return;
+	if (config.smtpUrl) {
+		transporter = nodemailer.createTransport(config.smtpUrl);
+		return;
+	}
+	const port = await startFakeSmtp(config.fakeSmtpPort);
+	transporter = nodemailer.createTransport({ host: '127.0.0.1', port, secure: false, ignoreTLS: true });
+}
+
+export async function sendMail(mail: OutgoingMail): Promise<void> {
+	if (!transporter) await startMail();
+	await transporter!.sendMail({ from: config.mailFrom, to: mail.to, subject: mail.subject, text: mail.text });
+}
+
+export { fakeSmtpPort };

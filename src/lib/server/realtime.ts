@@ -1,0 +1,151 @@
+import type { Socket } from 'socket.io';
+import { and, asc, gt, inArray } from 'drizzle-orm';
+import { parse as parseCookie } from 'cookie';
+import { db } from './db';
+import * as table from './db/schema';
+import { realtimeSlot } from './socket-host.js';
+import { SESSION_COOKIE, validateSessionToken, validateApiToken, type SessionUser } from './auth';
+import { can } from './permissions';
+
+/** Rooms: the board (everything of interest to every signed-in client) or one event. */
+export type Room = 'board' | `event:${string}`;
+
+/** Every live message is an event-log entry; `seq` lets a client catch up after reconnecting. */
+export interface LiveMessage<T extends Record<string, unknown> = Record<string, unknown>> {
+	seq: number;
+	room: Room;
+	type: string;
+	actor: string;
+	payload: T;
+	at: string;
+}
+
+export interface Actor {
+	userId: string | null;
+	label: string;
+}
+
+export const SYSTEM: Actor = { userId: null, label: 'system' };
+
+export function actorOf(user: SessionUser | null, fallback = 'system'): Actor {
+	return user ? { userId: user.id, label: user.name } : { userId: null, label: fallback };
+}
+
+const CATCH_UP_LIMIT = 2000;
+
+function toMessage(row: table.EventLogEntry): LiveMessage {
+	return {
+		seq: row.seq,
+		room: row.room as Room,
+		type: row.action,
+		actor: row.actorLabel,
+		payload: row.payload,
+		at: row.createdAt.toISOString()
+	};
+}
+
+/** Emit a message already written to the event log to every client in its room. */
+export function publish(message: LiveMessage): void {
+	const io = realtimeSlot().io;
+	if (!io) return;
+	io.of('/live').to(message.room).emit('live', message);
+}
+
+/**
+ * Write an action to the event log and broadcast it. Call after the change itself has been
+ * committed so that no client hears of something the database does not hold.
+ */
+export function record(actor: Actor, action: string, room: Room, payload: Record<string, unknown>): LiveMessage {
+	const row = db
+		.insert(table.eventLog)
+		.values({ actorUserId: actor.userId, actorLabel: actor.label, action, room, payload })
+		.returning()
+		.get();
+	const message = toMessage(row);
+	publish(message);
+	return message;
+}
+
+/** What a client missed in its rooms since `sinceSeq`, oldest first. */
+export function missedSince(rooms: Room[], sinceSeq: number): LiveMessage[] {
+	if (rooms.length === 0) return [];
+	return db
+		.select()
+		.from(table.eventLog)
+		.where(and(inArray(table.eventLog.room, rooms), gt(table.eventLog.seq, sinceSeq)))
+		.orderBy(asc(table.eventLog.seq))
+		.limit(CATCH_UP_LIMIT)
+		.all()
+		.map(toMessage);
+}
+
+function bearerOf(socket: Socket): string | null {
+	const fromAuth = (socket.handshake.auth as { token?: unknown } | undefined)?.token;
+	if (typeof fromAuth === 'string' && fromAuth) return fromAuth;
+	const header = socket.handshake.headers.authorization;
+	if (header?.startsWith('Bearer ')) return header.slice(7).trim();
+	return null;
+}
+
+async function authenticate(socket: Socket): Promise<void> {
+	const cookies = parseCookie(socket.handshake.headers.cookie ?? '');
+	const sessionToken = cookies[SESSION_COOKIE];
+	if (sessionToken) {
+		const { user } = validateSessionToken(sessionToken);
+		if (user) {
+			socket.data.user = user;
+			return;
+		}
+	}
+	const bearer = bearerOf(socket);
+	if (bearer) {
+		const principal = validateApiToken(bearer);
+		if (principal) {
+			socket.data.user = principal.user;
+			socket.data.telescopeId = principal.telescopeId;
+			return;
+		}
+	}
+	throw new Error('unauthorised: sign in or present a valid token');
+}
+
+interface SubscribeRequest {
+	rooms?: unknown;
+	since?: unknown;
+}
+
+function onConnection(socket: Socket): void {
+	const principal = { user: (socket.data.user as SessionUser | null) ?? null, telescopeId: socket.data.telescopeId ?? null };
+	if (!can(principal, 'board.view')) {
+		socket.disconnect(true);
+		return;
+	}
+	socket.join('board');
+	socket.on('subscribe', (request: SubscribeRequest, reply?: (answer: unknown) => void) => {
+		const rooms = Array.isArray(request?.rooms) ? request.rooms : [];
+		const wanted = rooms.filter(
+			(r): r is Room => typeof r === 'string' && (r === 'board' || /^event:[A-Za-z0-9_-]{1,64}$/.test(r))
+		);
+		const allowed = wanted.filter((r) => r === 'board' || can(principal, 'events.view'));
+		for (const r of allowed) socket.join(r);
+		const since = typeof request?.since === 'number' && Number.isInteger(request.since) ? request.since : null;
+		const missed = since === null ? [] : missedSince(allowed, since);
+		reply?.({ rooms: allowed, missed, latestSeq: latestSeq() });
+	});
+	socket.on('unsubscribe', (request: { rooms?: unknown }) => {
+		const rooms = Array.isArray(request?.rooms) ? request.rooms : [];
+		for (const r of rooms) if (typeof r === 'string' && r !== 'board') socket.leave(r);
+	});
+}
+
+export function latestSeq(): number {
+	const row = db.$client.prepare('SELECT COALESCE(MAX(seq), 0) AS seq FROM event_log').get() as { seq: number };
+	return row.seq;
+}
+
+/** Install authentication and room handling on the hub; called once from the `init` hook. */
+export function installRealtime(): void {
+	const slot = realtimeSlot();
+	slot.authenticate = authenticate;
+	slot.onConnection = onConnection;
+}

@@ -1,0 +1,26 @@
+import { redirect } from '@sveltejs/kit';
+import { z } from 'zod';
+import type { Actions, PageServerLoad } from './$types';
+import { validateForm, failWith } from '$lib/server/forms';
+import * as people from '$lib/server/people';
+import { newPasswordField } from '$lib/validation';
+
+export const load: PageServerLoad = ({ params }) => ({ valid: Boolean(people.findOpenReset(params.token)) });
+
+const schema = z
+	.object({ password: newPasswordField, confirm: z.string({ error: 'Repeat the password.' }) })
+	.refine((v) => v.password === v.confirm, { path: ['confirm'], message: 'The two passwords differ.' });
+
+export const actions: Actions = {
+	default: async (event) => {
+		const { data, form, failure } = await validateForm(event.request, schema);
+		if (failure) return failure;
+		try {
+			await people.resetPassword(event.params.token, data.password);
+		} catch (e) {
+			if (e instanceof people.PeopleError) return failWith(form, {}, 410, e.message);
+			throw e;
+		}
+		redirect(303, '/sign-in?reset=done');
+	}
+};

@@ -1,0 +1,33 @@
+import { redirect } from '@sveltejs/kit';
+import { z } from 'zod';
+import type { Actions, PageServerLoad } from './$types';
+import { validateForm, failWith } from '$lib/server/forms';
+import { signIn } from '$lib/server/sign-in';
+import { startSession, safeNext } from '$lib/server/session-cookie';
+import { emailField } from '$lib/validation';
+
+export const load: PageServerLoad = ({ locals, url }) => {
+	if (locals.user) redirect(303, safeNext(url.searchParams.get('next')));
+	return { reset: url.searchParams.get('reset') === 'done' };
+};
+
+const schema = z.object({
+	email: emailField,
+	password: z.string({ error: 'Enter your password.' }).min(1, 'Enter your password.').max(200, 'At most 200 characters.')
+});
+
+export const actions: Actions = {
+	default: async (event) => {
+		const { data, form, failure } = await validateForm(event.request, schema);
+		if (failure) return failure;
+		const result = await signIn(data.email, data.password, event.getClientAddress());
+		if (!result.ok) {
+			if (result.reason === 'limited')
+				return failWith(form, {}, 429, 'Too many failed attempts. Wait a few minutes before trying again.');
+			if (result.reason === 'disabled') return failWith(form, {}, 403, 'This account is disabled. Ask an administrator.');
+			return failWith(form, { password: 'Wrong e-mail or password.' });
+		}
+		startSession(event, result.userId);
+		redirect(303, safeNext(event.url.searchParams.get('next')));
+	}
+};

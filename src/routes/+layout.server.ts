@@ -1,0 +1,19 @@
+import type { LayoutServerLoad } from './$types';
+import { can } from '$lib/server/permissions';
+import { usesFakeSmtp } from '$lib/server/mail';
+
+export const load: LayoutServerLoad = ({ locals }) => {
+	const user = locals.user;
+	if (!user) return { user: null, nav: [] };
+	const principal = { user };
+	const nav = [
+		{ href: '/', label: 'Board' },
+		{ href: '/events', label: 'Events' },
+		{ href: '/candidates', label: 'Candidates' },
+		{ href: '/telescopes', label: 'Telescopes' },
+		{ href: '/teams', label: 'Teams' }
+	];
+	if (can(principal, 'admin.view')) nav.push({ href: '/admin', label: 'Admin' });
+	if (usesFakeSmtp() && can(principal, 'mailbox.view')) nav.push({ href: '/mailbox', label: 'Mailbox' });
+	return { user: { name: user.name, email: user.email, roles: user.roles }, nav };
+};
