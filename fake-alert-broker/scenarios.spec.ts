@@ -1,0 +1,92 @@
+import { mkdtempSync, readdirSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { gunzipSync } from 'node:zlib';
+import { describe, expect, it } from 'vitest';
+import { farHzToPerYear, parseVoevent } from '../src/lib/alerts/voevent.ts';
+import { listScenarios, loadScenario, renderScenario, writeScenario } from './scenarios.ts';
+
+const epoch = new Date('2030-04-12T07:31:00.000Z');
+const httpBase = 'http://127.0.0.1:8098';
+
+describe('scenarios', () => {
+	it('has the five stories, each loading and rendering into notices that parse (except the malformed one)', () => {
+		expect(listScenarios()).toEqual(['bbh', 'bns', 'malformed', 'retraction', 'test']);
+		for (const name of listScenarios()) {
+			const steps = renderScenario(loadScenario(name), { epoch, httpBase, seed: 1 });
+			for (const s of steps) {
+				if (name === 'malformed') {
+					expect(() => parseVoevent(s.xml)).toThrow(/malformed XML/);
+					continue;
+				}
+				const n = parseVoevent(s.xml);
+				expect(n.ivorn).toBe(s.ivorn);
+				expect(n.sourceEventId).toMatch(/^SX/);
+				expect(n.skymapUrl === null).toBe(s.map === null);
+			}
+		}
+	});
+
+	it('tells the neutron-star merger as preliminary → initial → update with sharper maps and a new distance', () => {
+		const steps = renderScenario(loadScenario('bns'), { epoch, httpBase, seed: 1 });
+		const notices = steps.map((s) => parseVoevent(s.xml));
+		expect(notices.map((n) => n.kind)).toEqual(['preliminary', 'initial', 'update']);
+		expect(notices[1].citations[0]).toEqual({ ivorn: notices[0].ivorn, cite: 'supersedes' });
+		expect(farHzToPerYear(notices[2].far!)).toBeCloseTo(0.0004, 10);
+		const sizes = steps.map((s) => gunzipSync(s.map!.build()).length);
+		expect(sizes.every((b) => b % 2880 === 0)).toBe(true);
+		// Who/Date follows the delays: 0 s, 25 s, 85 s after the epoch at speed 1.
+		expect(notices.map((n) => (Date.parse(n.authoredAt) - epoch.getTime()) / 1000)).toEqual([0, 25, 85]);
+		// The same event time in every notice.
+		expect(new Set(notices.map((n) => n.eventTime)).size).toBe(1);
+	});
+
+	it('retracts, marks the test notice, and classifies the black-hole merger as BBH', () => {
+		const r = renderScenario(loadScenario('retraction'), { epoch, httpBase }).map((s) => parseVoevent(s.xml));
+		expect(r[1]).toMatchObject({ kind: 'retraction', classification: null, skymapUrl: null });
+		expect(r[1].citations).toEqual([{ ivorn: r[0].ivorn, cite: 'retraction' }]);
+		const t = parseVoevent(renderScenario(loadScenario('test'), { epoch, httpBase })[0].xml);
+		expect(t.role).toBe('test');
+		const bbh = parseVoevent(renderScenario(loadScenario('bbh'), { epoch, httpBase })[0].xml);
+		expect(bbh.classification!.BBH).toBeGreaterThan(0.98);
+		expect(bbh.properties!.HasNS).toBe(0);
+	});
+
+	it('is deterministic for a seed, differs across seeds, and renames events per loop cycle', () => {
+		const sc = loadScenario('bns');
+		const a = renderScenario(sc, { epoch, httpBase, seed: 5 });
+		const b = renderScenario(sc, { epoch, httpBase, seed: 5 });
+		const c = renderScenario(sc, { epoch, httpBase, seed: 6 });
+		expect(a.map((s) => s.xml)).toEqual(b.map((s) => s.xml));
+		expect(a[0].map!.build().equals(b[0].map!.build())).toBe(true);
+		expect(gunzipSync(a[0].map!.build()).equals(gunzipSync(c[0].map!.build()))).toBe(false);
+		const loop = renderScenario(sc, { epoch, httpBase, seed: 5, cycle: 2 });
+		expect(loop[0].sourceEventId).toBe('SX30041207R2');
+		expect(loop[0].ivorn).not.toBe(a[0].ivorn);
+	});
+
+	it('scales Who/Date with the speed factor', () => {
+		const fast = renderScenario(loadScenario('bns'), { epoch, httpBase, speed: 5 }).map((s) => parseVoevent(s.xml));
+		expect((Date.parse(fast[2].authoredAt) - epoch.getTime()) / 1000).toBe(17);
+	});
+
+	it('writes a scenario to a folder', () => {
+		const dir = mkdtempSync(join(tmpdir(), 'strainline-scenario-'));
+		try {
+			const files = writeScenario('retraction', dir, { epoch, httpBase });
+			expect(files).toHaveLength(3);
+			expect(readdirSync(dir).sort()).toEqual([
+				'01-SX30041315-1-preliminary.xml',
+				'02-SX30041315-2-retraction.xml',
+				'SX30041315-1.multiorder.fits.gz'
+			]);
+		} finally {
+			rmSync(dir, { recursive: true, force: true });
+		}
+	});
+
+	it('refuses an unknown scenario with the list of known ones', () => {
+		expect(() => loadScenario('nope')).toThrow(/no scenario "nope" \(have: bbh, bns/);
+		expect(() => loadScenario('../etc')).toThrow(/bad scenario name/);
+	});
+});

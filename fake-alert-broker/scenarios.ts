@@ -1,0 +1,197 @@
+/**
+ * Scenarios: invented alert sequences kept as data in ./scenarios/*.json, rendered into
+ * VOEvent notices and sky maps. Rendering is deterministic for a given epoch, seed and cycle.
+ */
+import { mkdirSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { z } from 'zod';
+import { BROKER_IVORN, buildNoticeXml } from './notices.ts';
+import { gaussian, mulberry32, seedFor } from './prng.ts';
+import { generateSkymap, skymapToFits, type SkymapSpec } from './skymap.ts';
+
+export const SCENARIO_DIR = fileURLToPath(new URL('./scenarios/', import.meta.url));
+const SECONDS_PER_JULIAN_YEAR = 365.25 * 86400;
+
+const probability = z.number().min(0).max(1);
+const stepSchema = z.object({
+	delaySeconds: z.number().min(0),
+	eventId: z.string().regex(/^SX[A-Z0-9]+$/, 'invented ids start with SX'),
+	kind: z.enum(['preliminary', 'initial', 'update', 'retraction']),
+	role: z.enum(['observation', 'test', 'utility']).default('observation'),
+	/** Event time relative to the scenario's epoch. */
+	eventOffsetSeconds: z.number().default(-30),
+	farPerYear: z.number().nonnegative().optional(),
+	classification: z.object({ BNS: probability, NSBH: probability, BBH: probability, Terrestrial: probability }).optional(),
+	properties: z.object({ HasNS: probability, HasRemnant: probability, HasMassGap: probability }).optional(),
+	skymap: z
+		.object({
+			components: z
+				.array(
+					z.object({
+						raDeg: z.number().min(0).max(360),
+						decDeg: z.number().min(-90).max(90),
+						widthDeg: z.number().min(0.05).max(60),
+						weight: z.number().positive().optional()
+					})
+				)
+				.min(1),
+			/** 1σ random shift of every centre, degrees (seeded). */
+			jitterDeg: z.number().min(0).default(0),
+			distance: z.object({
+				meanMpc: z.number().positive(),
+				stdMpc: z.number().positive(),
+				gradientPerRad: z.number().optional()
+			})
+		})
+		.optional(),
+	/** Citations of earlier steps, by their index in this scenario. */
+	cites: z.array(z.object({ step: z.number().int().min(0), cite: z.enum(['followup', 'supersedes', 'retraction']) })).default([]),
+	description: z.string().optional(),
+	/** Deliberately break the notice. */
+	malformed: z.enum(['unclosed-tag', 'missing-event-id']).optional()
+});
+
+export const scenarioSchema = z.object({
+	name: z.string().regex(/^[a-z0-9-]+$/),
+	description: z.string(),
+	steps: z.array(stepSchema).min(1)
+});
+
+export type Scenario = z.infer<typeof scenarioSchema>;
+export type ScenarioStep = z.infer<typeof stepSchema>;
+
+export function listScenarios(dir = SCENARIO_DIR): string[] {
+	return readdirSync(dir)
+		.filter((f) => f.endsWith('.json'))
+		.map((f) => f.replace(/\.json$/, ''))
+		.sort();
+}
+
+export function loadScenario(name: string, dir = SCENARIO_DIR): Scenario {
+	if (!/^[a-z0-9-]+$/.test(name)) throw new Error(`bad scenario name "${name}"`);
+	let raw: string;
+	try {
+		raw = readFileSync(join(dir, `${name}.json`), 'utf8');
+	} catch {
+		throw new Error(`no scenario "${name}" (have: ${listScenarios(dir).join(', ')})`);
+	}
+	const parsed = scenarioSchema.safeParse(JSON.parse(raw));
+	if (!parsed.success) {
+		const i = parsed.error.issues[0];
+		throw new Error(`scenario ${name}: ${i.path.join('.')}: ${i.message}`);
+	}
+	for (const [i, s] of parsed.data.steps.entries()) {
+		for (const c of s.cites) if (c.step >= i) throw new Error(`scenario ${name}: step ${i} cites a later step ${c.step}`);
+	}
+	return parsed.data;
+}
+
+export interface RenderedMap {
+	name: string;
+	/** Built on demand (a map takes tens of milliseconds). */
+	build: () => Buffer;
+}
+
+export interface RenderedStep {
+	/** Seconds after the previous step, before the speed factor. */
+	delaySeconds: number;
+	/** Seconds after the scenario's start, before the speed factor. */
+	atSeconds: number;
+	ivorn: string;
+	sourceEventId: string;
+	kind: ScenarioStep['kind'];
+	xml: string;
+	map: RenderedMap | null;
+}
+
+export interface RenderOptions {
+	/** Start of the scenario; Who/Date = epoch + atSeconds / speed. */
+	epoch: Date;
+	/** Base URL under which maps are served, e.g. http://127.0.0.1:8098 */
+	httpBase: string;
+	seed?: number;
+	speed?: number;
+	/** Repetition number when looping: ids get an "R{cycle}" suffix so every cycle is new. */
+	cycle?: number;
+}
+
+export function renderScenario(sc: Scenario, o: RenderOptions): RenderedStep[] {
+	const speed = o.speed ?? 1;
+	const seed = o.seed ?? 1;
+	const cycle = o.cycle ?? 0;
+	const counters = new Map<string, number>();
+	const ivorns: string[] = [];
+	const out: RenderedStep[] = [];
+	let at = 0;
+	const base = o.httpBase.replace(/\/$/, '');
+	sc.steps.forEach((s, i) => {
+		at += s.delaySeconds;
+		const eventId = cycle > 0 ? `${s.eventId}R${cycle}` : s.eventId;
+		const n = (counters.get(eventId) ?? 0) + 1;
+		counters.set(eventId, n);
+		const ivorn = `${BROKER_IVORN}#${eventId}-${n}-${s.kind}`;
+		ivorns.push(ivorn);
+		const authoredAt = new Date(o.epoch.getTime() + (at * 1000) / speed).toISOString();
+		const eventTime = new Date(o.epoch.getTime() + s.eventOffsetSeconds * 1000).toISOString();
+
+		let map: RenderedMap | null = null;
+		if (s.skymap) {
+			const random = mulberry32(seedFor(seed, `${sc.name}:${i}:${cycle}`));
+			const spec: SkymapSpec = {
+				components: s.skymap.components.map((c) => {
+					const dDec = s.skymap!.jitterDeg * gaussian(random);
+					const dRa = (s.skymap!.jitterDeg * gaussian(random)) / Math.max(0.1, Math.cos((c.decDeg * Math.PI) / 180));
+					return {
+						raDeg: (((c.raDeg + dRa) % 360) + 360) % 360,
+						decDeg: Math.max(-89.9, Math.min(89.9, c.decDeg + dDec)),
+						widthDeg: c.widthDeg,
+						weight: c.weight
+					};
+				}),
+				distance: s.skymap.distance
+			};
+			const name = `${eventId}-${n}.multiorder.fits.gz`;
+			map = {
+				name,
+				build: () => skymapToFits(generateSkymap(spec), { object: eventId, dateObs: eventTime.replace(/Z$/, '') })
+			};
+		}
+		let xml = buildNoticeXml({
+			ivorn,
+			role: s.role,
+			authoredAt,
+			eventTime: s.kind === 'retraction' ? null : eventTime,
+			sourceEventId: eventId,
+			kind: s.kind,
+			farHz: s.farPerYear === undefined ? null : s.farPerYear / SECONDS_PER_JULIAN_YEAR,
+			classification: s.classification ?? null,
+			properties: s.properties ?? null,
+			skymapUrl: map ? `${base}/skymaps/${map.name}` : null,
+			citations: s.cites.map((c) => ({ ivorn: ivorns[c.step], cite: c.cite })),
+			description: s.description
+		});
+		if (s.malformed === 'unclosed-tag') xml = xml.replace('  </What>\n', '');
+		if (s.malformed === 'missing-event-id') xml = xml.replace(/\s*<Param name="SourceEventId"[^>]*\/>/, '');
+		out.push({ delaySeconds: s.delaySeconds, atSeconds: at, ivorn, sourceEventId: eventId, kind: s.kind, xml, map });
+	});
+	return out;
+}
+
+/** Write a scenario's notices (NN-<ivorn fragment>.xml) and sky maps into `dir`. */
+export function writeScenario(name: string, dir: string, o: RenderOptions): string[] {
+	const steps = renderScenario(loadScenario(name), o);
+	mkdirSync(dir, { recursive: true });
+	const written: string[] = [];
+	steps.forEach((s, i) => {
+		const file = join(dir, `${String(i + 1).padStart(2, '0')}-${s.ivorn.split('#')[1]}.xml`);
+		writeFileSync(file, s.xml);
+		written.push(file);
+		if (s.map) {
+			const mapFile = join(dir, s.map.name);
+			writeFileSync(mapFile, s.map.build());
+			written.push(mapFile);
+		}
+	});
+	return written;
+}

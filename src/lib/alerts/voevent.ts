@@ -1,0 +1,545 @@
+/**
+ * VOEvent 2.0 (IVOA Recommendation, 2011) → a checked gravitational-wave notice.
+ *
+ * Pure: no I/O. The Param names we read, their accepted alternative spellings and units are
+ * documented in docs/notice-format.md; keep that file in step with the tables below.
+ *
+ * Hostile input is expected (a broker relays XML written by others), so the raw text is checked
+ * for size and for DOCTYPE/ENTITY declarations before any parser sees it, entity expansion is off
+ * in the parser, and only the five predefined XML entities and numeric character references are
+ * decoded, by hand.
+ */
+import { XMLParser, XMLValidator } from 'fast-xml-parser';
+import { z } from 'zod';
+
+/** Default largest notice accepted, in bytes. Real notices are a few kB; 1 MiB leaves room. */
+export const DEFAULT_MAX_NOTICE_BYTES = 1024 * 1024;
+
+/** Seconds in a Julian year (IAU: 365.25 d × 86400 s), the year used for FAR conversions. */
+export const SECONDS_PER_JULIAN_YEAR = 365.25 * 86400;
+
+export const NOTICE_KINDS = ['preliminary', 'initial', 'update', 'retraction'] as const;
+export const NOTICE_ROLES = ['observation', 'test', 'utility'] as const;
+export const CITE_TYPES = ['followup', 'supersedes', 'retraction'] as const;
+
+export type NoticeKind = (typeof NOTICE_KINDS)[number];
+export type NoticeRole = (typeof NOTICE_ROLES)[number];
+export type CiteType = (typeof CITE_TYPES)[number];
+
+/** One-line error raised for any notice we refuse. */
+export class NoticeParseError extends Error {
+	override name = 'NoticeParseError';
+}
+
+const probability = z.number().finite().min(0).max(1);
+const ivornSchema = z
+	.string()
+	.min(7)
+	.max(512)
+	.regex(/^ivo:\/\/[^\s]+$/, 'must be an ivo:// identifier without spaces');
+const isoUtc = z.string().regex(/^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}:\d{2}\.\d{3}Z$/, 'must be ISO-8601 UTC');
+
+export const classificationSchema = z.object({
+	BNS: probability.nullable(),
+	NSBH: probability.nullable(),
+	BBH: probability.nullable(),
+	Terrestrial: probability.nullable()
+});
+
+export const propertiesSchema = z.object({
+	HasNS: probability.nullable(),
+	HasRemnant: probability.nullable(),
+	HasMassGap: probability.nullable()
+});
+
+export const noticeSchema = z.object({
+	ivorn: ivornSchema,
+	role: z.enum(NOTICE_ROLES),
+	authoredAt: isoUtc,
+	eventTime: isoUtc.nullable(),
+	kind: z.enum(NOTICE_KINDS),
+	sourceEventId: z
+		.string()
+		.min(1)
+		.max(128)
+		.regex(/^[A-Za-z0-9][A-Za-z0-9_.:\-]*$/, 'must be letters, digits and _.:-'),
+	/** False-alarm rate in Hz (events per second). */
+	far: z.number().finite().nonnegative().nullable(),
+	classification: classificationSchema.nullable(),
+	properties: propertiesSchema.nullable(),
+	skymapUrl: z
+		.string()
+		.max(2048)
+		.regex(/^https?:\/\/[^\s]+$/, 'must be an http(s) URL')
+		.nullable(),
+	citations: z.array(z.object({ ivorn: ivornSchema, cite: z.enum(CITE_TYPES) })).max(64)
+});
+
+export type Notice = z.infer<typeof noticeSchema>;
+export type Classification = z.infer<typeof classificationSchema>;
+export type NoticeProperties = z.infer<typeof propertiesSchema>;
+
+/** FAR in Hz → events per Julian year. */
+export function farHzToPerYear(farHz: number): number {
+	return farHz * SECONDS_PER_JULIAN_YEAR;
+}
+
+/** Events per Julian year → FAR in Hz. */
+export function farPerYearToHz(perYear: number): number {
+	return perYear / SECONDS_PER_JULIAN_YEAR;
+}
+
+// ---------------------------------------------------------------------------------------------
+// Param name tables. Names are compared after lower-casing and dropping spaces, '_', '-' and '.',
+// so "Source_Event_ID" and "sourceeventid" both match "SourceEventId".
+
+/** Normalised form used for every name comparison. */
+export function normaliseName(name: string): string {
+	return name.toLowerCase().replace(/[\s_\-.]/g, '');
+}
+
+export const PARAM_NAMES = {
+	sourceEventId: ['SourceEventId', 'EventId', 'SourceId', 'EventName', 'TriggerId'],
+	kind: ['NoticeKind', 'Kind', 'NoticeType', 'AlertKind', 'AlertType'],
+	far: ['FalseAlarmRate', 'FAR', 'FalseAlarmRateHz'],
+	skymapUrl: ['SkymapUrl', 'SkymapUri', 'SkymapFits', 'SkymapFile', 'Skymap', 'MapUrl'],
+	classificationGroup: ['Classification', 'SourceClassification'],
+	propertiesGroup: ['Properties', 'SourceProperties'],
+	BNS: ['BNS', 'ProbBNS'],
+	NSBH: ['NSBH', 'ProbNSBH'],
+	BBH: ['BBH', 'ProbBBH'],
+	Terrestrial: ['Terrestrial', 'ProbTerrestrial', 'Terr', 'Noise'],
+	HasNS: ['HasNS', 'HasNeutronStar', 'ProbHasNS'],
+	HasRemnant: ['HasRemnant', 'ProbHasRemnant'],
+	HasMassGap: ['HasMassGap', 'ProbHasMassGap']
+} as const;
+
+const KIND_ALIASES: Record<string, NoticeKind> = {
+	preliminary: 'preliminary',
+	initial: 'initial',
+	update: 'update',
+	retraction: 'retraction',
+	retracted: 'retraction',
+	retract: 'retraction'
+};
+
+/** FAR units we convert to Hz (normalised: lower case, no spaces). */
+const FAR_UNITS_TO_HZ: Record<string, number> = {
+	hz: 1,
+	's-1': 1,
+	's^-1': 1,
+	'1/s': 1,
+	'/s': 1,
+	'yr-1': 1 / SECONDS_PER_JULIAN_YEAR,
+	'yr^-1': 1 / SECONDS_PER_JULIAN_YEAR,
+	'1/yr': 1 / SECONDS_PER_JULIAN_YEAR,
+	'/yr': 1 / SECONDS_PER_JULIAN_YEAR,
+	'a-1': 1 / SECONDS_PER_JULIAN_YEAR,
+	peryear: 1 / SECONDS_PER_JULIAN_YEAR
+};
+
+// ---------------------------------------------------------------------------------------------
+
+export interface ParseOptions {
+	/** Largest input accepted, in bytes (UTF-8). */
+	maxBytes?: number;
+}
+
+type XNode = Record<string, unknown>;
+
+interface RawParam {
+	name: string;
+	value: string;
+	unit: string | null;
+	group: string | null;
+}
+
+const CDATA_KEY = '#cdata';
+const TEXT_KEY = '#text';
+const ATTR = '@_';
+
+function fail(message: string): never {
+	throw new NoticeParseError(message.replace(/\s*\n\s*/g, ' '));
+}
+
+/** Decode the five predefined XML entities and numeric character references; refuse others. */
+export function decodeXmlEntities(text: string): string {
+	if (!text.includes('&')) return text;
+	return text.replace(/&(#x[0-9a-fA-F]{1,6}|#[0-9]{1,7}|[A-Za-z][A-Za-z0-9]*);?/g, (whole, ref: string) => {
+		if (!whole.endsWith(';')) fail(`bare "&" in text near "${whole.slice(0, 12)}"`);
+		if (ref[0] === '#') {
+			const code = ref[1] === 'x' ? parseInt(ref.slice(2), 16) : parseInt(ref.slice(1), 10);
+			if (!Number.isFinite(code) || code > 0x10ffff || code === 0) fail(`bad character reference "${whole}"`);
+			return String.fromCodePoint(code);
+		}
+		switch (ref) {
+			case 'lt':
+				return '<';
+			case 'gt':
+				return '>';
+			case 'amp':
+				return '&';
+			case 'quot':
+				return '"';
+			case 'apos':
+				return "'";
+			default:
+				return fail(`undefined entity "&${ref};" (only the predefined XML entities are accepted)`);
+		}
+	});
+}
+
+function asArray<T>(x: T | T[] | undefined | null): T[] {
+	if (x === undefined || x === null) return [];
+	return Array.isArray(x) ? x : [x];
+}
+
+function isNode(x: unknown): x is XNode {
+	return typeof x === 'object' && x !== null && !Array.isArray(x);
+}
+
+/** Text content of an element: decoded text plus CDATA (CDATA is taken literally). */
+function textOf(node: unknown): string {
+	if (node === undefined || node === null) return '';
+	if (typeof node === 'string' || typeof node === 'number' || typeof node === 'boolean') {
+		return decodeXmlEntities(String(node)).trim();
+	}
+	if (Array.isArray(node)) return textOf(node[0]);
+	if (!isNode(node)) return '';
+	const text = node[TEXT_KEY] === undefined ? '' : decodeXmlEntities(String(node[TEXT_KEY]));
+	const cdata = asArray(node[CDATA_KEY] as unknown).map(String).join('');
+	return (text + cdata).trim();
+}
+
+function attr(node: unknown, name: string): string | null {
+	if (!isNode(node)) return null;
+	const v = node[ATTR + name];
+	return v === undefined || v === null ? null : decodeXmlEntities(String(v)).trim();
+}
+
+function child(node: unknown, name: string): unknown {
+	return isNode(node) ? node[name] : undefined;
+}
+
+/** Collect every Param under `node`, recursing into Groups (any depth). */
+function collectParams(node: unknown, group: string | null, out: RawParam[]): void {
+	for (const p of asArray(child(node, 'Param') as unknown)) {
+		const name = attr(p, 'name');
+		if (!name) continue;
+		let value = attr(p, 'value');
+		if (value === null) {
+			const v = child(p, 'Value');
+			value = v === undefined ? '' : textOf(v);
+		}
+		out.push({ name, value, unit: attr(p, 'unit'), group });
+	}
+	for (const g of asArray(child(node, 'Group') as unknown)) {
+		const gName = attr(g, 'name') ?? attr(g, 'type');
+		const gType = attr(g, 'type');
+		// A group is known by its name or its type; a nested group also keeps its ancestors'
+		// labels, so a Param two groups down inside "Classification" still counts as one.
+		const label = [group, gName, gType].filter(Boolean).join('|') || null;
+		collectParams(g, label, out);
+	}
+}
+
+function groupMatches(label: string | null, names: readonly string[]): boolean {
+	if (!label) return false;
+	const wanted = new Set(names.map(normaliseName));
+	return label.split('|').some((l) => wanted.has(normaliseName(l)));
+}
+
+/** The one value of a logical field; conflicting duplicates are refused. */
+function pick(
+	params: RawParam[],
+	names: readonly string[],
+	filter: (p: RawParam) => boolean = () => true
+): RawParam | null {
+	const wanted = new Set(names.map(normaliseName));
+	const hits = params.filter((p) => wanted.has(normaliseName(p.name)) && filter(p));
+	if (hits.length === 0) return null;
+	const first = hits[0];
+	for (const h of hits.slice(1)) {
+		if (h.value !== first.value) {
+			fail(`conflicting values for Param ${names[0]}: "${first.value}" and "${h.value}"`);
+		}
+	}
+	return first;
+}
+
+function parseNumber(p: RawParam, field: string): number {
+	const s = p.value.trim();
+	// Number('') is 0 and Number('0x10') is 16; accept only decimal notation.
+	if (!/^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/.test(s)) {
+		fail(`Param ${p.name} (${field}) is not a number: "${s.slice(0, 40)}"`);
+	}
+	return Number(s);
+}
+
+function parseProbability(p: RawParam | null, field: string): number | null {
+	if (!p) return null;
+	const v = parseNumber(p, field);
+	if (v < 0 || v > 1) fail(`Param ${p.name} (${field}) must lie in [0, 1], got ${v}`);
+	return v;
+}
+
+const ISO_RE = /^(\d{4})-(\d{2})-(\d{2})T(\d{2}):(\d{2}):(\d{2})(\.\d+)?(Z|[+-]\d{2}:?\d{2})?$/;
+
+/**
+ * ISO-8601 date-time → canonical UTC string. VOEvent 2.0 times without a zone are UTC
+ * (the Recommendation's default time scale for Who/Date and ISOTime; from memory).
+ */
+export function normaliseIsoTime(value: string, field: string): string {
+	const s = value.trim();
+	const m = ISO_RE.exec(s);
+	if (!m) fail(`${field} is not an ISO-8601 date-time: "${s.slice(0, 40)}"`);
+	let zone = m[8] ?? 'Z';
+	if (/^[+-]\d{4}$/.test(zone)) zone = `${zone.slice(0, 3)}:${zone.slice(3)}`;
+	const frac = m[7] ? m[7].slice(0, 4).padEnd(4, '0') : '.000';
+	const t = Date.parse(`${m[1]}-${m[2]}-${m[3]}T${m[4]}:${m[5]}:${m[6]}${frac}${zone}`);
+	if (!Number.isFinite(t)) fail(`${field} is not a valid date-time: "${s}"`);
+	return new Date(t).toISOString();
+}
+
+/** First ISOTime found anywhere under WhereWhen (depth-first). */
+function findIsoTime(node: unknown, depth = 0): string | null {
+	if (depth > 16 || !isNode(node)) return null;
+	if ('ISOTime' in node) {
+		const t = textOf(node.ISOTime);
+		if (t) return t;
+	}
+	for (const [k, v] of Object.entries(node)) {
+		if (k.startsWith(ATTR) || k === TEXT_KEY) continue;
+		for (const item of asArray(v as unknown)) {
+			const t = findIsoTime(item, depth + 1);
+			if (t) return t;
+		}
+	}
+	return null;
+}
+
+function byteLength(input: string | Uint8Array): number {
+	return typeof input === 'string' ? Buffer.byteLength(input, 'utf8') : input.byteLength;
+}
+
+/**
+ * Cheap checks on the raw text that must run before any parser: size, DOCTYPE, ENTITY.
+ * Exported so the listener and the inbox can refuse early with the same reasons.
+ */
+export function precheckXml(input: string | Uint8Array, opts: ParseOptions = {}): string {
+	const maxBytes = opts.maxBytes ?? DEFAULT_MAX_NOTICE_BYTES;
+	const size = byteLength(input);
+	if (size > maxBytes) fail(`notice is ${size} bytes, larger than the ${maxBytes}-byte limit`);
+	const xml = typeof input === 'string' ? input : new TextDecoder('utf-8', { fatal: false }).decode(input);
+	if (xml.trim() === '') fail('notice is empty');
+	if (/<!DOCTYPE/i.test(xml)) fail('DOCTYPE declarations are refused');
+	if (/<!ENTITY/i.test(xml)) fail('ENTITY declarations are refused');
+	return xml.charCodeAt(0) === 0xfeff ? xml.slice(1) : xml;
+}
+
+const parser = new XMLParser({
+	ignoreAttributes: false,
+	attributeNamePrefix: ATTR,
+	removeNSPrefix: true,
+	parseTagValue: false,
+	parseAttributeValue: false,
+	trimValues: true,
+	cdataPropName: CDATA_KEY,
+	textNodeName: TEXT_KEY,
+	processEntities: false,
+	htmlEntities: false,
+	ignoreDeclaration: true,
+	ignorePiTags: true
+});
+
+/**
+ * Parse VOEvent 2.0 XML into a {@link Notice}. Throws {@link NoticeParseError} with a one-line
+ * reason for anything refused.
+ */
+export function parseVoevent(input: string | Uint8Array, opts: ParseOptions = {}): Notice {
+	const xml = precheckXml(input, opts);
+	const valid = XMLValidator.validate(xml, { allowBooleanAttributes: false });
+	if (valid !== true) {
+		const e = valid.err;
+		fail(`malformed XML at line ${e.line}, column ${e.col}: ${e.msg}`);
+	}
+	let doc: XNode;
+	try {
+		doc = parser.parse(xml) as XNode;
+	} catch (e) {
+		fail(`malformed XML: ${(e as Error).message}`);
+	}
+	const roots = Object.keys(doc).filter((k) => !k.startsWith('?') && k !== TEXT_KEY && k !== CDATA_KEY);
+	if (roots.length !== 1 || roots[0] !== 'VOEvent') {
+		fail(`root element is ${roots.length ? `"${roots.join(', ')}"` : 'missing'}, not VOEvent`);
+	}
+	const root = doc.VOEvent;
+	if (!isNode(root)) fail('VOEvent element is empty');
+
+	const version = attr(root, 'version');
+	if (version !== null && !version.startsWith('2.')) fail(`unsupported VOEvent version "${version}" (2.0 expected)`);
+
+	const ivorn = attr(root, 'ivorn');
+	if (!ivorn) fail('VOEvent has no ivorn attribute');
+	const roleRaw = attr(root, 'role');
+	if (!roleRaw) fail('VOEvent has no role attribute');
+	const role = roleRaw.toLowerCase();
+	if (!(NOTICE_ROLES as readonly string[]).includes(role)) {
+		fail(`unsupported role "${roleRaw}" (expected observation, test or utility)`);
+	}
+
+	const dateText = textOf(child(child(root, 'Who'), 'Date'));
+	if (!dateText) fail('missing Who/Date (the time the notice was authored)');
+	const authoredAt = normaliseIsoTime(dateText, 'Who/Date');
+
+	const params: RawParam[] = [];
+	collectParams(child(root, 'What'), null, params);
+
+	const citations: { ivorn: string; cite: CiteType }[] = [];
+	for (const c of asArray(child(child(root, 'Citations'), 'EventIVORN') as unknown)) {
+		const target = textOf(c);
+		const cite = (attr(c, 'cite') ?? '').toLowerCase();
+		if (!target) fail('empty Citations/EventIVORN');
+		if (!(CITE_TYPES as readonly string[]).includes(cite)) {
+			fail(`Citations/EventIVORN cite="${cite}" is not followup, supersedes or retraction`);
+		}
+		citations.push({ ivorn: target, cite: cite as CiteType });
+	}
+
+	const idParam = pick(params, PARAM_NAMES.sourceEventId);
+	if (!idParam || !idParam.value) fail(`missing required Param ${PARAM_NAMES.sourceEventId.join(' / ')}`);
+
+	const kindParam = pick(params, PARAM_NAMES.kind);
+	let kind: NoticeKind;
+	if (kindParam) {
+		const k = KIND_ALIASES[normaliseName(kindParam.value)];
+		if (!k) fail(`Param ${kindParam.name} "${kindParam.value}" is not preliminary, initial, update or retraction`);
+		kind = k;
+	} else if (citations.some((c) => c.cite === 'retraction')) {
+		kind = 'retraction';
+	} else {
+		fail(`missing required Param ${PARAM_NAMES.kind.join(' / ')}`);
+	}
+
+	const farParam = pick(params, PARAM_NAMES.far);
+	let far: number | null = null;
+	if (farParam) {
+		const unit = normaliseUnit(farParam.unit);
+		const factor = FAR_UNITS_TO_HZ[unit];
+		if (factor === undefined) fail(`Param ${farParam.name} has unit "${farParam.unit}"; expected Hz or yr-1`);
+		far = parseNumber(farParam, 'far') * factor;
+		if (far < 0) fail(`Param ${farParam.name} (far) must not be negative`);
+	}
+
+	const urlParam = pick(params, PARAM_NAMES.skymapUrl);
+	const skymapUrl = urlParam && urlParam.value ? urlParam.value : null;
+
+	const inClass = (p: RawParam) => groupMatches(p.group, PARAM_NAMES.classificationGroup);
+	const classProbe = (names: readonly string[]) =>
+		pick(params, names, inClass) ?? pick(params, names.filter((n) => n.toLowerCase().startsWith('prob')));
+	const classParams = {
+		BNS: classProbe(PARAM_NAMES.BNS),
+		NSBH: classProbe(PARAM_NAMES.NSBH),
+		BBH: classProbe(PARAM_NAMES.BBH),
+		Terrestrial: classProbe(PARAM_NAMES.Terrestrial)
+	};
+	let classification: Classification | null = null;
+	if (Object.values(classParams).some(Boolean)) {
+		classification = {
+			BNS: parseProbability(classParams.BNS, 'BNS'),
+			NSBH: parseProbability(classParams.NSBH, 'NSBH'),
+			BBH: parseProbability(classParams.BBH, 'BBH'),
+			Terrestrial: parseProbability(classParams.Terrestrial, 'Terrestrial')
+		};
+		const sum = Object.values(classification).reduce<number>((a, b) => a + (b ?? 0), 0);
+		// Rounded probabilities in real notices can overshoot 1 by a few thousandths.
+		if (sum > 1.01) fail(`classification probabilities sum to ${sum.toFixed(3)}, more than 1`);
+	}
+
+	const propParams = {
+		HasNS: pick(params, PARAM_NAMES.HasNS),
+		HasRemnant: pick(params, PARAM_NAMES.HasRemnant),
+		HasMassGap: pick(params, PARAM_NAMES.HasMassGap)
+	};
+	let properties: NoticeProperties | null = null;
+	if (Object.values(propParams).some(Boolean)) {
+		properties = {
+			HasNS: parseProbability(propParams.HasNS, 'HasNS'),
+			HasRemnant: parseProbability(propParams.HasRemnant, 'HasRemnant'),
+			HasMassGap: parseProbability(propParams.HasMassGap, 'HasMassGap')
+		};
+	}
+
+	const timeText = findIsoTime(child(root, 'WhereWhen'));
+	const eventTime = timeText ? normaliseIsoTime(timeText, 'WhereWhen ISOTime') : null;
+
+	if (kind !== 'retraction') {
+		if (!eventTime) fail(`${kind} notice has no WhereWhen ISOTime (event time)`);
+		if (far === null) fail(`${kind} notice lacks required Param ${PARAM_NAMES.far.join(' / ')}`);
+		if (!classification) fail(`${kind} notice lacks the Classification group (BNS, NSBH, BBH, Terrestrial)`);
+		if (!skymapUrl) fail(`${kind} notice lacks required Param ${PARAM_NAMES.skymapUrl.join(' / ')}`);
+	}
+
+	const candidate = {
+		ivorn,
+		role,
+		authoredAt,
+		eventTime,
+		kind,
+		sourceEventId: idParam.value,
+		far,
+		classification,
+		properties,
+		skymapUrl,
+		citations
+	};
+	const checked = noticeSchema.safeParse(candidate);
+	if (!checked.success) {
+		const issue = checked.error.issues[0];
+		fail(`invalid notice field ${issue.path.join('.') || '(root)'}: ${issue.message}`);
+	}
+	return checked.data;
+}
+
+function normaliseUnit(unit: string | null): string {
+	if (unit === null || unit.trim() === '') return 'hz';
+	return unit.toLowerCase().replace(/\s+/g, '');
+}
+
+/** Short human summary of a notice, for the CLI and logs. */
+export function describeNotice(n: Notice): string {
+	const lines = [`${n.sourceEventId} ${n.kind} (${n.role}) ${n.ivorn}`, `  authored ${n.authoredAt}`];
+	if (n.eventTime) lines.push(`  event time ${n.eventTime}`);
+	if (n.far !== null) {
+		const perYear = farHzToPerYear(n.far);
+		lines.push(`  FAR ${n.far.toExponential(3)} Hz (${perYear < 1e-2 ? perYear.toExponential(2) : perYear.toFixed(3)} per year)`);
+	}
+	if (n.classification) {
+		const c = n.classification;
+		const f = (v: number | null) => (v === null ? '–' : v.toFixed(3));
+		lines.push(`  classification BNS ${f(c.BNS)}  NSBH ${f(c.NSBH)}  BBH ${f(c.BBH)}  Terrestrial ${f(c.Terrestrial)}`);
+	}
+	if (n.properties) {
+		const p = n.properties;
+		const f = (v: number | null) => (v === null ? '–' : v.toFixed(3));
+		lines.push(`  properties HasNS ${f(p.HasNS)}  HasRemnant ${f(p.HasRemnant)}  HasMassGap ${f(p.HasMassGap)}`);
+	}
+	if (n.skymapUrl) lines.push(`  sky map ${n.skymapUrl}`);
+	for (const c of n.citations) lines.push(`  cites (${c.cite}) ${c.ivorn}`);
+	return lines.join('\n');
+}
+
+/**
+ * The ivorn attribute of a VOEvent's root element, read without a full parse (for acks of
+ * notices that may be malformed). Returns null when none is found in the first 4 kB.
+ */
+export function sniffIvorn(xml: string): string | null {
+	const head = xml.slice(0, 4096);
+	const m = /<(?:[A-Za-z_][\w.-]*:)?VOEvent\b[^>]*?\sivorn\s*=\s*(["'])([^"'<>]*)\1/.exec(head);
+	if (!m) return null;
+	try {
+		return decodeXmlEntities(m[2]).trim();
+	} catch {
+		return m[2].trim();
+	}
+}

@@ -1,0 +1,88 @@
+import { describe, expect, it } from 'vitest';
+import {
+	conditionalMoments,
+	conditionalPdf,
+	distanceNorm,
+	dPdV,
+	normalCdf,
+	parametersFromMoments
+} from './distance.ts';
+
+/** Composite Simpson rule on [0, hi] with n (even) intervals. */
+function simpson(f: (r: number) => number, hi: number, n = 200000): number {
+	const h = hi / n;
+	let s = f(0) + f(hi);
+	for (let k = 1; k < n; k++) s += (k % 2 ? 4 : 2) * f(k * h);
+	return (s * h) / 3;
+}
+
+const cases: [number, number][] = [
+	[150, 40], // well measured (x = 3.75)
+	[100, 80], // x = 1.25
+	[30, 90], // x = 1/3: strongly truncated at r = 0
+	[-50, 60], // negative μ: allowed by the ansatz
+	[-200, 50], // x = −4: Mills-ratio branch
+	[800, 20] // x = 40
+];
+
+describe('Singer et al. 2016 distance ansatz', () => {
+	it('Φ matches tabulated values (Abramowitz & Stegun Table 26.1, from memory to the digits shown)', () => {
+		expect.hasAssertions();
+		expect(normalCdf(0)).toBe(0.5);
+		expect(normalCdf(1)).toBeCloseTo(0.841344746068543, 14);
+		expect(normalCdf(-1.96)).toBeCloseTo(0.024997895148220, 14);
+		expect(normalCdf(3)).toBeCloseTo(0.998650101968370, 14);
+		expect(normalCdf(-5) / 2.866515718791939e-7).toBeCloseTo(1, 12);
+		// Φ(x) + Φ(−x) = 1 across the branch switch at |x| = 3.
+		for (const x of [0.3, 2.99, 3, 3.01, 6]) expect(normalCdf(x) + normalCdf(-x)).toBeCloseTo(1, 15);
+	});
+
+	it.each(cases)('μ=%d σ=%d: closed-form norm, mean and std equal numerical integration to 0.1 percent (tested at 1e-8)', (mu, sigma) => {
+		expect.hasAssertions();
+		const hi = Math.max(mu, 0) + 40 * sigma;
+		const gauss = (r: number) => Math.exp(-0.5 * ((r - mu) / sigma) ** 2) / (sigma * Math.sqrt(2 * Math.PI));
+		const z = simpson((r) => r * r * gauss(r), hi);
+		const norm = distanceNorm(mu, sigma);
+		expect(Math.abs(norm * z - 1)).toBeLessThan(1e-8);
+		const m1 = simpson((r) => r * conditionalPdf(r, mu, sigma, norm), hi);
+		const m2 = simpson((r) => r * r * conditionalPdf(r, mu, sigma, norm), hi);
+		const std = Math.sqrt(m2 - m1 * m1);
+		const c = conditionalMoments(mu, sigma)!;
+		expect(Math.abs(c.meanMpc / m1 - 1)).toBeLessThan(1e-8);
+		expect(Math.abs(c.stdMpc / std - 1)).toBeLessThan(1e-8);
+	});
+
+	it('dP/dV integrates back to the pixel probability: ∫ dP/dV r² dr = ρ', () => {
+		expect.hasAssertions();
+		const [mu, sigma, rho] = [120, 50, 3.5];
+		const norm = distanceNorm(mu, sigma);
+		const integral = simpson((r) => dPdV(rho, r, mu, sigma, norm) * r * r, mu + 40 * sigma);
+		expect(integral / rho).toBeCloseTo(1, 9);
+	});
+
+	it('pixels without distance information give null / 0', () => {
+		expect.hasAssertions();
+		expect(conditionalMoments(Infinity, 1)).toBeNull();
+		expect(conditionalMoments(100, 0)).toBeNull();
+		expect(dPdV(1, 100, Infinity, 1, 0)).toBe(0);
+	});
+
+	it.each([
+		[200, 60],
+		[40, 20],
+		[500, 5],
+		[100, 55]
+	])('inverse: mean %d std %d → (μ, σ, norm) → the same moments', (mean, std) => {
+		expect.hasAssertions();
+		const p = parametersFromMoments(mean, std);
+		const c = conditionalMoments(p.mu, p.sigma)!;
+		expect(c.meanMpc / mean).toBeCloseTo(1, 9);
+		expect(c.stdMpc / std).toBeCloseTo(1, 9);
+		expect(p.norm).toBeCloseTo(distanceNorm(p.mu, p.sigma), 15);
+	});
+
+	it('inverse refuses std/mean beyond the Gamma(3) limit 1/√3', () => {
+		expect.hasAssertions();
+		expect(() => parametersFromMoments(100, 60)).toThrow(/too large for the distance ansatz/);
+	});
+});

@@ -1,0 +1,70 @@
+import { test, expect, request as newRequest, type APIRequestContext } from '@playwright/test';
+import { DEMO_PEOPLE } from '../../../seeds/scenario';
+import { ROLES_LIST, type RoleName } from '../../../src/lib/roles';
+import { BASE_URL } from '../../../playwright.config';
+
+/**
+ * Every role against every mutating form action. An empty form is sent: a role that may act
+ * gets past the permission check and is stopped by validation (400); a role that may not gets 403;
+ * nobody signed in is sent to sign in (303 to /sign-in) without the action running. `ok` marks actions that need no input (they succeed: 200).
+ */
+const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean }[] = [
+	{ path: '/admin?/invite', allowed: ['admin', 'coordinator'] },
+	{ path: '/admin?/withdraw', allowed: ['admin', 'coordinator'] },
+	{ path: '/admin?/roles', allowed: ['admin'] },
+	{ path: '/admin?/disable', allowed: ['admin'] },
+	{ path: '/admin?/enable', allowed: ['admin'] },
+	{ path: '/admin/tokens?/issue', allowed: ['admin'] },
+	{ path: '/admin/tokens?/revoke', allowed: ['admin'] },
+	{ path: '/teams?/create', allowed: ['admin', 'coordinator'] },
+	{ path: '/teams?/addMember', allowed: ['admin', 'coordinator'] },
+	{ path: '/teams?/removeMember', allowed: ['admin', 'coordinator'] },
+	{ path: '/telescopes/new', allowed: ['admin', 'coordinator'] },
+	{ path: '/telescopes/{telescopeId}', allowed: ['admin', 'coordinator'] },
+	{ path: '/account?/password', allowed: 'all' },
+	{ path: '/account?/signOutOthers', allowed: 'all', ok: true }
+];
+
+async function client(role: RoleName | null): Promise<APIRequestContext> {
+	const ctx = await newRequest.newContext({ baseURL: BASE_URL, extraHTTPHeaders: { origin: BASE_URL, accept: 'text/html' } });
+	if (role) {
+		const person = DEMO_PEOPLE.find((p) => p.roles.includes(role))!;
+		const res = await ctx.post('/sign-in', { form: { email: person.email, password: person.password }, maxRedirects: 0 });
+		expect(res.status(), `sign in as ${role}`).toBe(303);
+	}
+	return ctx;
+}
+
+let telescopeId = '';
+test.beforeAll(async () => {
+	const admin = await client('admin');
+	const html = await (await admin.get('/telescopes')).text();
+	telescopeId = html.match(/href="\/telescopes\/([a-z0-9]+)"/)![1];
+	await admin.dispose();
+});
+
+for (const role of [...ROLES_LIST, null] as const) {
+	test(`permissions matrix: ${role ?? 'signed out'}`, async () => {
+		const ctx = await client(role);
+		const seen: string[] = [];
+		const wanted: string[] = [];
+		for (const row of MATRIX) {
+			const res = await ctx.post(row.path.replace('{telescopeId}', telescopeId), { form: {}, maxRedirects: 0 });
+			const allowed = role !== null && (row.allowed === 'all' || row.allowed.includes(role));
+			const expected = role === null ? '303 /sign-in' : !allowed ? 403 : row.ok ? 200 : 400;
+			const location = res.headers()['location']?.split('?')[0];
+			seen.push(`${row.path} ${res.status()}${location ? ' ' + location : ''}`);
+			wanted.push(`${row.path} ${expected}`);
+		}
+		expect(seen).toEqual(wanted);
+		await ctx.dispose();
+	});
+}
+
+test('the API refuses without credentials in its error shape', async () => {
+	const ctx = await client(null);
+	const res = await ctx.get('/api/v1/me');
+	expect(res.status()).toBe(401);
+	expect(await res.json()).toEqual({ error: { code: 'unauthenticated', message: expect.any(String) } });
+	await ctx.dispose();
+});
