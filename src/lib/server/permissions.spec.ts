@@ -24,7 +24,11 @@ describe('permissions table', () => {
 			'teams.manage': ['admin', 'coordinator'],
 			'telescopes.manage': ['admin', 'coordinator'],
 			'tokens.manage': ['admin'],
-			'mailbox.view': ['admin', 'coordinator']
+			'mailbox.view': ['admin', 'coordinator'],
+			'notices.submit': ['admin', 'coordinator', 'duty'],
+			'events.acknowledge': ['duty', 'coordinator'],
+			'triage.manage': ['admin', 'coordinator'],
+			'shifts.manage': ['admin', 'coordinator']
 		};
 		expect(Object.keys(PERMISSIONS).sort()).toEqual(Object.keys(expected).sort());
 		for (const [perm, roles] of Object.entries(expected) as [Permission, Role[]][]) {

@@ -20,7 +20,11 @@ export const PERMISSIONS = {
 	'teams.manage': { roles: ['admin', 'coordinator'] },
 	'telescopes.manage': { roles: ['admin', 'coordinator'] },
 	'tokens.manage': { roles: ['admin'] },
-	'mailbox.view': { roles: ['admin', 'coordinator'] }
+	'mailbox.view': { roles: ['admin', 'coordinator'] },
+	'notices.submit': { roles: ['admin', 'coordinator', 'duty'] },
+	'events.acknowledge': { roles: ['duty', 'coordinator'] },
+	'triage.manage': { roles: ['admin', 'coordinator'] },
+	'shifts.manage': { roles: ['admin', 'coordinator'] }
 } as const satisfies Record<string, { roles: readonly Role[]; robot?: boolean }>;
 
 export type Permission = keyof typeof PERMISSIONS;
