@@ -51,6 +51,19 @@ export function publish(message: LiveMessage): void {
 	io.of('/live').to(message.room).emit('live', message);
 }
 
+type RecordedListener = (message: LiveMessage) => void;
+const recordedListeners = new Set<RecordedListener>();
+
+/**
+ * Server-side reaction to logged actions (e.g. paging the duty scientist when a significant
+ * notice has been processed). Listeners run after the broadcast; an exception in one is logged
+ * and does not stop the others. Returns the function that removes the listener.
+ */
+export function onRecorded(listener: RecordedListener): () => void {
+	recordedListeners.add(listener);
+	return () => recordedListeners.delete(listener);
+}
+
 /**
  * Write an action to the event log and broadcast it. Call after the change itself has been
  * committed so that no client hears of something the database does not hold.
@@ -63,6 +76,13 @@ export function record(actor: Actor, action: string, room: Room, payload: Record
 		.get();
 	const message = toMessage(row);
 	publish(message);
+	for (const listener of recordedListeners) {
+		try {
+			listener(message);
+		} catch (e) {
+			console.error(`listener for ${action} failed`, e);
+		}
+	}
 	return message;
 }
 
