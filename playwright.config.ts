@@ -1,6 +1,6 @@
 import { defineConfig } from '@playwright/test';
 
-const PORT = 4173;
+const PORT = Number(process.env.E2E_PORT ?? 4173);
 export const BASE_URL = `http://localhost:${PORT}`;
 
 export default defineConfig({
