@@ -20,7 +20,7 @@ import {
 	type Site
 } from '../../lib/targeting/night.ts';
 import type { CommandModule } from '../strainline.ts';
-import { formatUtc, optionalNumber, requireNumber, requireString } from './night.ts';
+import { formatUtc, optionalNumber, readSite, requireNumber, requireString } from './night.ts';
 
 /** Default solar-elongation limit; a placeholder of common practice, set per telescope. */
 const DEFAULT_MIN_SUN_ELONGATION_DEG = 45;
@@ -48,12 +48,7 @@ const command: CommandModule = {
 		'min-sun-elongation': { type: 'string' }
 	},
 	async run(_positionals, values) {
-		const site: Site = {
-			latitudeDeg: requireNumber(values, 'lat'),
-			longitudeDeg: requireNumber(values, 'lon'),
-			elevationM: optionalNumber(values, 'elevation') ?? 0
-		};
-		validateSite(site);
+		const site = readSite(values);
 		const target = { raDeg: requireNumber(values, 'ra'), decDeg: requireNumber(values, 'dec') };
 		validateTarget(target);
 		const time = parseUtcTime(requireString(values, 'time'));

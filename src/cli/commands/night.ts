@@ -37,6 +37,17 @@ export function requireNumber(values: Values, name: string): number {
 }
 
 /** `2026-03-01T04:30:12.345Z` → `2026-03-01 04:30:12`. */
+/** The site options shared by `night` and `altaz`, checked. */
+export function readSite(values: Values): Site {
+	const site: Site = {
+		latitudeDeg: requireNumber(values, 'lat'),
+		longitudeDeg: requireNumber(values, 'lon'),
+		elevationM: optionalNumber(values, 'elevation') ?? 0
+	};
+	validateSite(site);
+	return site;
+}
+
 export function formatUtc(isoTime: string): string {
 	return isoTime.replace('T', ' ').replace(/\.\d+Z$|Z$/, '');
 }
@@ -55,12 +66,7 @@ const command: CommandModule = {
 		'min-altitude': { type: 'string' }
 	},
 	async run(_positionals, values) {
-		const site: Site = {
-			latitudeDeg: requireNumber(values, 'lat'),
-			longitudeDeg: requireNumber(values, 'lon'),
-			elevationM: optionalNumber(values, 'elevation') ?? 0
-		};
-		validateSite(site);
+		const site = readSite(values);
 		const date = parseLocalDate(requireString(values, 'date'));
 		const night = nightWindow(site, date);
 

@@ -1,5 +1,6 @@
 import { sql } from 'drizzle-orm';
 import { ROLES_LIST } from '../../roles';
+import type { SkymapSummary } from '../../sky/index';
 import { sqliteTable, text, integer, real, primaryKey, index, check } from 'drizzle-orm/sqlite-core';
 
 /** Roles a person can hold; one person may hold several. */
@@ -282,18 +283,7 @@ export const notice = sqliteTable(
 	(t) => [index('notice_event_idx').on(t.eventId, t.authoredAt)]
 );
 
-export interface SkymapSummary {
-	area50: number;
-	area90: number;
-	area99: number | null;
-	distanceMean: number | null;
-	distanceStd: number | null;
-	pixels: number;
-	maxOrder: number;
-	probabilitySum: number;
-	peak: { ra: number; dec: number };
-	warnings: string[];
-}
+export type { SkymapSummary };
 
 export const skymap = sqliteTable(
 	'skymap',
