@@ -4,6 +4,8 @@
 import http from 'node:http';
 import { attachSocketIO } from './src/lib/server/socket-host.js';
 
+// Uploaded sky maps are larger than adapter-node's 512 kB default body limit.
+process.env.BODY_SIZE_LIMIT ??= '80M';
 const { handler } = await import('./build/handler.js');
 const server = http.createServer(handler);
 attachSocketIO(server);

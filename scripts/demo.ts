@@ -1,17 +1,41 @@
 /**
- * `npm run demo`: build the app, migrate and seed the invented demo collaboration, then start
- * the app (with its local fake SMTP server) on the embedded defaults. Ctrl-C stops everything.
+ * `npm run demo`: build the app, migrate and seed the invented demo collaboration (with a duty
+ * roster around now), start the fake alert broker and the app (with its local fake SMTP
+ * server), and once the app's listener has subscribed, play the broker's scenarios: the
+ * neutron-star merger (preliminary, initial, update), a retraction, a black-hole merger, a
+ * test event and a malformed notice. Ctrl-C stops everything.
+ *
+ *   npm run demo -- [--no-build] [--scenario NAME|all] [--speed X] [--loop]
+ *                   [--vtp-port N] [--http-port N]
+ *
+ * At the default speed of 1 the neutron-star story takes about 85 s.
  */
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import { existsSync } from 'node:fs';
+import { parseArgs } from 'node:util';
 import { openDatabase } from '../src/lib/server/db';
 import { seedDemo } from '../seeds/demo';
+import { startBroker } from '../fake-alert-broker/broker.ts';
+
+const { values: args } = parseArgs({
+	options: {
+		'no-build': { type: 'boolean' },
+		scenario: { type: 'string', default: 'all' },
+		speed: { type: 'string', default: '1' },
+		loop: { type: 'boolean' },
+		'vtp-port': { type: 'string', default: '8099' },
+		'http-port': { type: 'string', default: '8098' }
+	},
+	strict: true
+});
+const speed = Number(args.speed);
+if (!Number.isFinite(speed) || speed <= 0) throw new Error(`--speed must be a positive number, got "${args.speed}"`);
 
 const port = Number(process.env.PORT ?? 3000);
 const origin = process.env.ORIGIN ?? `http://localhost:${port}`;
-const env = { ...process.env, PORT: String(port), ORIGIN: origin, HOST: process.env.HOST ?? '127.0.0.1' };
+const env: NodeJS.ProcessEnv = { ...process.env, PORT: String(port), ORIGIN: origin, HOST: process.env.HOST ?? '127.0.0.1' };
 
-if (!process.argv.includes('--no-build') || !existsSync('build/handler.js')) {
+if (!args['no-build'] || !existsSync('build/handler.js')) {
 	console.log('Building the app…');
 	const built = spawnSync('npx', ['vite', 'build', '--logLevel', 'warn'], { stdio: 'inherit', env });
 	if (built.status !== 0) process.exit(built.status ?? 1);
@@ -20,9 +44,19 @@ if (!process.argv.includes('--no-build') || !existsSync('build/handler.js')) {
 const { created } = await seedDemo(openDatabase(env.DATABASE_URL || undefined));
 console.log(created ? 'Seeded the demo collaboration (invented data).' : 'Demo collaboration already seeded.');
 
+const broker = await startBroker({
+	host: '127.0.0.1',
+	vtpPort: Number(args['vtp-port']),
+	httpPort: Number(args['http-port']),
+	log: (m) => console.log(`[broker] ${m}`)
+});
+env.VTP_BROKER = `127.0.0.1:${broker.vtpPort}`;
+env.VTP_ARCHIVE_URL = broker.httpBase;
+
 const children: ChildProcess[] = [];
-function start(name: string, command: string, args: string[]) {
-	const child = spawn(command, args, { stdio: ['ignore', 'inherit', 'inherit'], env });
+const abort = new AbortController();
+function start(name: string, command: string, argv: string[]) {
+	const child = spawn(command, argv, { stdio: ['ignore', 'inherit', 'inherit'], env });
 	child.on('exit', (code) => {
 		console.log(`${name} exited (${code})`);
 		shutdown(code ?? 0);
@@ -31,11 +65,28 @@ function start(name: string, command: string, args: string[]) {
 }
 
 function shutdown(code = 0) {
+	abort.abort();
 	for (const c of children) if (c.exitCode === null) c.kill('SIGTERM');
+	void broker.stop();
 	setTimeout(() => process.exit(code), 500).unref();
 }
 process.on('SIGINT', () => shutdown(0));
 process.on('SIGTERM', () => shutdown(0));
 
 start('app', 'node', ['server.js']);
-console.log(`\nStrainline demo: ${origin}  (sign in as admin@strainline.demo / admin-demo-pass; see README for every role)\n`);
+console.log(`\nStrainline demo: ${origin}`);
+console.log('  duty scientist on shift: duty@strainline.demo / duty-demo-pass (pages arrive in /mailbox, as coordinator or admin)');
+console.log('  coordinator: coordinator@strainline.demo / coordinator-demo-pass; admin: admin@strainline.demo / admin-demo-pass\n');
+
+// Play once the app listens, so that nobody misses the first notice (the archive would back-fill it anyway).
+const until = Date.now() + 60_000;
+while (broker.subscriberCount() === 0 && Date.now() < until && !abort.signal.aborted) await new Promise((r) => setTimeout(r, 250));
+if (!abort.signal.aborted) {
+	console.log(`[broker] playing "${args.scenario}" at speed ${speed}${args.loop ? ', looping' : ''}`);
+	broker
+		.play(args.scenario!, { speed, loop: args.loop, signal: abort.signal })
+		.then(() => {
+			if (!abort.signal.aborted) console.log(`[broker] scenario "${args.scenario}" played; still serving sky maps and the archive`);
+		})
+		.catch((e: Error) => console.error(`[broker] ${e.message}`));
+}

@@ -2,7 +2,7 @@
  * Seed the invented demo collaboration (idempotent: does nothing when it is already there).
  * Run: `npm run seed` (uses DATABASE_URL or data/strainline.sqlite).
  */
-import { eq } from 'drizzle-orm';
+import { and, eq, gt, inArray, lte } from 'drizzle-orm';
 import { pathToFileURL } from 'node:url';
 import { openDatabase, type DB } from '../src/lib/server/db';
 import * as table from '../src/lib/server/db/schema';
@@ -10,11 +10,53 @@ import { createUser } from '../src/lib/server/people';
 import { createTeam } from '../src/lib/server/teams';
 import { createTelescope } from '../src/lib/server/telescopes';
 import { SYSTEM } from '../src/lib/server/realtime';
+import { randomId } from '../src/lib/server/auth';
 import { DEMO_PEOPLE, DEMO_TEAMS, DEMO_TELESCOPES } from './scenario';
+
+const DAY_MS = 24 * 3600_000;
+/** The demo roster reaches this far either side of the moment it is seeded. */
+export const DEMO_ROSTER_HALF_SPAN_MS = 4 * DAY_MS;
+
+/**
+ * Put the demo duty scientist on shift (rank 0) with the demo coordinator as back-up (rank 1),
+ * from four days before `now` to four days after, so a demo started any time finds someone on
+ * duty. Does nothing while either of them already has a shift covering `now`.
+ */
+export function seedDemoRoster(database: DB, now = new Date()): { created: boolean } {
+	const emails = ['duty@strainline.demo', 'coordinator@strainline.demo'];
+	const people = database.select({ id: table.user.id, email: table.user.email }).from(table.user).where(inArray(table.user.email, emails)).all();
+	if (people.length === 0) return { created: false };
+	const covering = database
+		.select({ id: table.dutyShift.id })
+		.from(table.dutyShift)
+		.where(and(inArray(table.dutyShift.userId, people.map((p) => p.id)), lte(table.dutyShift.startsAt, now), gt(table.dutyShift.endsAt, now)))
+		.get();
+	if (covering) return { created: false };
+	const startsAt = new Date(now.getTime() - DEMO_ROSTER_HALF_SPAN_MS);
+	const endsAt = new Date(now.getTime() + DEMO_ROSTER_HALF_SPAN_MS);
+	for (const p of people) {
+		const rank = emails.indexOf(p.email);
+		database
+			.insert(table.dutyShift)
+			.values({
+				id: randomId(),
+				userId: p.id,
+				startsAt,
+				endsAt,
+				rank,
+				handoverNote: rank === 0 ? 'Demo shift: quiet so far. The alert listener is connected to the local fake broker.' : ''
+			})
+			.run();
+	}
+	return { created: true };
+}
 
 export async function seedDemo(database: DB): Promise<{ created: boolean }> {
 	const already = database.select({ id: table.user.id }).from(table.user).where(eq(table.user.email, DEMO_PEOPLE[0].email)).get();
-	if (already) return { created: false };
+	if (already) {
+		seedDemoRoster(database);
+		return { created: false };
+	}
 	const actor = { ...SYSTEM, label: 'demo seed' };
 	const teamIds = new Map<string, string>();
 	for (const t of DEMO_TEAMS) teamIds.set(t.key, createTeam(actor, { name: t.name, region: t.region, description: t.description, isDemo: true }));
@@ -22,6 +64,7 @@ export async function seedDemo(database: DB): Promise<{ created: boolean }> {
 	for (const p of DEMO_PEOPLE) {
 		await createUser({ email: p.email, name: p.name, password: p.password, roles: p.roles, teamIds: p.teams.map((k) => teamIds.get(k)!), isDemo: true });
 	}
+	seedDemoRoster(database);
 	return { created: true };
 }
 

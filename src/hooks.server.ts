@@ -4,11 +4,14 @@ import { openDatabase } from '$lib/server/db';
 import * as auth from '$lib/server/auth';
 import { startMail } from '$lib/server/mail';
 import { installRealtime } from '$lib/server/realtime';
+import { installDuty } from '$lib/server/duty';
 
 export const init: ServerInit = async () => {
 	openDatabase();
 	installRealtime();
+	installDuty();
 	await startMail();
+	await (await import('$lib/server/alerts/service')).startAlerts();
 };
 
 const handleAuth: Handle = async ({ event, resolve }) => {

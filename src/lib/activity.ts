@@ -12,7 +12,18 @@ const PHRASES: Record<string, string> = {
 	'telescope.created': 'Telescope added',
 	'telescope.updated': 'Telescope updated',
 	'token.issued': 'API token issued',
-	'token.revoked': 'API token revoked'
+	'token.revoked': 'API token revoked',
+	'duty.paged': 'Duty scientist paged',
+	'duty.escalated': 'Page escalated to the next person on the roster',
+	'duty.escalation-exhausted': 'Page unanswered: nobody further on the roster',
+	'duty.nobody-on-shift': 'Nobody on shift: every duty scientist paged',
+	'duty.nobody-to-page': 'Nobody could be paged',
+	'duty.mail-failed': 'A page e-mail could not be sent',
+	'event.acknowledged': 'Event acknowledged',
+	'shift.added': 'Shift added to the roster',
+	'shift.removed': 'Shift removed from the roster',
+	'shift.handover-written': 'Hand-over note written',
+	'event.created': 'New event', 'notice.processed': 'Notice processed', 'notice.rejected': 'Malformed notice kept in the inbox', 'skymap.analysed': 'Sky map analysed', 'skymap.failed': 'Sky map could not be used', 'event.retracted': 'Event retracted by the source', 'triage.policy-changed': 'Triage policy changed'
 };
 
 /** A short sentence for an event-log action, for the board's activity list. */

@@ -11,7 +11,9 @@ export const load: LayoutServerLoad = ({ locals }) => {
 		{ href: '/events', label: 'Events' },
 		{ href: '/candidates', label: 'Candidates' },
 		{ href: '/telescopes', label: 'Telescopes' },
-		{ href: '/teams', label: 'Teams' }
+		{ href: '/teams', label: 'Teams' },
+		{ href: '/roster', label: 'Roster' },
+		{ href: '/triage', label: 'Triage' }
 	];
 	if (can(principal, 'admin.view')) nav.push({ href: '/admin', label: 'Admin' });
 	if (usesFakeSmtp() && can(principal, 'mailbox.view')) nav.push({ href: '/mailbox', label: 'Mailbox' });

@@ -1,12 +1,19 @@
+import { redirect } from '@sveltejs/kit';
 import { desc, eq } from 'drizzle-orm';
-import type { PageServerLoad } from './$types';
+import { z } from 'zod';
+import type { Actions, PageServerLoad } from './$types';
 import { db } from '$lib/server/db';
 import * as table from '$lib/server/db/schema';
-import { requirePermission } from '$lib/server/guard';
+import { requirePermission, requireUser } from '$lib/server/guard';
+import { can } from '$lib/server/permissions';
+import { validateForm, failWith } from '$lib/server/forms';
+import { boardEvents } from '$lib/server/board';
+import * as duty from '$lib/server/duty';
 
-export const load: PageServerLoad = ({ locals }) => {
+export const load: PageServerLoad = ({ locals, depends }) => {
 	if (!locals.user) return { board: null };
 	requirePermission('board.view');
+	depends('app:board');
 	const activity = db
 		.select({ seq: table.eventLog.seq, action: table.eventLog.action, actor: table.eventLog.actorLabel, at: table.eventLog.createdAt })
 		.from(table.eventLog)
@@ -15,5 +22,32 @@ export const load: PageServerLoad = ({ locals }) => {
 		.limit(15)
 		.all()
 		.map((r) => ({ ...r, at: r.at.toISOString() }));
-	return { board: { activity } };
+	const onShift = duty.onShift().map((s) => ({ name: s.name, rank: s.rank, endsAt: s.endsAt.toISOString(), you: s.userId === locals.user!.id }));
+	return {
+		board: {
+			activity,
+			events: boardEvents(),
+			onShift,
+			canAcknowledge: can({ user: locals.user }, 'events.acknowledge')
+		}
+	};
+};
+
+const ackSchema = z.object({ eventId: z.string({ error: 'Choose an event.' }).trim().min(1, 'Choose an event.').max(64) });
+
+export const actions: Actions = {
+	acknowledge: async ({ request, locals }) => {
+		// The board lives outside the signed-in layout, so send a signed-out visitor to sign in as that layout would.
+		if (!locals.user && !locals.telescopeId) redirect(303, '/sign-in?next=%2F');
+		const user = requireUser('events.acknowledge');
+		const { data, form, failure } = await validateForm(request, ackSchema);
+		if (failure) return failure;
+		try {
+			const { latencyS } = duty.acknowledge(user, data.eventId);
+			return { done: `Acknowledged ${Math.round(latencyS)} s after the notice arrived.`, eventId: data.eventId };
+		} catch (e) {
+			if (e instanceof duty.DutyError) return failWith(form, {}, 400, e.message);
+			throw e;
+		}
+	}
 };

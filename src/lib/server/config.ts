@@ -10,6 +10,44 @@ export interface Config {
 	invitationLifetimeMs: number;
 	resetLifetimeMs: number;
 	signInLimit: { attempts: number; windowMs: number };
+	alerts: AlertsConfig;
+}
+
+/** Alert ingestion: the broker, the sky-map fetcher and where files go. */
+export interface AlertsConfig {
+	/** `host:port` of a VTP broker; null = no listener. */
+	vtpBroker: string | null;
+	/** Base URL of the broker's notice archive (`{url}/notices?since=`); null = no back-fill; "auto" = VTP port − 1 on the broker's host. */
+	vtpArchiveUrl: string | null;
+	/** Hosts sky maps may be fetched from (exact names, or ".domain" for any sub-domain). */
+	skymapHosts: string[];
+	skymapMaxBytes: number;
+	skymapTimeoutMs: number;
+	/** Folder for stored files (sky maps under `skymaps/`, uploads under `uploads/`). */
+	storageDir: string;
+	/** How often unprocessed inbox rows are retried. */
+	retryIntervalMs: number;
+}
+
+function list(name: string, fallback: string[]): string[] {
+	const raw = process.env[name];
+	if (raw === undefined || raw.trim() === '') return fallback;
+	return raw
+		.split(',')
+		.map((h) => h.trim().toLowerCase())
+		.filter(Boolean);
+}
+
+export function loadAlertsConfig(): AlertsConfig {
+	return {
+		vtpBroker: process.env.VTP_BROKER?.trim() || null,
+		vtpArchiveUrl: process.env.VTP_ARCHIVE_URL?.trim() || null,
+		skymapHosts: list('SKYMAP_HOSTS', ['127.0.0.1', 'localhost']),
+		skymapMaxBytes: int('SKYMAP_MAX_MB', 64) * 1024 * 1024,
+		skymapTimeoutMs: int('SKYMAP_TIMEOUT_S', 20) * 1000,
+		storageDir: process.env.STORAGE_DIR?.trim() || 'data',
+		retryIntervalMs: int('ALERTS_RETRY_S', 30) * 1000
+	};
 }
 
 function int(name: string, fallback: number): number {
@@ -29,7 +67,8 @@ export function loadConfig(): Config {
 		publicUrl: (process.env.ORIGIN || process.env.PUBLIC_URL || 'http://localhost:3000').replace(/\/$/, ''),
 		invitationLifetimeMs: int('INVITATION_LIFETIME_HOURS', 72) * 3600_000,
 		resetLifetimeMs: int('RESET_LIFETIME_MINUTES', 60) * 60_000,
-		signInLimit: { attempts: int('SIGN_IN_ATTEMPTS', 8), windowMs: int('SIGN_IN_WINDOW_MINUTES', 15) * 60_000 }
+		signInLimit: { attempts: int('SIGN_IN_ATTEMPTS', 8), windowMs: int('SIGN_IN_WINDOW_MINUTES', 15) * 60_000 },
+		alerts: loadAlertsConfig()
 	};
 }
 

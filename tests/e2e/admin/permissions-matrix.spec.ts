@@ -22,7 +22,13 @@ const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean }[] = [
 	{ path: '/telescopes/new', allowed: ['admin', 'coordinator'] },
 	{ path: '/telescopes/{telescopeId}', allowed: ['admin', 'coordinator'] },
 	{ path: '/account?/password', allowed: 'all' },
-	{ path: '/account?/signOutOthers', allowed: 'all', ok: true }
+	{ path: '/account?/signOutOthers', allowed: 'all', ok: true },
+	{ path: '/?/acknowledge', allowed: ['duty', 'coordinator'] },
+	{ path: '/roster?/add', allowed: ['admin', 'coordinator'] },
+	{ path: '/roster?/remove', allowed: ['admin', 'coordinator'] },
+	{ path: '/roster?/handover', allowed: 'all' },
+	{ path: '/events/upload', allowed: ['admin', 'coordinator', 'duty'] },
+	{ path: '/triage', allowed: ['admin', 'coordinator'] }
 ];
 
 async function client(role: RoleName | null): Promise<APIRequestContext> {

@@ -3,6 +3,7 @@ import { rmSync, existsSync } from 'node:fs';
 import { spawn, spawnSync } from 'node:child_process';
 import { openDatabase } from '../../../src/lib/server/db';
 import { seedDemo } from '../../../seeds/demo';
+import { startE2eBroker } from './broker';
 
 const file = process.env.DATABASE_URL ?? 'tests/e2e/.artifacts/e2e.sqlite';
 for (const suffix of ['', '-wal', '-shm']) rmSync(file + suffix, { force: true });
@@ -12,8 +13,13 @@ if (!existsSync('build/handler.js')) {
 	const built = spawnSync('npx', ['vite', 'build', '--logLevel', 'warn'], { stdio: 'inherit' });
 	if (built.status !== 0) process.exit(1);
 }
-const app = spawn('node', ['server.js'], { stdio: 'inherit', env: process.env });
-const stop = () => app.kill('SIGTERM');
+// The app listens to a fake broker that stays silent until a test publishes (see broker.ts).
+const broker = await startE2eBroker((m) => console.log(`[e2e broker] ${m}`));
+const app = spawn('node', ['server.js'], { stdio: 'inherit', env: { STORAGE_DIR: 'tests/e2e/.artifacts/storage', ...process.env, ...broker.env } });
+const stop = () => {
+	app.kill('SIGTERM');
+	void broker.stop();
+};
 process.on('SIGTERM', stop);
 process.on('SIGINT', stop);
 app.on('exit', (code) => process.exit(code ?? 0));

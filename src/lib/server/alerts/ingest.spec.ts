@@ -1,0 +1,337 @@
+import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { eq } from 'drizzle-orm';
+import { afterAll, afterEach, beforeAll, beforeEach, describe, expect, it } from 'vitest';
+import { startBroker, type FakeBroker } from '../../../../fake-alert-broker/broker.ts';
+import { generateSkymap, skymapToFits } from '../../../../fake-alert-broker/skymap.ts';
+import { createTestDatabase } from '../testing/database';
+import * as table from '../db/schema';
+import { onRecorded, type LiveMessage } from '../realtime';
+import { storedFileExists, useStorageRoot } from '../storage';
+import { updatePolicy, DEFAULT_TRIAGE_POLICY } from '../triage';
+import { commitNotice, eventIdFor, processInbox, retryPending } from './ingest';
+import { submitNotice } from './service';
+import type { DB } from '../db';
+
+const dir = fileURLToPath(new URL('../../../../tests/fixtures/notices/', import.meta.url));
+const raw = (name: string) => readFileSync(dir + name, 'utf8');
+/** astropy 5.2.1 / healpy 1.16.1 figures for the fixture map (tests/fixtures/notices/skymap-demo.astropy.json). */
+const astropy = JSON.parse(raw('skymap-demo.astropy.json')).maps[0] as { area50Deg2: number; area90Deg2: number; header: { DISTMEAN: number; DISTSTD: number } };
+
+let broker: FakeBroker;
+let storage: string;
+let database: DB;
+let log: LiveMessage[] = [];
+let unlisten: () => void;
+const fetchOpts = { allowedHosts: ['127.0.0.1'], timeoutMs: 3000 };
+
+/** A fixture notice whose sky-map URL points at the broker started for these tests. */
+function notice(name: string, replace: [string, string][] = []): string {
+	let xml = raw(name).replaceAll('http://127.0.0.1:8098', broker.httpBase);
+	for (const [a, b] of replace) xml = xml.replaceAll(a, b);
+	return xml;
+}
+
+async function ingest(xml: string, via: 'vtp' | 'api' = 'vtp') {
+	const c = commitNotice(xml, via);
+	return processInbox(c.inboxId, { fetch: fetchOpts });
+}
+
+const actions = (room?: string) => log.filter((m) => !room || m.room === room).map((m) => m.type);
+
+beforeAll(async () => {
+	broker = await startBroker({ ackTimeoutMs: 500 });
+	const fixtureMap = readFileSync(dir + 'skymap-demo.multiorder.fits.gz');
+	// A wider map for the preliminary notice, so that "which map does the event show" has an answer.
+	const wide = skymapToFits(generateSkymap({ components: [{ raDeg: 197, decDeg: -23, widthDeg: 6 }], distance: { meanMpc: 150, stdMpc: 40 } }), {
+		object: 'SX30041207',
+		dateObs: '2030-04-12T07:30:41.250'
+	});
+	broker.addFile('SX30041207-1.multiorder.fits.gz', wide);
+	broker.addFile('SX30041207-2.multiorder.fits.gz', fixtureMap);
+	broker.addFile('SX30041207-3.multiorder.fits.gz', fixtureMap);
+	broker.addFile('SXT0001-1.multiorder.fits.gz', fixtureMap);
+});
+afterAll(async () => {
+	await broker.stop();
+});
+beforeEach(() => {
+	database = createTestDatabase();
+	storage = mkdtempSync(join(tmpdir(), 'strainline-ingest-'));
+	useStorageRoot(storage);
+	log = [];
+	unlisten = onRecorded((m) => log.push(m));
+});
+afterEach(() => {
+	unlisten();
+	useStorageRoot(null);
+	rmSync(storage, { recursive: true, force: true });
+});
+
+describe('ingest: one notice end to end', () => {
+	it('creates the event, stores notice and sky map, analyses it and tells the board in order', async () => {
+		expect.hasAssertions();
+		const r = await ingest(notice('bns-initial.xml'));
+		expect(r).toMatchObject({ outcome: 'event-created', eventId: 'sx30041207', error: null });
+		const event = database.select().from(table.gwEvent).get()!;
+		expect(event).toMatchObject({ id: 'sx30041207', sourceEventId: 'SX30041207', state: 'active', role: 'observation', latestKind: 'initial', latestNoticeId: r.noticeId });
+		// bns-initial.xml: FAR 0.0098 per year, given in yr-1 → Hz over a Julian year.
+		expect(event.farHz! * 365.25 * 86400).toBeCloseTo(0.0098, 12);
+		const map = database.select().from(table.skymap).get()!;
+		expect(event.latestSkymapId).toBe(map.id);
+		expect(map.error).toBeNull();
+		// Against astropy/healpy on the same file (skymap-demo.astropy.json).
+		expect(map.summary!.area90 / astropy.area90Deg2).toBeCloseTo(1, 6);
+		expect(map.summary!.area50 / astropy.area50Deg2).toBeCloseTo(1, 6);
+		expect(map.summary!.distanceMean! / astropy.header.DISTMEAN).toBeCloseTo(1, 2);
+		expect(storedFileExists(map.filePath!)).toBe(true);
+		expect(map.filePath).toBe(`skymaps/sx30041207/${r.noticeId}.fits.gz`);
+		expect(map.bytes).toBe(readFileSync(dir + 'skymap-demo.multiorder.fits.gz').length);
+		expect((map.display as { width: number }).width).toBe(360);
+		expect(event.triage!.verdict).toBe('follow');
+
+		expect(actions()).toEqual(['event.created', 'skymap.analysed', 'skymap.analysed', 'notice.processed', 'notice.processed']);
+		expect(log.filter((m) => m.type === 'notice.processed').map((m) => m.room)).toEqual(['board', 'event:sx30041207']);
+		expect(log.filter((m) => m.type === 'skymap.analysed').map((m) => m.room).sort()).toEqual(['board', 'event:sx30041207']);
+		const processed = log.find((m) => m.type === 'notice.processed')!.payload;
+		expect(processed).toEqual({
+			eventId: 'sx30041207',
+			noticeId: r.noticeId,
+			ivorn: 'ivo://strainline.example/fake-broker#SX30041207-2-initial',
+			kind: 'initial',
+			role: 'observation',
+			significant: true,
+			triage: event.triage,
+			latest: true
+		});
+		expect(log[0].payload).toEqual({ eventId: 'sx30041207', sourceEventId: 'SX30041207' });
+		const analysed = log.find((m) => m.type === 'skymap.analysed')!.payload as { skymapId: string; summary: { area90: number } };
+		expect(analysed.skymapId).toBe(map.id);
+		expect(analysed.summary.area90).toBe(map.summary!.area90);
+		const inbox = database.select().from(table.noticeInbox).get()!;
+		expect(inbox.processedAt).not.toBeNull();
+		expect(inbox.attempts).toBe(1);
+	});
+
+	it('derives URL-safe event ids', () => {
+		expect.hasAssertions();
+		expect(eventIdFor('SX30041207')).toBe('sx30041207');
+		expect(eventIdFor('S.demo:42/x')).toBe('s-demo-42-x');
+		expect(eventIdFor('A'.repeat(100))).toHaveLength(56);
+	});
+});
+
+describe('ingest: idempotent and resumable', () => {
+	it('the same IVORN twice gives one inbox row and one notice; the API answers 201 then 200', async () => {
+		expect.hasAssertions();
+		const xml = notice('bns-preliminary.xml');
+		const first = await submitNotice(xml, 'api', { fetch: fetchOpts });
+		const second = await submitNotice(xml, 'api', { fetch: fetchOpts });
+		expect(first.status).toBe(201);
+		expect(first.outcome.outcome).toBe('event-created');
+		expect(second).toMatchObject({ status: 200, duplicate: true, outcome: { outcome: 'already-processed', eventId: first.outcome.eventId, noticeId: first.outcome.noticeId } });
+		expect(commitNotice(xml, 'vtp').duplicate).toBe(true);
+		expect(database.select().from(table.noticeInbox).all()).toHaveLength(1);
+		expect(database.select().from(table.notice).all()).toHaveLength(1);
+		expect(database.select().from(table.skymap).all()).toHaveLength(1);
+		expect(actions('board').filter((a) => a === 'notice.processed')).toHaveLength(1);
+	});
+
+	it('a row committed but never processed is completed by retryPending()', async () => {
+		expect.hasAssertions();
+		const c = commitNotice(notice('bns-preliminary.xml'), 'vtp');
+		expect(database.select().from(table.gwEvent).all()).toHaveLength(0);
+		const done = await retryPending({ fetch: fetchOpts });
+		expect(done.map((d) => d.inboxId)).toEqual([c.inboxId]);
+		expect(database.select().from(table.gwEvent).all()).toHaveLength(1);
+		expect(await retryPending({ fetch: fetchOpts })).toEqual([]);
+	});
+
+	it('a crash after the notice was stored and before the sky map is resumed without doubles', async () => {
+		expect.hasAssertions();
+		const c = commitNotice(notice('bns-initial.xml'), 'vtp');
+		await expect(
+			processInbox(c.inboxId, {
+				fetch: fetchOpts,
+				onStage: (stage) => {
+					if (stage === 'stored') throw new Error('simulated crash');
+				}
+			})
+		).rejects.toThrow('simulated crash');
+		expect(database.select().from(table.notice).all()).toHaveLength(1);
+		expect(database.select().from(table.skymap).all()).toHaveLength(0);
+		expect(database.select().from(table.noticeInbox).get()!.processedAt).toBeNull();
+
+		const [r] = await retryPending({ fetch: fetchOpts });
+		expect(r.outcome).toBe('notice-added');
+		expect(database.select().from(table.notice).all()).toHaveLength(1);
+		expect(database.select().from(table.skymap).all()).toHaveLength(1);
+		const inbox = database.select().from(table.noticeInbox).get()!;
+		expect(inbox.attempts).toBe(2);
+		expect(inbox.processedAt).not.toBeNull();
+		expect(actions('board')).toEqual(['event.created', 'skymap.analysed', 'notice.processed']);
+	});
+
+	it('a crash after analysis reuses the stored sky map', async () => {
+		expect.hasAssertions();
+		const c = commitNotice(notice('bns-initial.xml'), 'vtp');
+		await expect(
+			processInbox(c.inboxId, {
+				fetch: fetchOpts,
+				onStage: (stage) => {
+					if (stage === 'analysed') throw new Error('simulated crash');
+				}
+			})
+		).rejects.toThrow();
+		await retryPending({ fetch: fetchOpts });
+		expect(database.select().from(table.skymap).all()).toHaveLength(1);
+		expect(database.select().from(table.gwEvent).get()!.latestSkymapId).toBe(database.select().from(table.skymap).get()!.id);
+	});
+});
+
+describe('ingest: history, supersede chain and retraction', () => {
+	it('places notices by their own authored time whatever the arrival order', async () => {
+		expect.hasAssertions();
+		// Arrival: update (authored 08:15:30.5Z), preliminary (07:31:09Z), initial (08:02:00Z).
+		const update = await ingest(notice('bns-update.xml'));
+		const prelim = await ingest(notice('bns-preliminary.xml'));
+		const initial = await ingest(notice('bns-initial.xml'));
+		expect([update.outcome, prelim.outcome, initial.outcome]).toEqual(['event-created', 'notice-added', 'notice-added']);
+		const event = database.select().from(table.gwEvent).get()!;
+		expect(event.latestNoticeId).toBe(update.noticeId);
+		expect(event.latestKind).toBe('update');
+		expect(event.farHz).toBe(1.2e-12);
+		const updateMap = database.select().from(table.skymap).where(eq(table.skymap.noticeId, update.noticeId!)).get()!;
+		expect(event.latestSkymapId).toBe(updateMap.id);
+		const prelimMap = database.select().from(table.skymap).where(eq(table.skymap.noticeId, prelim.noticeId!)).get()!;
+		expect(prelimMap.summary!.area90).toBeGreaterThan(updateMap.summary!.area90 * 5);
+		const history = database.select().from(table.notice).orderBy(table.notice.authoredAt).all();
+		expect(history.map((n) => n.kind)).toEqual(['preliminary', 'initial', 'update']);
+		expect(history[2].supersedesIvorn).toBe('ivo://strainline.example/fake-broker#SX30041207-2-initial');
+		const latestFlags = log.filter((m) => m.type === 'notice.processed' && m.room === 'board').map((m) => m.payload.latest);
+		expect(latestFlags).toEqual([true, false, false]);
+	});
+
+	it('a retraction marks the event retracted once, says so on both rooms, and wins over later-arriving updates', async () => {
+		expect.hasAssertions();
+		await ingest(notice('bns-preliminary.xml'));
+		const retraction = notice('retraction.xml', [
+			['SX30041315-2-retraction', 'SX30041207-9-retraction'],
+			['SX30041315-1-preliminary', 'SX30041207-1-preliminary'],
+			['SX30041315', 'SX30041207'],
+			['2030-04-13T15:40:00', '2030-04-12T08:10:00']
+		]);
+		const r = await ingest(retraction);
+		expect(r.outcome).toBe('event-retracted');
+		let event = database.select().from(table.gwEvent).get()!;
+		expect(event.state).toBe('retracted');
+		expect(event.retractedAt!.toISOString()).toBe('2030-04-12T08:10:00.000Z');
+		expect(event.triage!.verdict).toBe('skip');
+		expect(event.triage!.reasons[0]).toBe('retracted by the source → skip');
+		// The content shown stays that of the last real notice.
+		expect(event.classification!.BNS).toBe(0.962);
+		const retracted = log.filter((m) => m.type === 'event.retracted');
+		expect(retracted.map((m) => m.room).sort()).toEqual(['board', 'event:sx30041207']);
+		expect(retracted[0].payload).toEqual({ eventId: 'sx30041207', noticeId: r.noticeId });
+		const processed = log.filter((m) => m.type === 'notice.processed' && m.room === 'board').at(-1)!.payload;
+		expect(processed).toMatchObject({ kind: 'retraction', significant: false, latest: true });
+
+		// An update authored later than the retraction, arriving after it.
+		await ingest(notice('bns-update.xml'));
+		event = database.select().from(table.gwEvent).get()!;
+		expect(event.state).toBe('retracted');
+		expect(event.latestKind).toBe('update');
+		expect(log.filter((m) => m.type === 'event.retracted')).toHaveLength(2);
+		expect(log.filter((m) => m.type === 'notice.processed').at(-1)!.payload.significant).toBe(false);
+	});
+
+	it('a retraction arriving before any other notice still creates the event, retracted', async () => {
+		expect.hasAssertions();
+		const r = await ingest(notice('retraction.xml'));
+		expect(r.outcome).toBe('event-retracted');
+		const event = database.select().from(table.gwEvent).get()!;
+		expect(event).toMatchObject({ id: 'sx30041315', state: 'retracted', latestKind: 'retraction', farHz: null, latestSkymapId: null });
+		expect(database.select().from(table.skymap).all()).toHaveLength(0);
+		expect(actions('board')).toEqual(['event.created', 'event.retracted', 'notice.processed']);
+	});
+
+	it('keeps a test-role event, marked as such and not significant', async () => {
+		expect.hasAssertions();
+		await ingest(notice('test-role.xml'));
+		const event = database.select().from(table.gwEvent).get()!;
+		expect(event.role).toBe('test');
+		expect(event.triage!.reasons).toContain('role test ≠ observation → skip');
+		expect(log.find((m) => m.type === 'notice.processed')!.payload).toMatchObject({ role: 'test', significant: false });
+	});
+});
+
+describe('ingest: refusals', () => {
+	it('keeps a malformed notice in the inbox with its error and tells the board', async () => {
+		expect.hasAssertions();
+		const r = await ingest(raw('malformed/unclosed-tag.xml'));
+		expect(r.outcome).toBe('rejected');
+		expect(r.error).toMatch(/malformed XML/);
+		const inbox = database.select().from(table.noticeInbox).get()!;
+		expect(inbox).toMatchObject({ ivorn: 'ivo://strainline.example/fake-broker#SX30041600-1-preliminary', error: r.error });
+		expect(inbox.processedAt).not.toBeNull();
+		expect(inbox.rawXml).toBe(raw('malformed/unclosed-tag.xml'));
+		expect(database.select().from(table.gwEvent).all()).toHaveLength(0);
+		expect(log.map((m) => [m.type, m.room])).toEqual([['notice.rejected', 'board']]);
+		expect(log[0].payload).toEqual({ inboxId: inbox.id, ivorn: inbox.ivorn, error: r.error });
+		// Not retried: it will not get better.
+		expect(await retryPending()).toEqual([]);
+		const api = await submitNotice(raw('malformed/unclosed-tag.xml'), 'api');
+		expect(api.status).toBe(422);
+		// A corrected notice under the same IVORN is taken, in the same inbox row.
+		const fixed = notice('bns-preliminary.xml', [['SX30041207-1-preliminary', 'SX30041600-1-preliminary']]);
+		const corrected = await submitNotice(fixed, 'api', { fetch: fetchOpts });
+		expect(corrected).toMatchObject({ status: 201, duplicate: false, outcome: { inboxId: inbox.id, outcome: 'event-created' } });
+		expect(database.select().from(table.noticeInbox).all()).toHaveLength(1);
+		expect(database.select().from(table.noticeInbox).get()!.error).toBeNull();
+	});
+
+	it('a notice without a readable IVORN is kept under its content hash', async () => {
+		expect.hasAssertions();
+		const xml = '<nonsense>';
+		const a = commitNotice(xml, 'vtp');
+		expect(a.ivorn).toMatch(/^invalid:sha256:[0-9a-f]{64}$/);
+		expect(commitNotice(xml, 'vtp')).toEqual({ ...a, duplicate: true });
+		expect((await processInbox(a.inboxId)).outcome).toBe('rejected');
+	});
+
+	it('a sky map from a host off the allow-list is refused; the notice is still processed and says why', async () => {
+		expect.hasAssertions();
+		// bbh-initial.xml names https://maps.strainline.example/…, not on the list.
+		const r = await ingest(raw('bbh-initial.xml'));
+		expect(r.outcome).toBe('event-created');
+		expect(r.error).toMatch(/maps\.strainline\.example is not on the allow-list/);
+		const map = database.select().from(table.skymap).get()!;
+		expect(map.summary).toBeNull();
+		expect(map.error).toBe(r.error);
+		expect(database.select().from(table.gwEvent).get()!.latestSkymapId).toBeNull();
+		expect(database.select().from(table.noticeInbox).get()!.error).toBe(`sky map: ${r.error}`);
+		expect(actions('board')).toEqual(['event.created', 'skymap.failed', 'notice.processed']);
+		expect(log.find((m) => m.type === 'skymap.failed')!.payload).toEqual({ eventId: 'sx30041422', noticeId: r.noticeId, error: r.error });
+		// BBH: P(NS) = HasNS = 0.
+		expect(log.find((m) => m.type === 'notice.processed')!.payload).toMatchObject({ significant: false });
+	});
+});
+
+describe('triage policy', () => {
+	it('re-evaluates active events when the coordinators change a threshold', async () => {
+		expect.hasAssertions();
+		await ingest(notice('bns-initial.xml'));
+		expect(database.select().from(table.gwEvent).get()!.triage!.verdict).toBe('follow');
+		const n = updatePolicy({ userId: null, label: 'a coordinator' }, { ...DEFAULT_TRIAGE_POLICY, maxDistanceMpc: 50 });
+		expect(n).toBe(1);
+		const event = database.select().from(table.gwEvent).get()!;
+		expect(event.triage!.verdict).toBe('skip');
+		expect(event.triage!.reasons.find((x) => x.startsWith('distance'))).toMatch(/^distance 1\d\d Mpc > 50 Mpc → skip$/);
+		expect(log.at(-1)).toMatchObject({ type: 'triage.policy-changed', room: 'board', payload: { policy: { maxDistanceMpc: 50 } } });
+		// New notices are judged by the new policy too.
+		await ingest(notice('bns-update.xml'));
+		expect(database.select().from(table.gwEvent).get()!.triage!.verdict).toBe('skip');
+	});
+});

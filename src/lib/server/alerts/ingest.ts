@@ -1,0 +1,371 @@
+/**
+ * Alert ingestion: the inbox first (raw XML, unique IVORN), then processing — parse, upsert the
+ * event, attach the notice, place it in the event's history by its own authored time, fetch and
+ * analyse the sky map, apply the triage policy, and tell the board.
+ *
+ * Every step can be repeated: an inbox row whose processing did not finish is processed again
+ * (`retryPending`), and each step first looks for what an earlier attempt already stored. So a
+ * crash costs a repeat of the unfinished step, never a lost or doubled notice.
+ */
+import { createHash } from 'node:crypto';
+import { and, asc, eq, isNull, lt } from 'drizzle-orm';
+import { db } from '../db';
+import * as table from '../db/schema';
+import { randomId } from '../auth';
+import { record, SYSTEM, type Actor } from '../realtime';
+import { fetchSkymap, SkymapFetchError, type SkymapFetchOptions } from '../skymap-fetch';
+import { readStoredFile, saveSkymapFile } from '../storage';
+import { policyInput, factsOf } from '../triage';
+import { parseVoevent, sniffIvorn, type Notice as ParsedNotice } from '../../alerts/voevent.ts';
+import { evaluateTriage } from '../../alerts/triage.ts';
+import { analyseSkymap, skyRaster } from '../../sky/index.ts';
+
+export type InboxVia = table.NoticeInboxRow['via'];
+
+export interface CommitResult {
+	inboxId: number;
+	ivorn: string;
+	/** The IVORN was already in the inbox: nothing was written. */
+	duplicate: boolean;
+}
+
+/** Attempts after which a row that keeps failing (not a malformed notice: those fail once) is left for a person. */
+export const MAX_ATTEMPTS = 5;
+
+const IVORN_SHAPE = /^ivo:\/\/\S{1,505}$/;
+
+/** Inbox key for a notice whose IVORN cannot be read: its content hash, so a resend dedupes too. */
+function syntheticKey(rawXml: string): string {
+	return `invalid:sha256:${createHash('sha256').update(rawXml).digest('hex')}`;
+}
+
+/**
+ * Store the raw notice in the inbox (the ack waits for this). A repeat of a known IVORN writes
+ * nothing and returns the existing row.
+ */
+export function commitNotice(rawXml: string, via: InboxVia, opts: { uploadedSkymapPath?: string | null; now?: Date } = {}): CommitResult {
+	const sniffed = sniffIvorn(rawXml);
+	const ivorn = sniffed && IVORN_SHAPE.test(sniffed) ? sniffed : syntheticKey(rawXml);
+	const inserted = db
+		.insert(table.noticeInbox)
+		.values({ ivorn, rawXml, via, receivedAt: opts.now ?? new Date(), uploadedSkymapPath: opts.uploadedSkymapPath ?? null })
+		.onConflictDoNothing({ target: table.noticeInbox.ivorn })
+		.returning({ id: table.noticeInbox.id })
+		.get();
+	if (inserted) return { inboxId: inserted.id, ivorn, duplicate: false };
+	const existing = db.select().from(table.noticeInbox).where(eq(table.noticeInbox.ivorn, ivorn)).get()!;
+	const refusedEarlier =
+		existing.processedAt !== null &&
+		existing.error !== null &&
+		existing.rawXml !== rawXml &&
+		!db.select({ id: table.notice.id }).from(table.notice).where(eq(table.notice.inboxId, existing.id)).get();
+	if (refusedEarlier) {
+		// A corrected resend of a notice that was refused as malformed: not a repeat, take the new text.
+		db.update(table.noticeInbox)
+			.set({ rawXml, via, receivedAt: opts.now ?? new Date(), processedAt: null, error: null, attempts: 0, uploadedSkymapPath: opts.uploadedSkymapPath ?? null })
+			.where(eq(table.noticeInbox.id, existing.id))
+			.run();
+		return { inboxId: existing.id, ivorn, duplicate: false };
+	}
+	return { inboxId: existing.id, ivorn, duplicate: true };
+}
+
+export type IngestOutcomeKind = 'event-created' | 'notice-added' | 'event-retracted' | 'rejected' | 'already-processed';
+
+export interface IngestOutcome {
+	outcome: IngestOutcomeKind;
+	inboxId: number;
+	ivorn: string;
+	eventId: string | null;
+	noticeId: string | null;
+	/** Why the notice was refused, or why its sky map could not be used. */
+	error: string | null;
+}
+
+export type IngestStage = 'stored' | 'analysed';
+
+export interface IngestOptions {
+	actor?: Actor;
+	fetch?: SkymapFetchOptions;
+	/** Called after each durable step; a throw here behaves like a crash at that point (tests). */
+	onStage?: (stage: IngestStage, ids: { eventId: string; noticeId: string }) => void;
+	now?: () => Date;
+}
+
+/**
+ * Claims on targets do not exist yet (they come with the claims feature, which adds their
+ * table). A retraction already calls this at the point where open claims must be cancelled,
+ * so that feature only has to fill it in; until then there is nothing to cancel.
+ */
+export function cancelOpenClaims(eventId: string): number {
+	void eventId;
+	return 0;
+}
+
+/** URL-safe event id from the source's id: lower case, `[a-z0-9_-]`, at most 64 characters. */
+export function eventIdFor(sourceEventId: string): string {
+	const slug = sourceEventId
+		.toLowerCase()
+		.replace(/[^a-z0-9_-]+/g, '-')
+		.replace(/^-+|-+$/g, '')
+		.slice(0, 56);
+	return slug || 'event';
+}
+
+function uniqueEventId(sourceEventId: string): string {
+	const base = eventIdFor(sourceEventId);
+	const taken = db.select({ source: table.gwEvent.sourceEventId }).from(table.gwEvent).where(eq(table.gwEvent.id, base)).get();
+	if (!taken || taken.source === sourceEventId) return base;
+	// Two source ids that differ only in case or punctuation: keep them apart.
+	return `${base}-${createHash('sha256').update(sourceEventId).digest('hex').slice(0, 6)}`;
+}
+
+const inFlight = new Map<number, Promise<IngestOutcome>>();
+
+/** Process one inbox row (again). Concurrent calls for the same row share one run. */
+export function processInbox(inboxId: number, opts: IngestOptions = {}): Promise<IngestOutcome> {
+	const running = inFlight.get(inboxId);
+	if (running) return running;
+	const p = runProcess(inboxId, opts).finally(() => inFlight.delete(inboxId));
+	inFlight.set(inboxId, p);
+	return p;
+}
+
+/** Rows not yet processed (oldest first) — at start and periodically. Returns their outcomes. */
+export async function retryPending(opts: IngestOptions = {}): Promise<IngestOutcome[]> {
+	const rows = db
+		.select({ id: table.noticeInbox.id })
+		.from(table.noticeInbox)
+		.where(and(isNull(table.noticeInbox.processedAt), lt(table.noticeInbox.attempts, MAX_ATTEMPTS)))
+		.orderBy(asc(table.noticeInbox.id))
+		.all();
+	const out: IngestOutcome[] = [];
+	for (const r of rows) {
+		if (inFlight.has(r.id)) continue;
+		try {
+			out.push(await processInbox(r.id, opts));
+		} catch (e) {
+			console.error(`notice inbox row ${r.id}: processing failed (${(e as Error).message}); will retry`);
+		}
+	}
+	return out;
+}
+
+function rooms(eventId: string) {
+	return ['board', `event:${eventId}`] as const;
+}
+
+async function runProcess(inboxId: number, opts: IngestOptions): Promise<IngestOutcome> {
+	const actor = opts.actor ?? SYSTEM;
+	const now = opts.now ?? (() => new Date());
+	const row = db.select().from(table.noticeInbox).where(eq(table.noticeInbox.id, inboxId)).get();
+	if (!row) throw new Error(`no inbox row ${inboxId}`);
+	if (row.processedAt) {
+		const n = db.select({ id: table.notice.id, eventId: table.notice.eventId }).from(table.notice).where(eq(table.notice.inboxId, inboxId)).get();
+		return { outcome: n ? 'already-processed' : 'rejected', inboxId, ivorn: row.ivorn, eventId: n?.eventId ?? null, noticeId: n?.id ?? null, error: row.error };
+	}
+	db.update(table.noticeInbox).set({ attempts: row.attempts + 1 }).where(eq(table.noticeInbox.id, inboxId)).run();
+
+	let parsed: ParsedNotice;
+	try {
+		parsed = parseVoevent(row.rawXml);
+	} catch (e) {
+		// A malformed notice will not get better by retrying: it is finished, with its reason kept.
+		const error = (e as Error).message;
+		db.update(table.noticeInbox).set({ processedAt: now(), error }).where(eq(table.noticeInbox.id, inboxId)).run();
+		record(actor, 'notice.rejected', 'board', { inboxId, ivorn: row.ivorn, error });
+		return { outcome: 'rejected', inboxId, ivorn: row.ivorn, eventId: null, noticeId: null, error };
+	}
+
+	const stored = storeNotice(parsed, inboxId);
+	if (stored.eventCreated) record(actor, 'event.created', 'board', { eventId: stored.eventId, sourceEventId: parsed.sourceEventId });
+	if (stored.becameRetracted) {
+		cancelOpenClaims(stored.eventId);
+		for (const room of rooms(stored.eventId)) record(actor, 'event.retracted', room, { eventId: stored.eventId, noticeId: stored.retractionNoticeId });
+	}
+	opts.onStage?.('stored', { eventId: stored.eventId, noticeId: stored.noticeId });
+
+	const sky = await attachSkymap(stored.eventId, stored.noticeId, parsed, row.uploadedSkymapPath, opts.fetch);
+	opts.onStage?.('analysed', { eventId: stored.eventId, noticeId: stored.noticeId });
+
+	const event = db.transaction((tx) => {
+		refreshEvent(tx, stored.eventId);
+		tx.update(table.noticeInbox)
+			.set({ processedAt: now(), error: sky?.error ? `sky map: ${sky.error}` : null })
+			.where(eq(table.noticeInbox.id, inboxId))
+			.run();
+		return tx.select().from(table.gwEvent).where(eq(table.gwEvent.id, stored.eventId)).get()!;
+	});
+
+	if (sky) {
+		for (const room of rooms(stored.eventId)) {
+			if (sky.error) record(actor, 'skymap.failed', room, { eventId: stored.eventId, noticeId: stored.noticeId, error: sky.error });
+			else record(actor, 'skymap.analysed', room, { eventId: stored.eventId, skymapId: sky.skymapId, noticeId: stored.noticeId, summary: sky.summary });
+		}
+	}
+	const triage = event.triage ?? { verdict: 'skip' as const, reasons: [] };
+	const significant = triage.verdict === 'follow' && parsed.kind !== 'retraction' && parsed.role === 'observation';
+	const payload = {
+		eventId: stored.eventId,
+		noticeId: stored.noticeId,
+		ivorn: parsed.ivorn,
+		kind: parsed.kind,
+		role: parsed.role,
+		significant,
+		triage,
+		latest: event.latestNoticeId === stored.noticeId
+	};
+	for (const room of rooms(stored.eventId)) record(actor, 'notice.processed', room, payload);
+
+	const outcome: IngestOutcomeKind = parsed.kind === 'retraction' ? 'event-retracted' : stored.eventCreated ? 'event-created' : 'notice-added';
+	return { outcome, inboxId, ivorn: row.ivorn, eventId: stored.eventId, noticeId: stored.noticeId, error: sky?.error ?? null };
+}
+
+interface Stored {
+	eventId: string;
+	noticeId: string;
+	eventCreated: boolean;
+	becameRetracted: boolean;
+	retractionNoticeId: string | null;
+}
+
+/** Upsert the event and attach the notice, in one transaction; repeatable. */
+function storeNotice(n: ParsedNotice, inboxId: number): Stored {
+	return db.transaction((tx) => {
+		const existingNotice = tx.select().from(table.notice).where(eq(table.notice.ivorn, n.ivorn)).get();
+		let event = tx.select().from(table.gwEvent).where(eq(table.gwEvent.sourceEventId, n.sourceEventId)).get();
+		let eventCreated = false;
+		if (!event) {
+			event = tx
+				.insert(table.gwEvent)
+				.values({ id: uniqueEventId(n.sourceEventId), sourceEventId: n.sourceEventId, role: n.role, state: 'active' })
+				.returning()
+				.get();
+			eventCreated = true;
+		}
+		const before = event.state;
+		let noticeId: string;
+		if (existingNotice) {
+			noticeId = existingNotice.id;
+			if (existingNotice.inboxId === null) tx.update(table.notice).set({ inboxId }).where(eq(table.notice.id, noticeId)).run();
+		} else {
+			noticeId = randomId();
+			tx.insert(table.notice)
+				.values({
+					id: noticeId,
+					eventId: event.id,
+					inboxId,
+					ivorn: n.ivorn,
+					kind: n.kind,
+					role: n.role,
+					authoredAt: new Date(n.authoredAt),
+					farHz: n.far,
+					classification: n.classification,
+					properties: n.properties,
+					skymapUrl: n.skymapUrl,
+					citations: n.citations,
+					supersedesIvorn: n.citations.find((c) => c.cite === 'supersedes')?.ivorn ?? null,
+					parsed: n as unknown as Record<string, unknown>
+				})
+				.run();
+		}
+		const after = refreshEvent(tx, event.id);
+		return {
+			eventId: event.id,
+			noticeId,
+			eventCreated,
+			becameRetracted: before !== 'retracted' && after.state === 'retracted',
+			retractionNoticeId: after.retractionNoticeId
+		};
+	});
+}
+
+type Tx = Parameters<Parameters<typeof db.transaction>[0]>[0];
+
+/**
+ * Recompute what the event shows from all its notices: the content of the latest notice by its
+ * own authored time (not arrival order), retracted if any retraction exists (whatever its time),
+ * the sky map of the latest notice that has an analysed one, and the triage verdict.
+ */
+function refreshEvent(tx: Tx, eventId: string): { state: table.GwEvent['state']; retractionNoticeId: string | null } {
+	const event = tx.select().from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get()!;
+	const notices = tx.select().from(table.notice).where(eq(table.notice.eventId, eventId)).orderBy(asc(table.notice.authoredAt), asc(table.notice.createdAt)).all();
+	const latest = notices.at(-1) ?? null;
+	const content = notices.filter((x) => x.kind !== 'retraction').at(-1) ?? null;
+	const retraction = notices.find((x) => x.kind === 'retraction') ?? null;
+	const maps = tx
+		.select({ id: table.skymap.id, summary: table.skymap.summary, authoredAt: table.notice.authoredAt })
+		.from(table.skymap)
+		.innerJoin(table.notice, eq(table.skymap.noticeId, table.notice.id))
+		.where(and(eq(table.skymap.eventId, eventId), isNull(table.skymap.error)))
+		.orderBy(asc(table.notice.authoredAt), asc(table.skymap.createdAt))
+		.all();
+	const map = maps.at(-1) ?? null;
+	const state: table.GwEvent['state'] = retraction ? 'retracted' : event.state === 'retracted' ? 'active' : event.state;
+	const eventTime = (content?.parsed as { eventTime?: string | null } | undefined)?.eventTime;
+	const next = {
+		state,
+		role: (content ?? latest)?.role ?? event.role,
+		eventTime: eventTime ? new Date(eventTime) : null,
+		latestNoticeId: latest?.id ?? null,
+		latestKind: latest?.kind ?? null,
+		farHz: content?.farHz ?? null,
+		classification: content?.classification ?? null,
+		properties: content?.properties ?? null,
+		latestSkymapId: map?.id ?? null,
+		retractedAt: retraction ? (event.retractedAt ?? retraction.authoredAt) : null,
+		updatedAt: new Date()
+	};
+	const triage = evaluateTriage(policyInput(), factsOf({ ...event, ...next }, map?.summary ?? null));
+	tx.update(table.gwEvent).set({ ...next, triage }).where(eq(table.gwEvent.id, eventId)).run();
+	return { state, retractionNoticeId: retraction?.id ?? null };
+}
+
+interface SkyResult {
+	skymapId: string;
+	summary: table.SkymapSummary | null;
+	error: string | null;
+}
+
+/** Fetch (or read the uploaded file), analyse and store the notice's sky map; reuse an earlier attempt's row. */
+async function attachSkymap(
+	eventId: string,
+	noticeId: string,
+	n: ParsedNotice,
+	uploadedPath: string | null,
+	fetchOpts: SkymapFetchOptions | undefined
+): Promise<SkyResult | null> {
+	if (n.kind === 'retraction' && !uploadedPath) return null;
+	if (!uploadedPath && !n.skymapUrl) return null;
+	const earlier = db.select().from(table.skymap).where(eq(table.skymap.noticeId, noticeId)).get();
+	if (earlier) return { skymapId: earlier.id, summary: earlier.summary, error: earlier.error };
+
+	const sourceUrl = uploadedPath ? null : n.skymapUrl;
+	let bytes: Buffer;
+	try {
+		bytes = uploadedPath ? readStoredFile(uploadedPath) : (await fetchSkymap(n.skymapUrl!, fetchOpts)).bytes;
+	} catch (e) {
+		const error = e instanceof SkymapFetchError ? e.message : `could not read the sky map: ${(e as Error).message}`;
+		return insertSkymap({ eventId, noticeId, sourceUrl, error });
+	}
+	let analysed: ReturnType<typeof analyseSkymap>;
+	try {
+		analysed = analyseSkymap(new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength));
+	} catch (e) {
+		return insertSkymap({ eventId, noticeId, sourceUrl, error: `the sky map could not be analysed: ${(e as Error).message}` });
+	}
+	const { map, ...summary } = analysed;
+	const display = skyRaster(map, { width: 360, height: 180 }) as unknown as Record<string, unknown>;
+	const file = saveSkymapFile(eventId, noticeId, bytes);
+	return insertSkymap({ eventId, noticeId, sourceUrl, summary, display, filePath: file.path, bytes: file.bytes, sha256: file.sha256 });
+}
+
+function insertSkymap(v: Omit<typeof table.skymap.$inferInsert, 'id'>): SkyResult {
+	const id = randomId();
+	const row = db
+		.insert(table.skymap)
+		.values({ id, ...v })
+		.returning()
+		.get();
+	return { skymapId: row.id, summary: row.summary, error: row.error };
+}

@@ -1,0 +1,70 @@
+import { fail, redirect } from '@sveltejs/kit';
+import type { Actions, PageServerLoad } from './$types';
+import { requirePermission, requireUser } from '$lib/server/guard';
+import { actorOf } from '$lib/server/realtime';
+import { submitNotice } from '$lib/server/alerts/service';
+import { saveUpload } from '$lib/server/storage';
+import { config } from '$lib/server/config';
+import { DEFAULT_MAX_NOTICE_BYTES } from '$lib/alerts/voevent';
+import { readSkyMap } from '$lib/sky';
+
+export const load: PageServerLoad = () => {
+	requirePermission('notices.submit');
+	return { maxNoticeBytes: DEFAULT_MAX_NOTICE_BYTES, maxSkymapBytes: config.alerts.skymapMaxBytes };
+};
+
+type Errors = Partial<Record<'xml' | 'noticeFile' | 'skymap' | '_form', string>>;
+
+function file(form: FormData, name: string): File | null {
+	const v = form.get(name);
+	return v instanceof File && v.size > 0 ? v : null;
+}
+
+export const actions: Actions = {
+	default: async ({ request }) => {
+		const user = requireUser('notices.submit');
+		let form: FormData;
+		try {
+			form = await request.formData();
+		} catch {
+			return fail(400, { values: { xml: '' }, errors: { _form: 'The form could not be read (is the file too large for the server?).' } as Errors });
+		}
+		const typed = form.get('xml');
+		const pasted = typeof typed === 'string' ? typed : '';
+		const values = { xml: pasted.length <= DEFAULT_MAX_NOTICE_BYTES ? pasted : '' };
+		const errors: Errors = {};
+
+		const noticeFile = file(form, 'noticeFile');
+		let xml = pasted;
+		if (noticeFile) {
+			if (noticeFile.size > DEFAULT_MAX_NOTICE_BYTES) errors.noticeFile = `The notice file is larger than ${DEFAULT_MAX_NOTICE_BYTES} bytes.`;
+			else if (pasted.trim()) errors.noticeFile = 'Give either a file or pasted text, not both.';
+			else xml = await noticeFile.text();
+		}
+		if (!noticeFile && !pasted.trim()) errors.xml = 'Paste the notice XML or choose a notice file.';
+		if (Buffer.byteLength(pasted, 'utf8') > DEFAULT_MAX_NOTICE_BYTES) errors.xml = `The notice is larger than ${DEFAULT_MAX_NOTICE_BYTES} bytes.`;
+
+		const skymapFile = file(form, 'skymap');
+		let skymapBytes: Uint8Array | null = null;
+		if (skymapFile) {
+			if (skymapFile.size > config.alerts.skymapMaxBytes) errors.skymap = `The sky map is larger than ${config.alerts.skymapMaxBytes} bytes.`;
+			else {
+				skymapBytes = new Uint8Array(await skymapFile.arrayBuffer());
+				try {
+					readSkyMap(skymapBytes, { skipDistance: true });
+				} catch (e) {
+					errors.skymap = `This is not a sky map we can read: ${(e as Error).message}`;
+				}
+			}
+		}
+		if (Object.keys(errors).length) return fail(400, { values, errors });
+
+		const uploadedSkymapPath = skymapBytes ? saveUpload(skymapBytes).path : null;
+		const result = await submitNotice(xml, 'upload', { actor: actorOf(user), uploadedSkymapPath });
+		if (result.status === 422) {
+			const message = result.outcome.error ?? 'The notice was refused.';
+			return fail(422, { values, errors: noticeFile ? { noticeFile: message } : ({ xml: message } as Errors) });
+		}
+		redirect(303, `/events/${result.outcome.eventId}`);
+	}
+};

@@ -1,0 +1,33 @@
+import type { Actions, PageServerLoad } from './$types';
+import { requirePermission, requireUser } from '$lib/server/guard';
+import { validateForm } from '$lib/server/forms';
+import { actorOf } from '$lib/server/realtime';
+import { listEvents } from '$lib/server/events';
+import { getPolicy, policyForm, policyInput, updatePolicy } from '$lib/server/triage';
+import { DEFAULT_TRIAGE_POLICY } from '$lib/alerts/triage';
+
+export const load: PageServerLoad = () => {
+	requirePermission('triage.manage');
+	const row = getPolicy();
+	return {
+		policy: policyInput(row),
+		defaults: DEFAULT_TRIAGE_POLICY,
+		updatedAt: row.updatedAt?.toISOString() ?? null,
+		events: listEvents({ state: 'active' }).map((e) => ({
+			eventId: e.eventId,
+			sourceEventId: e.sourceEventId,
+			role: e.role,
+			triage: e.triage
+		}))
+	};
+};
+
+export const actions: Actions = {
+	default: async ({ request }) => {
+		const user = requireUser('triage.manage');
+		const { data, failure } = await validateForm(request, policyForm);
+		if (failure) return failure;
+		const count = updatePolicy(actorOf(user), data);
+		return { saved: `Policy saved; ${count} event${count === 1 ? '' : 's'} re-evaluated.` };
+	}
+};
