@@ -93,6 +93,12 @@ export function formatElapsed(ms: number): string {
 	return `${Math.floor(h / 24)} d ${h % 24} h`;
 }
 
+/** "42 s since merger", or a warning when the notice's merger time lies ahead of the clock. */
+export function describeSinceMerger(ms: number): string {
+	if (ms < -60_000) return 'merger time is in the future: check the notice';
+	return `${formatElapsed(ms)} since merger`;
+}
+
 /** An instant as "2026-03-01 12:03:04 UTC". */
 export function formatUtc(at: Date | string | number | null | undefined): string {
 	if (at === null || at === undefined) return '—';
