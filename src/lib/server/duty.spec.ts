@@ -292,3 +292,30 @@ describe('roster', () => {
 		expect(duty.rosterablePeople().map((p) => p.name)).toEqual(['On Duty']);
 	});
 });
+
+describe('retraction', () => {
+	it('tells everyone who was paged for the event to stand down, once each', async () => {
+		uninstall = duty.installDuty({ escalateEveryMs: null });
+		const now = new Date();
+		const onShift = await person('Paged Person', ['duty']);
+		const bystander = await person('Not Paged', ['duty']);
+		shift(onShift.id, new Date(now.getTime() - HOUR), new Date(now.getTime() + HOUR), 0);
+		const ev = insertEvent({ receivedAt: new Date(now.getTime() - 3_000) });
+		processed(ev.eventId, ev.noticeId, true);
+		expect(await mailTo(onShift.email)).toHaveLength(1);
+
+		record(SYSTEM, 'event.retracted', 'board', { eventId: ev.eventId, noticeId: ev.noticeId });
+		record(SYSTEM, 'event.retracted', `event:${ev.eventId}`, { eventId: ev.eventId, noticeId: ev.noticeId });
+		const until = Date.now() + 3000;
+		let mails: ReceivedMail[] = [];
+		while (Date.now() < until && mails.length < 2) {
+			mails = receivedMail().filter((m) => m.to.includes(onShift.email));
+			await new Promise((r) => setTimeout(r, 20));
+		}
+		const standDown = mails.filter((m) => m.subject.startsWith('RETRACTED'));
+		expect(standDown).toHaveLength(1);
+		expect(standDown[0].subject).toBe(`RETRACTED ${ev.sourceEventId} · stand down`);
+		expect(standDown[0].text).toContain('Stop follow-up observations');
+		expect(await mailTo(bystander.email, 200)).toEqual([]);
+	});
+});

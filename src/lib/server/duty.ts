@@ -501,7 +501,45 @@ function slot(): DutySlot {
 	return g[SLOT]!;
 }
 
+/**
+ * Tell everyone who was paged for an event that it was retracted, so nobody keeps observing on
+ * the strength of the e-mail they got. Each person is told once per event.
+ */
+export async function standDown(eventId: string): Promise<number> {
+	const ev = db.select({ sourceEventId: table.gwEvent.sourceEventId }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
+	if (!ev) return 0;
+	const paged = db
+		.selectDistinct({ userId: table.user.id, email: table.user.email, name: table.user.name })
+		.from(table.dutyPage)
+		.innerJoin(table.user, eq(table.user.id, table.dutyPage.userId))
+		.where(eq(table.dutyPage.eventId, eventId))
+		.all();
+	await deliver(
+		paged.map((p) => ({
+			eventId,
+			userId: p.userId,
+			mail: {
+				to: p.email,
+				subject: `RETRACTED ${ev.sourceEventId} · stand down`,
+				text: [
+					`${p.name},`,
+					'',
+					`The source has retracted ${ev.sourceEventId}. Stop follow-up observations for it and release any targets you hold.`,
+					'',
+					eventLink(eventId)
+				].join('\n')
+			}
+		}))
+	);
+	return paged.length;
+}
+
 function react(message: LiveMessage): void {
+	if (message.room === 'board' && message.type === 'event.retracted') {
+		const { eventId } = message.payload as { eventId?: unknown };
+		if (typeof eventId === 'string') standDown(eventId).catch((e) => console.error(`stand-down for ${eventId} failed`, e));
+		return;
+	}
 	// notice.processed is logged in the board room and the event's room: react to one of them.
 	if (message.room !== 'board' || message.type !== 'notice.processed') return;
 	const { eventId, noticeId, significant } = message.payload as { eventId?: unknown; noticeId?: unknown; significant?: unknown };
