@@ -26,7 +26,8 @@ const commands: Record<string, () => Promise<CommandModule>> = {
 	locate: () => import('./commands/locate.ts').then((m) => m.default),
 	notice: () => import('./commands/notice.ts').then((m) => m.default),
 	night: () => import('./commands/night.ts').then((m) => m.default),
-	altaz: () => import('./commands/altaz.ts').then((m) => m.default)
+	altaz: () => import('./commands/altaz.ts').then((m) => m.default),
+	rank: () => import('./commands/rank.ts').then((m) => m.default)
 };
 
 function help(): string {

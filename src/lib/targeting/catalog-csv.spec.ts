@@ -1,0 +1,125 @@
+import { describe, expect, it } from 'vitest';
+import { CatalogCsvParser, parseCatalogCsv, parseColumnMapping, SUN_ABS_MAG_B, SUN_ABS_MAG_K } from './catalog-csv.ts';
+
+const GOOD = [
+	'# a comment before the header',
+	'id,ra,dec,distance,distance_err,weight',
+	'G1,10.5,-20.25,40,4,1.5',
+	'G2,359.9,89.9,100.25,,0.5',
+	'G3,0,-90,12,1.2,2'
+].join('\n');
+
+describe('parseCatalogCsv', () => {
+	it('reads the default header, comments, empty distance errors', () => {
+		expect.hasAssertions();
+		const r = parseCatalogCsv(GOOD);
+		expect(r.ok).toBe(true);
+		const c = r.catalog!;
+		expect(c.id).toEqual(['G1', 'G2', 'G3']);
+		expect(Array.from(c.raDeg)).toEqual([10.5, 359.9, 0]);
+		expect(Array.from(c.decDeg)).toEqual([-20.25, 89.9, -90]);
+		expect(Array.from(c.distanceMpc)).toEqual([40, 100.25, 12]);
+		expect(Array.from(c.distanceErrMpc)).toEqual([4, 0, 1.2]);
+		expect(Array.from(c.weight)).toEqual([1.5, 0.5, 2]);
+		expect(c.weightSource).toBe('weight');
+		expect(c.luminosityB10).toBeNull();
+	});
+
+	it('gives the same result for any chunking, with a BOM and CRLF line ends', () => {
+		expect.hasAssertions();
+		const text = '\ufeff' + GOOD.replace(/\n/g, '\r\n') + '\r\n';
+		const whole = parseCatalogCsv(text);
+		expect(whole.ok).toBe(true);
+		for (const size of [1, 2, 3, 7, 13]) {
+			const chunks: string[] = [];
+			for (let i = 0; i < text.length; i += size) chunks.push(text.slice(i, i + size));
+			const r = parseCatalogCsv(chunks);
+			expect(r.catalog).toEqual(whole.catalog);
+		}
+		expect(whole.catalog!.id[0]).toBe('G1');
+		expect(whole.mapping.id).toBe('id');
+	});
+
+	it('handles quoted fields (commas, doubled quotes, line breaks) and keeps line numbers right', () => {
+		expect.hasAssertions();
+		const text = [
+			'name,"RAJ2000",DEJ2000,Dist',
+			'"NGC ""x"", a",1,2,3',
+			'"two',
+			'lines",4,5,6',
+			'bad,7,95,8'
+		].join('\n');
+		const r = parseCatalogCsv(text, { columns: { id: 'name', ra: 'RAJ2000', dec: 'DEJ2000', distance: 'Dist' }, skipInvalid: true });
+		expect(r.ok).toBe(true);
+		expect(r.catalog!.id).toEqual(['NGC "x", a', 'two\nlines']);
+		expect(r.rejected.rows).toEqual([{ line: 5, reason: 'dec "95" is not a number in [-90, 90]' }]);
+	});
+
+	it('reports malformed rows with line numbers and returns nothing unless told to skip them', () => {
+		expect.hasAssertions();
+		const text = [
+			'id,ra,dec,distance,distance_err,weight',
+			'A,10,10,50,5,1',
+			'B,361,10,50,5,1',
+			'C,10,10,-1,5,1',
+			'D,10,10,50,5',
+			'E,ten,10,50,5,1',
+			'A,11,11,50,5,1',
+			'F,10,10,5000,5,1',
+			'G,10,10,50,-2,1',
+			'H,10,10,50,5,-1',
+			'"I,10,10,50,5,1'
+		].join('\n');
+		const strict = parseCatalogCsv(text);
+		expect(strict.ok).toBe(false);
+		expect(strict.catalog).toBeNull();
+		expect(strict.rowsSeen).toBe(9);
+		expect(strict.rejected.count).toBe(9);
+		expect(strict.rejected.rows.map((r) => r.line)).toEqual([3, 4, 5, 6, 7, 8, 9, 10, 11]);
+		expect(strict.rejected.rows[2].reason).toBe('expected 6 fields, found 5');
+		expect(strict.rejected.rows[4].reason).toBe('duplicate id "A" (first on line 2)');
+		expect(strict.rejected.rows[8].reason).toBe('unterminated quoted field');
+		const lenient = parseCatalogCsv(text, { skipInvalid: true, maxReported: 3 });
+		expect(lenient.ok).toBe(true);
+		expect(lenient.catalog!.id).toEqual(['A']);
+		expect(lenient.rejected.count).toBe(9);
+		expect(lenient.rejected.rows).toHaveLength(3);
+	});
+
+	it('converts B and K magnitudes and stellar mass to weights in 10^10 solar units', () => {
+		expect.hasAssertions();
+		// M = M_sun ⇒ L = 1 L_sun ⇒ weight 1e-10; apparent m = M + 5 log10(100 Mpc / 10 pc) = M + 35.
+		const b = parseCatalogCsv(`id,ra,dec,distance,b_app\nx,1,1,100,${SUN_ABS_MAG_B + 35}\ny,1,1,10,${SUN_ABS_MAG_B - 25 + 30}`);
+		expect(b.catalog!.weightSource).toBe('b');
+		expect(b.catalog!.weight[0] / 1e-10).toBeCloseTo(1, 10);
+		// 10 Mpc: modulus 30; m = M_sun − 25 + 30 ⇒ M = M_sun − 25 ⇒ L = 10^10 L_sun.
+		expect(b.catalog!.weight[1]).toBeCloseTo(1, 10);
+		expect(b.catalog!.luminosityB10![1]).toBeCloseTo(1, 10);
+		const k = parseCatalogCsv(`id,ra,dec,distance,k_abs\nx,1,1,100,${SUN_ABS_MAG_K - 25}`);
+		expect(k.catalog!.weightSource).toBe('k');
+		expect(k.catalog!.weight[0]).toBeCloseTo(1, 10);
+		const m = parseCatalogCsv('id,ra,dec,distance,mass\nx,1,1,100,3e10');
+		expect(m.catalog!.weight[0]).toBeCloseTo(3, 12);
+		const none = parseCatalogCsv('ra,dec,distance\n1,1,100\n2,2,200');
+		expect(none.catalog!.id).toEqual(['1', '2']);
+		expect(Array.from(none.catalog!.weight)).toEqual([1, 1]);
+	});
+
+	it('refuses a file without the needed columns, a mapping to a missing header, unknown fields', () => {
+		expect.hasAssertions();
+		expect(parseCatalogCsv('id,ra,dec\n1,2,3').fatal).toMatch(/header lacks distance/);
+		expect(parseCatalogCsv('id,ra,dec,distance\n', { columns: { ra: 'RAJ2000' } }).fatal).toMatch(/column "RAJ2000"/);
+		expect(parseCatalogCsv('# only a comment\n').fatal).toBe('no header line');
+		expect(() => new CatalogCsvParser({ columns: { nope: 'x' } as never })).toThrow(/unknown catalogue field/);
+		expect(parseCatalogCsv('ra,dec,distance\n1,1,1\n2,2,2\n3,3,3', { maxRows: 2 }).fatal).toBe('more than 2 rows');
+	});
+});
+
+describe('parseColumnMapping', () => {
+	it('reads FIELD=HEADER pairs and rejects others', () => {
+		expect.hasAssertions();
+		expect(parseColumnMapping('id=NAME, ra=RAJ2000,dec=DEJ2000')).toEqual({ id: 'NAME', ra: 'RAJ2000', dec: 'DEJ2000' });
+		expect(() => parseColumnMapping('ra')).toThrow(/FIELD=HEADER/);
+		expect(() => parseColumnMapping('colour=x')).toThrow(/unknown catalogue field/);
+	});
+});
