@@ -11,7 +11,8 @@ import type { AddressInfo } from 'node:net';
 import { startBroker, type FakeBroker } from '../../../fake-alert-broker/broker.ts';
 import { loadScenario, renderScenario, type RenderedStep } from '../../../fake-alert-broker/scenarios.ts';
 
-export const BROKER_CONTROL_PORT = 4179;
+// Beside the app's e2e port, so runs on other ports (E2E_PORT) do not collide.
+export const BROKER_CONTROL_PORT = Number(process.env.E2E_PORT ?? 4173) + 6;
 export const BROKER_CONTROL_URL = `http://127.0.0.1:${BROKER_CONTROL_PORT}`;
 /**
  * Scenario delays are divided by this when rendering, so the authored times of a scenario's
