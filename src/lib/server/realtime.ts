@@ -149,13 +149,111 @@ function onConnection(socket: Socket): void {
 		const allowed = wanted.filter((r) => r === 'board' || can(principal, 'events.view'));
 		for (const r of allowed) socket.join(r);
 		const since = typeof request?.since === 'number' && Number.isInteger(request.since) ? request.since : null;
+		// Joining and reading the log happen in one synchronous step: nothing recorded in between
+		// can be both missing from `missed` and not broadcast to this socket.
 		const missed = since === null ? [] : missedSince(allowed, since);
-		reply?.({ rooms: allowed, missed, latestSeq: latestSeq() });
+		const presence: Record<string, Watcher[]> = {};
+		for (const r of allowed) {
+			if (!isWatched(r)) continue;
+			if (principal.user) noteWatching(r, socket.id, principal.user);
+			presence[r] = watchers(r);
+		}
+		reply?.({ rooms: allowed, missed, latestSeq: latestSeq(), presence });
 	});
 	socket.on('unsubscribe', (request: { rooms?: unknown }) => {
 		const rooms = Array.isArray(request?.rooms) ? request.rooms : [];
-		for (const r of rooms) if (typeof r === 'string' && r !== 'board') socket.leave(r);
+		for (const r of rooms) {
+			if (typeof r !== 'string' || r === 'board') continue;
+			socket.leave(r);
+			if (isWatched(r)) forgetWatching(r as Room, socket.id);
+		}
 	});
+	socket.on('disconnect', () => {
+		for (const [room, sockets] of presenceRooms) if (sockets.has(socket.id)) forgetWatching(room, socket.id);
+	});
+}
+
+/** Who is looking at a room right now: one entry per person, `count` = their open connections. */
+export interface Watcher {
+	userId: string;
+	name: string;
+	count: number;
+}
+
+/** Ephemeral, not an action: sent as the `presence` socket event and never written to the event log. */
+export interface PresenceMessage {
+	room: Room;
+	watchers: Watcher[];
+}
+
+/**
+ * At most one `presence` emission per room per interval: a page reload or a burst of people
+ * opening an alert would otherwise fan out N² messages. The last change always goes out (trailing edge).
+ */
+export const PRESENCE_INTERVAL_MS = 250;
+
+const presenceRooms = new Map<Room, Map<string, { userId: string; name: string }>>();
+const presenceTimers = new Map<Room, { lastEmitMs: number; timer: ReturnType<typeof setTimeout> | null }>();
+
+function isWatched(room: string): room is `event:${string}` {
+	return room.startsWith('event:');
+}
+
+function noteWatching(room: Room, socketId: string, user: SessionUser): void {
+	let sockets = presenceRooms.get(room);
+	if (!sockets) presenceRooms.set(room, (sockets = new Map()));
+	const before = sockets.get(socketId);
+	if (before && before.userId === user.id && before.name === user.name) return;
+	sockets.set(socketId, { userId: user.id, name: user.name });
+	schedulePresence(room);
+}
+
+function forgetWatching(room: Room, socketId: string): void {
+	const sockets = presenceRooms.get(room);
+	if (!sockets?.delete(socketId)) return;
+	if (sockets.size === 0) presenceRooms.delete(room);
+	schedulePresence(room);
+}
+
+/** The people watching a room, by name; a person with two tabs open is one entry with count 2. */
+export function watchers(room: Room): Watcher[] {
+	const byUser = new Map<string, Watcher>();
+	for (const { userId, name } of presenceRooms.get(room)?.values() ?? []) {
+		const w = byUser.get(userId);
+		if (w) w.count++;
+		else byUser.set(userId, { userId, name, count: 1 });
+	}
+	return [...byUser.values()].sort((a, b) => a.name.localeCompare(b.name) || a.userId.localeCompare(b.userId));
+}
+
+function emitPresence(room: Room): void {
+	const io = realtimeSlot().io;
+	if (!io) return;
+	const message: PresenceMessage = { room, watchers: watchers(room) };
+	io.of('/live').to(room).emit('presence', message);
+}
+
+function schedulePresence(room: Room): void {
+	// Throttle state for rooms nobody watches any more is dropped once it can no longer matter.
+	const now = Date.now();
+	for (const [r, s] of presenceTimers) {
+		if (r !== room && !s.timer && !presenceRooms.has(r) && now - s.lastEmitMs >= PRESENCE_INTERVAL_MS) presenceTimers.delete(r);
+	}
+	let state = presenceTimers.get(room);
+	if (!state) presenceTimers.set(room, (state = { lastEmitMs: -Infinity, timer: null }));
+	if (state.timer) return;
+	const waitMs = state.lastEmitMs + PRESENCE_INTERVAL_MS - now;
+	const fire = () => {
+		const s = presenceTimers.get(room)!;
+		s.timer = null;
+		s.lastEmitMs = Date.now();
+		emitPresence(room);
+	};
+	if (waitMs <= 0) fire();
+	else {
+		state.timer = setTimeout(fire, waitMs);
+		state.timer.unref?.();
+	}
 }
 
 export function latestSeq(): number {
