@@ -11,7 +11,9 @@ import { createTeam } from '../src/lib/server/teams';
 import { createTelescope } from '../src/lib/server/telescopes';
 import { SYSTEM } from '../src/lib/server/realtime';
 import { randomId } from '../src/lib/server/auth';
+import { importCatalog } from '../src/lib/server/catalogs';
 import { DEMO_PEOPLE, DEMO_TEAMS, DEMO_TELESCOPES } from './scenario';
+import { generateSyntheticCatalog, syntheticCatalogCsv } from './synthetic-catalog';
 
 const DAY_MS = 24 * 3600_000;
 /** The demo roster reaches this far either side of the moment it is seeded. */
@@ -51,10 +53,35 @@ export function seedDemoRoster(database: DB, now = new Date()): { created: boole
 	return { created: true };
 }
 
+/** The demo's galaxy catalogue: 20,000 invented galaxies, always the same (seed 23). */
+export const DEMO_CATALOG = { name: 'Synthetic demo galaxies (invented)', rows: 20_000, maxDistanceMpc: 400, seed: 23 } as const;
+
+/**
+ * Import the synthetic demo catalogue when there is no catalogue at all, through the same
+ * streamed import as an upload. Labelled synthetic everywhere it is shown.
+ */
+export async function seedDemoCatalog(database: DB): Promise<{ created: boolean }> {
+	if (database.select({ id: table.catalog.id }).from(table.catalog).limit(1).get()) return { created: false };
+	const options = { rows: DEMO_CATALOG.rows, maxDistanceMpc: DEMO_CATALOG.maxDistanceMpc, seed: DEMO_CATALOG.seed };
+	const out = await importCatalog(
+		{ ...SYSTEM, label: 'demo seed' },
+		{
+			name: DEMO_CATALOG.name,
+			sourceNote: `seeds/synthetic-catalog.ts --rows ${options.rows} --max-distance ${options.maxDistanceMpc} --seed ${options.seed}: uniform in volume, Schechter B luminosities`,
+			synthetic: true
+		},
+		syntheticCatalogCsv(generateSyntheticCatalog(options), options),
+		{ progressEveryMs: null }
+	);
+	if (out.state !== 'ready') throw new Error(`demo catalogue import failed: ${out.error}`);
+	return { created: true };
+}
+
 export async function seedDemo(database: DB): Promise<{ created: boolean }> {
 	const already = database.select({ id: table.user.id }).from(table.user).where(eq(table.user.email, DEMO_PEOPLE[0].email)).get();
 	if (already) {
 		seedDemoRoster(database);
+		await seedDemoCatalog(database);
 		return { created: false };
 	}
 	const actor = { ...SYSTEM, label: 'demo seed' };
@@ -65,6 +92,7 @@ export async function seedDemo(database: DB): Promise<{ created: boolean }> {
 		await createUser({ email: p.email, name: p.name, password: p.password, roles: p.roles, teamIds: p.teams.map((k) => teamIds.get(k)!), isDemo: true });
 	}
 	seedDemoRoster(database);
+	await seedDemoCatalog(database);
 	return { created: true };
 }
 

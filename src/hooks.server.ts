@@ -5,13 +5,19 @@ import * as auth from '$lib/server/auth';
 import { startMail } from '$lib/server/mail';
 import { installRealtime } from '$lib/server/realtime';
 import { installDuty } from '$lib/server/duty';
+import { installTargets } from '$lib/server/targets';
+import { installClaims } from '$lib/server/claims';
+import { startAlerts } from '$lib/server/alerts/service';
 
 export const init: ServerInit = async () => {
 	openDatabase();
 	installRealtime();
 	installDuty();
+	installTargets();
+	installClaims();
 	await startMail();
-	await (await import('$lib/server/alerts/service')).startAlerts();
+	// Last: the broker listener may start processing notices at once.
+	await startAlerts();
 };
 
 const handleAuth: Handle = async ({ event, resolve }) => {

@@ -13,7 +13,8 @@ export const load: LayoutServerLoad = ({ locals }) => {
 		{ href: '/telescopes', label: 'Telescopes' },
 		{ href: '/teams', label: 'Teams' },
 		{ href: '/roster', label: 'Roster' },
-		{ href: '/triage', label: 'Triage' }
+		{ href: '/triage', label: 'Triage' },
+		{ href: '/catalogs', label: 'Catalogues' }
 	];
 	if (can(principal, 'admin.view')) nav.push({ href: '/admin', label: 'Admin' });
 	if (usesFakeSmtp() && can(principal, 'mailbox.view')) nav.push({ href: '/mailbox', label: 'Mailbox' });

@@ -28,7 +28,11 @@ describe('permissions table', () => {
 			'notices.submit': ['admin', 'coordinator', 'duty'],
 			'events.acknowledge': ['duty', 'coordinator'],
 			'triage.manage': ['admin', 'coordinator'],
-			'shifts.manage': ['admin', 'coordinator']
+			'shifts.manage': ['admin', 'coordinator'],
+			'catalogs.manage': ['admin', 'coordinator'],
+			'claims.create': ['observer', 'coordinator'],
+			'claims.manage': ['coordinator'],
+			'observations.report': ['observer', 'coordinator']
 		};
 		expect(Object.keys(PERMISSIONS).sort()).toEqual(Object.keys(expected).sort());
 		for (const [perm, roles] of Object.entries(expected) as [Permission, Role[]][]) {
@@ -43,5 +47,7 @@ describe('permissions table', () => {
 		expect(can(null, 'board.view')).toBe(false);
 		expect(can({ user: null }, 'board.view')).toBe(false);
 		expect(can({ user: null, telescopeId: 't1' }, 'people.invite')).toBe(false);
+		expect(can({ user: null, telescopeId: 't1' }, 'claims.create')).toBe(false);
+		expect(can({ user: null, telescopeId: 't1' }, 'observations.report')).toBe(true);
 	});
 });

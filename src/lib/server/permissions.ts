@@ -24,7 +24,11 @@ export const PERMISSIONS = {
 	'notices.submit': { roles: ['admin', 'coordinator', 'duty'] },
 	'events.acknowledge': { roles: ['duty', 'coordinator'] },
 	'triage.manage': { roles: ['admin', 'coordinator'] },
-	'shifts.manage': { roles: ['admin', 'coordinator'] }
+	'shifts.manage': { roles: ['admin', 'coordinator'] },
+	'catalogs.manage': { roles: ['admin', 'coordinator'] },
+	'claims.create': { roles: ['observer', 'coordinator'] },
+	'claims.manage': { roles: ['coordinator'] },
+	'observations.report': { roles: ['observer', 'coordinator'], robot: true }
 } as const satisfies Record<string, { roles: readonly Role[]; robot?: boolean }>;
 
 export type Permission = keyof typeof PERMISSIONS;

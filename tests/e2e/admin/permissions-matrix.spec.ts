@@ -28,7 +28,8 @@ const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean }[] = [
 	{ path: '/roster?/remove', allowed: ['admin', 'coordinator'] },
 	{ path: '/roster?/handover', allowed: 'all' },
 	{ path: '/events/upload', allowed: ['admin', 'coordinator', 'duty'] },
-	{ path: '/triage', allowed: ['admin', 'coordinator'] }
+	{ path: '/triage', allowed: ['admin', 'coordinator'] },
+	{ path: '/catalogs/upload', allowed: ['admin', 'coordinator'] }
 ];
 
 async function client(role: RoleName | null): Promise<APIRequestContext> {

@@ -19,6 +19,7 @@ import { policyInput, factsOf } from '../triage';
 import { parseVoevent, sniffIvorn, type Notice as ParsedNotice } from '../../alerts/voevent.ts';
 import { evaluateTriage } from '../../alerts/triage.ts';
 import { analyseSkymap, skyRaster } from '../../sky/index.ts';
+import { cancelOpenClaims as releaseOpenClaims } from '../claims';
 
 export type InboxVia = table.NoticeInboxRow['via'];
 
@@ -93,13 +94,11 @@ export interface IngestOptions {
 }
 
 /**
- * Claims on targets do not exist yet (they come with the claims feature, which adds their
- * table). A retraction already calls this at the point where open claims must be cancelled,
- * so that feature only has to fill it in; until then there is nothing to cancel.
+ * A retraction releases the event's open claims (reason 'event retracted', each logged);
+ * returns how many.
  */
 export function cancelOpenClaims(eventId: string): number {
-	void eventId;
-	return 0;
+	return releaseOpenClaims(eventId);
 }
 
 /** URL-safe event id from the source's id: lower case, `[a-z0-9_-]`, at most 64 characters. */

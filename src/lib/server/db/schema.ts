@@ -1,7 +1,7 @@
 import { sql } from 'drizzle-orm';
 import { ROLES_LIST } from '../../roles';
 import type { SkymapSummary } from '../../sky/index';
-import { sqliteTable, text, integer, real, primaryKey, index, check } from 'drizzle-orm/sqlite-core';
+import { sqliteTable, text, integer, real, primaryKey, index, uniqueIndex, check } from 'drizzle-orm/sqlite-core';
 
 /** Roles a person can hold; one person may hold several. */
 export const ROLES = ROLES_LIST;
@@ -375,3 +375,243 @@ export type Skymap = typeof skymap.$inferSelect;
 export type TriagePolicy = typeof triagePolicy.$inferSelect;
 export type DutyShift = typeof dutyShift.$inferSelect;
 export type DutyPage = typeof dutyPage.$inferSelect;
+
+// ───────────────────────────── Targets: galaxy catalogues, rankings, survey fields ─────────────────────────────
+
+export const CATALOG_STATES = ['importing', 'ready', 'failed'] as const;
+
+/** Rejected-row report of an import: the first rows listed, all counted. */
+export interface CatalogImportReport {
+	rowsSeen: number;
+	rejectedCount: number;
+	rejected: { line: number; reason: string }[];
+	fatal: string | null;
+	bytes: number;
+}
+
+/** One imported galaxy catalogue (its rows are in `galaxy`). */
+export const catalog = sqliteTable(
+	'catalog',
+	{
+		id: text('id').primaryKey(),
+		name: text('name').notNull(),
+		sourceNote: text('source_note').notNull().default(''),
+		/** Invented galaxies (the demo's and the tests'): always shown as such. */
+		synthetic: integer('synthetic', { mode: 'boolean' }).notNull().default(false),
+		rowCount: integer('row_count').notNull().default(0),
+		/** Catalogue field → CSV header used by the import. */
+		columns: text('columns', { mode: 'json' }).$type<Record<string, string>>().notNull(),
+		/** Where the galaxy weight came from: 'weight' | 'b' | 'k' | 'mass' | 'none'. */
+		weightSource: text('weight_source').notNull().default('none'),
+		report: text('report', { mode: 'json' }).$type<CatalogImportReport>(),
+		state: text('state', { enum: CATALOG_STATES }).notNull().default('importing'),
+		error: text('error'),
+		createdBy: text('created_by').references(() => user.id, { onDelete: 'set null' }),
+		createdAt: createdAt(),
+		readyAt: integer('ready_at', { mode: 'timestamp_ms' })
+	},
+	(t) => [index('catalog_state_idx').on(t.state, t.createdAt)]
+);
+
+/** Galaxies, with their HEALPix NESTED pixel at the targeting index order (INDEX_ORDER = 8). */
+export const galaxy = sqliteTable(
+	'galaxy',
+	{
+		/** SQLite rowid: the galaxy's id everywhere else. */
+		id: integer('id').primaryKey(),
+		catalogId: text('catalog_id')
+			.notNull()
+			.references(() => catalog.id, { onDelete: 'cascade' }),
+		/** 0-based position in the catalogue file (the CatalogIndex row). */
+		row: integer('row').notNull(),
+		name: text('name').notNull(),
+		raDeg: real('ra_deg').notNull(),
+		decDeg: real('dec_deg').notNull(),
+		distanceMpc: real('distance_mpc').notNull(),
+		distanceErrMpc: real('distance_err_mpc').notNull(),
+		weight: real('weight').notNull(),
+		/** Absolute B magnitude when the catalogue gives one (directly or from the apparent one). */
+		bAbsMag: real('b_abs_mag'),
+		pixel: integer('pixel').notNull()
+	},
+	(t) => [index('galaxy_catalog_pixel_idx').on(t.catalogId, t.pixel), index('galaxy_catalog_row_idx').on(t.catalogId, t.row)]
+);
+
+/** Ranked galaxies of an event's current sky map (replaced when a new map arrives). */
+export const eventGalaxy = sqliteTable(
+	'event_galaxy',
+	{
+		eventId: text('event_id')
+			.notNull()
+			.references(() => gwEvent.id, { onDelete: 'cascade' }),
+		skymapId: text('skymap_id')
+			.notNull()
+			.references(() => skymap.id, { onDelete: 'cascade' }),
+		rank: integer('rank').notNull(),
+		galaxyId: integer('galaxy_id')
+			.notNull()
+			.references(() => galaxy.id, { onDelete: 'cascade' }),
+		score: real('score').notNull(),
+		probability: real('probability').notNull(),
+		cumulative: real('cumulative').notNull()
+	},
+	(t) => [primaryKey({ columns: [t.eventId, t.rank] }), index('event_galaxy_event_idx').on(t.eventId)]
+);
+
+/** Ranked survey fields per wide-field telescope for an event's current sky map. */
+export const eventField = sqliteTable(
+	'event_field',
+	{
+		eventId: text('event_id')
+			.notNull()
+			.references(() => gwEvent.id, { onDelete: 'cascade' }),
+		skymapId: text('skymap_id')
+			.notNull()
+			.references(() => skymap.id, { onDelete: 'cascade' }),
+		telescopeId: text('telescope_id')
+			.notNull()
+			.references(() => telescope.id, { onDelete: 'cascade' }),
+		fieldId: text('field_id').notNull(),
+		raDeg: real('ra_deg').notNull(),
+		decDeg: real('dec_deg').notNull(),
+		probability: real('probability').notNull(),
+		cumulative: real('cumulative').notNull(),
+		rank: integer('rank').notNull()
+	},
+	(t) => [primaryKey({ columns: [t.eventId, t.telescopeId, t.rank] }), index('event_field_event_idx').on(t.eventId)]
+);
+
+export interface TargetsMetaCompleteness {
+	distanceRangeMpc: [number, number];
+	ratio: number;
+	catalogLuminosityB10: number;
+	expectedLuminosityB10: number;
+}
+
+/** What the last ranking of an event used and found. */
+export const eventTargetsMeta = sqliteTable('event_targets_meta', {
+	eventId: text('event_id')
+		.primaryKey()
+		.references(() => gwEvent.id, { onDelete: 'cascade' }),
+	skymapId: text('skymap_id')
+		.notNull()
+		.references(() => skymap.id, { onDelete: 'cascade' }),
+	catalogId: text('catalog_id').references(() => catalog.id, { onDelete: 'set null' }),
+	mode: text('mode'),
+	level: real('level').notNull(),
+	regionAreaDeg2: real('region_area_deg2'),
+	candidates: integer('candidates').notNull().default(0),
+	galaxiesStored: integer('galaxies_stored').notNull().default(0),
+	withoutDistance: integer('without_distance').notNull().default(0),
+	completeness: text('completeness', { mode: 'json' }).$type<TargetsMetaCompleteness>(),
+	/** telescopeId → number of fields stored. */
+	fieldCounts: text('field_counts', { mode: 'json' }).$type<Record<string, number>>().notNull(),
+	computeMs: real('compute_ms'),
+	computedAt: integer('computed_at', { mode: 'timestamp_ms' }).notNull()
+});
+
+export type Catalog = typeof catalog.$inferSelect;
+export type Galaxy = typeof galaxy.$inferSelect;
+export type EventGalaxy = typeof eventGalaxy.$inferSelect;
+export type EventField = typeof eventField.$inferSelect;
+export type EventTargetsMeta = typeof eventTargetsMeta.$inferSelect;
+
+// ───────────────────────────── Claims and reported observations ─────────────────────────────
+
+export const CLAIM_TARGET_KINDS = ['galaxy', 'field'] as const;
+export const CLAIM_STATES = ['claimed', 'observing', 'done', 'released', 'lapsed'] as const;
+/** States that hold the target: at most one such claim per target, filter and epoch. */
+export const OPEN_CLAIM_STATES = ['claimed', 'observing'] as const;
+export const OBSERVATION_SOURCES = ['form', 'csv', 'api'] as const;
+
+/** A team's promise to observe one target of an event with one telescope. */
+export const claim = sqliteTable(
+	'claim',
+	{
+		id: text('id').primaryKey(),
+		eventId: text('event_id')
+			.notNull()
+			.references(() => gwEvent.id, { onDelete: 'cascade' }),
+		targetKind: text('target_kind', { enum: CLAIM_TARGET_KINDS }).notNull(),
+		/** Galaxy row id (as text) or survey field id. */
+		targetId: text('target_id').notNull(),
+		/** '' = any filter. */
+		filter: text('filter').notNull().default(''),
+		epoch: integer('epoch').notNull().default(1),
+		telescopeId: text('telescope_id')
+			.notNull()
+			.references(() => telescope.id, { onDelete: 'cascade' }),
+		teamId: text('team_id')
+			.notNull()
+			.references(() => team.id, { onDelete: 'cascade' }),
+		userId: text('user_id').references(() => user.id, { onDelete: 'set null' }),
+		state: text('state', { enum: CLAIM_STATES }).notNull().default('claimed'),
+		claimedAt: integer('claimed_at', { mode: 'timestamp_ms' }).notNull(),
+		startedAt: integer('started_at', { mode: 'timestamp_ms' }),
+		doneAt: integer('done_at', { mode: 'timestamp_ms' }),
+		/** When it was released or lapsed. */
+		endedAt: integer('ended_at', { mode: 'timestamp_ms' }),
+		note: text('note').notNull().default('')
+	},
+	(t) => [
+		// The server's arbiter between two teams pressing at once: the second insert fails here.
+		uniqueIndex('claim_open_target_uq')
+			.on(t.eventId, t.targetKind, t.targetId, t.filter, t.epoch)
+			.where(sql`state IN ('claimed', 'observing')`),
+		index('claim_event_idx').on(t.eventId, t.state),
+		index('claim_state_idx').on(t.state, t.claimedAt),
+		check('claim_epoch', sql`${t.epoch} >= 1`)
+	]
+);
+
+/** A pointing a team reports: by form, CSV upload or a robotic telescope's token. */
+export const observation = sqliteTable(
+	'observation',
+	{
+		id: text('id').primaryKey(),
+		eventId: text('event_id')
+			.notNull()
+			.references(() => gwEvent.id, { onDelete: 'cascade' }),
+		telescopeId: text('telescope_id')
+			.notNull()
+			.references(() => telescope.id, { onDelete: 'cascade' }),
+		teamId: text('team_id')
+			.notNull()
+			.references(() => team.id, { onDelete: 'cascade' }),
+		reportedByUserId: text('reported_by_user_id').references(() => user.id, { onDelete: 'set null' }),
+		reportedByTokenId: text('reported_by_token_id').references(() => apiToken.id, { onDelete: 'set null' }),
+		observedAt: integer('observed_at', { mode: 'timestamp_ms' }).notNull(),
+		raDeg: real('ra_deg').notNull(),
+		decDeg: real('dec_deg').notNull(),
+		fieldId: text('field_id'),
+		filter: text('filter').notNull(),
+		exposureS: real('exposure_s').notNull(),
+		limitingMag: real('limiting_mag').notNull(),
+		seeingArcsec: real('seeing_arcsec'),
+		notes: text('notes').notNull().default(''),
+		source: text('source', { enum: OBSERVATION_SOURCES }).notNull(),
+		/** The first claim this pointing completed, if any (all of them are in the log entry). */
+		claimId: text('claim_id').references(() => claim.id, { onDelete: 'set null' }),
+		createdAt: createdAt()
+	},
+	(t) => [
+		index('observation_event_idx').on(t.eventId, t.observedAt),
+		check('observation_ra', sql`${t.raDeg} >= 0 AND ${t.raDeg} < 360`),
+		check('observation_dec', sql`${t.decDeg} BETWEEN -90 AND 90`),
+		check('observation_exposure', sql`${t.exposureS} > 0`)
+	]
+);
+
+/** Claim rules per event, or global when `scope` = 'global' (else the event id). */
+export const claimSetting = sqliteTable('claim_setting', {
+	scope: text('scope').primaryKey(),
+	/** Minutes a claim may stay 'claimed' without being started before it lapses. */
+	lapseMinutes: real('lapse_minutes').notNull().default(60),
+	updatedBy: text('updated_by').references(() => user.id, { onDelete: 'set null' }),
+	updatedAt: integer('updated_at', { mode: 'timestamp_ms' })
+});
+
+export type Claim = typeof claim.$inferSelect;
+export type ClaimState = (typeof CLAIM_STATES)[number];
+export type Observation = typeof observation.$inferSelect;
+export type ClaimSetting = typeof claimSetting.$inferSelect;

@@ -1,0 +1,26 @@
+import type { PageServerLoad } from './$types';
+import { can } from '$lib/server/permissions';
+import { requirePermission } from '$lib/server/guard';
+import { activeCatalog, listCatalogs } from '$lib/server/catalogs';
+
+export const load: PageServerLoad = ({ locals, depends }) => {
+	requirePermission('events.view');
+	depends('app:catalogs');
+	const active = activeCatalog();
+	return {
+		catalogs: listCatalogs().map((c) => ({
+			id: c.id,
+			name: c.name,
+			sourceNote: c.sourceNote,
+			synthetic: c.synthetic,
+			rowCount: c.rowCount,
+			weightSource: c.weightSource,
+			state: c.state,
+			error: c.error,
+			rejected: c.report?.rejectedCount ?? 0,
+			createdAt: c.createdAt.toISOString()
+		})),
+		activeId: active?.id ?? null,
+		canManage: can({ user: locals.user }, 'catalogs.manage')
+	};
+};

@@ -1,0 +1,39 @@
+import { json } from '@sveltejs/kit';
+import { eq } from 'drizzle-orm';
+import { z } from 'zod';
+import { apiError, apiRoute, readJson } from '$lib/server/api';
+import { requirePermission, requireUser } from '$lib/server/guard';
+import { db } from '$lib/server/db';
+import * as table from '$lib/server/db/schema';
+import { claim, ClaimError, listClaims } from '$lib/server/claims';
+
+const claimBody = z.object({
+	targetKind: z.enum(table.CLAIM_TARGET_KINDS),
+	targetId: z.string().trim().min(1).max(80),
+	filter: z.string().max(20).optional(),
+	epoch: z.number().int().min(1).max(100).optional(),
+	telescopeId: z.string().min(1).max(80),
+	note: z.string().max(500).optional()
+});
+
+/** GET the event's claims: `{ claims: [...] }` (`?open=1`: only claimed/observing). */
+export const GET = apiRoute(({ params, url }) => {
+	requirePermission('events.view');
+	const eventId = params.eventId ?? '';
+	if (!db.select({ id: table.gwEvent.id }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get()) return apiError(404, 'not_found', `No event ${eventId}.`);
+	return json({ claims: listClaims(eventId, { openOnly: url.searchParams.get('open') === '1' }) });
+});
+
+/** POST a claim: 201 `{ claim }`, or 409 `{ error: { code: 'taken', message: 'Already taken by <team> (<telescope>) …' } }`. */
+export const POST = apiRoute(async ({ params, request }) => {
+	const user = requireUser('claims.create');
+	const body = await readJson(request, claimBody);
+	if (body.response) return body.response;
+	try {
+		const row = claim(user, { eventId: params.eventId ?? '', ...body.data });
+		return json({ claim: row }, { status: 201 });
+	} catch (e) {
+		if (e instanceof ClaimError) return apiError(e.status, e.code, e.message);
+		throw e;
+	}
+});

@@ -1,0 +1,64 @@
+import { json } from '@sveltejs/kit';
+import { and, eq, isNull } from 'drizzle-orm';
+import { apiError, apiRoute, readJson } from '$lib/server/api';
+import { requirePermission } from '$lib/server/guard';
+import { db } from '$lib/server/db';
+import * as table from '$lib/server/db/schema';
+import { hashToken } from '$lib/server/auth';
+import { observationInput, ObservationError, parseObservationCsv, report, reportMany, type Reporter } from '$lib/server/observations';
+
+const MAX_CSV_BYTES = 1024 * 1024;
+
+/**
+ * POST a pointing `{ eventId, observedAt, raDeg, decDeg | fieldId, filter, exposureS, limitingMag, seeingArcsec?, notes? }`.
+ * With a telescope token the telescope is the token's; a person gives `telescopeId` (one of their teams').
+ * 201 `{ observation, completedClaimIds }`; 422 with `details` `{ field: message }` on bad input.
+ * A `text/csv` body (`?eventId=…&telescopeId=…`) stores all rows or none: 201 `{ results }`, or
+ * 422 with `details` `[{ line, message }]`.
+ */
+export const POST = apiRoute(async ({ request, url }) => {
+	const principal = requirePermission('observations.report');
+	const reporter = reporterOf(principal, request);
+	const type = (request.headers.get('content-type') ?? '').split(';')[0].trim().toLowerCase();
+	if (type === 'text/csv') {
+		const text = await request.text();
+		if (text.length > MAX_CSV_BYTES) return apiError(413, 'too_large', `A CSV upload may be at most ${MAX_CSV_BYTES} bytes.`);
+		const eventId = url.searchParams.get('eventId') ?? '';
+		const telescopeId = url.searchParams.get('telescopeId') || undefined;
+		const parsed = parseObservationCsv(text);
+		if (parsed.errors.length) return apiError(422, 'invalid_csv', `${parsed.errors.length} problem(s); nothing stored.`, parsed.errors);
+		try {
+			const out = reportMany(reporter, parsed.rows.map((r) => ({ ...r, eventId, telescopeId })), 'csv', { lines: parsed.lines });
+			if (out.errors.length) return apiError(422, 'invalid_csv', `${out.errors.length} problem(s); nothing stored.`, out.errors);
+			return json({ results: out.results }, { status: 201 });
+		} catch (e) {
+			if (e instanceof ObservationError) return apiError(e.status, e.code, e.message);
+			throw e;
+		}
+	}
+	const body = await readJson(request, observationInput);
+	if (body.response) return body.response;
+	try {
+		const out = report(reporter, body.data, 'api');
+		return json(out, { status: 201 });
+	} catch (e) {
+		if (e instanceof ObservationError) return apiError(e.status, e.code, e.message, Object.keys(e.fields).length ? e.fields : undefined);
+		throw e;
+	}
+});
+
+function reporterOf(principal: ReturnType<typeof requirePermission>, request: Request): Reporter {
+	let reporter: Reporter;
+	if (principal.user) reporter = { user: principal.user };
+	else {
+		// The hook resolved the telescope; the token row is looked up again only to name the reporter.
+		const secret = (request.headers.get('authorization') ?? '').slice(7).trim();
+		const token = db
+			.select({ id: table.apiToken.id })
+			.from(table.apiToken)
+			.where(and(eq(table.apiToken.tokenHash, hashToken(secret)), isNull(table.apiToken.revokedAt)))
+			.get();
+		reporter = { user: null, telescopeId: principal.telescopeId!, tokenId: token?.id ?? null };
+	}
+	return reporter;
+}
