@@ -11,6 +11,7 @@ import * as table from './db/schema';
 import { randomId, type SessionUser } from './auth';
 import { actorOf, record, type Actor } from './realtime';
 import { footprintContains, footprintGeometry, type FootprintShape } from '../targeting/sky-geometry.ts';
+import { splitCsvLine } from '../csv';
 
 const MIN = 60_000;
 const DAY = 24 * 60 * MIN;
@@ -251,30 +252,6 @@ export function fieldErrors(e: z.ZodError): Record<string, string> {
 
 const CSV_COLUMNS = ['observed_at', 'ra_deg', 'dec_deg', 'field_id', 'filter', 'exposure_s', 'limiting_mag', 'seeing_arcsec', 'notes'] as const;
 const REQUIRED_COLUMNS = ['observed_at', 'filter', 'exposure_s', 'limiting_mag'] as const;
-
-/** Split one CSV line (RFC 4180 quoting, no embedded newlines). */
-function splitCsvLine(line: string): string[] | null {
-	const out: string[] = [];
-	let cur = '';
-	let quoted = false;
-	for (let i = 0; i < line.length; i++) {
-		const ch = line[i];
-		if (quoted) {
-			if (ch === '"' && line[i + 1] === '"') {
-				cur += '"';
-				i++;
-			} else if (ch === '"') quoted = false;
-			else cur += ch;
-		} else if (ch === '"' && cur === '') quoted = true;
-		else if (ch === ',') {
-			out.push(cur);
-			cur = '';
-		} else cur += ch;
-	}
-	if (quoted) return null;
-	out.push(cur);
-	return out.map((s) => s.trim());
-}
 
 export type CsvPointing = Omit<ObservationInput, 'eventId' | 'telescopeId'>;
 
