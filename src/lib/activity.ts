@@ -1,4 +1,16 @@
 const PHRASES: Record<string, string> = {
+	'targets.ranked': 'Targets ranked',
+	'catalog.started': 'Catalogue import started',
+	'catalog.imported': 'Catalogue imported',
+	'catalog.failed': 'Catalogue import failed',
+	'claim.claimed': 'Target claimed',
+	'claim.observing': 'Target being observed',
+	'claim.done': 'Target observed',
+	'claim.released': 'Claim released',
+	'claim.lapsed': 'Claim lapsed',
+	'claim.reassigned': 'Claim reassigned',
+	'claim.settings': 'Claim lapse time changed',
+	'observation.reported': 'Observation reported',
 	'person.invited': 'Invitation sent',
 	'person.invitation-withdrawn': 'Invitation withdrawn',
 	'person.joined': 'A new member joined',
@@ -30,3 +42,6 @@ const PHRASES: Record<string, string> = {
 export function describeAction(action: string): string {
 	return PHRASES[action] ?? action;
 }
+
+/** Actions logged for live clients only (progress ticks), left out of the activity list. */
+export const QUIET_ACTIONS: readonly string[] = ['catalog.progress'];

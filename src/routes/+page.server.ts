@@ -1,5 +1,5 @@
 import { redirect } from '@sveltejs/kit';
-import { desc, eq } from 'drizzle-orm';
+import { and, desc, eq, notInArray } from 'drizzle-orm';
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
 import { db } from '$lib/server/db';
@@ -8,6 +8,7 @@ import { requirePermission, requireUser } from '$lib/server/guard';
 import { can } from '$lib/server/permissions';
 import { validateForm, failWith } from '$lib/server/forms';
 import { boardEvents } from '$lib/server/board';
+import { QUIET_ACTIONS } from '$lib/activity';
 import * as duty from '$lib/server/duty';
 
 export const load: PageServerLoad = ({ locals, depends }) => {
@@ -17,7 +18,7 @@ export const load: PageServerLoad = ({ locals, depends }) => {
 	const activity = db
 		.select({ seq: table.eventLog.seq, action: table.eventLog.action, actor: table.eventLog.actorLabel, at: table.eventLog.createdAt })
 		.from(table.eventLog)
-		.where(eq(table.eventLog.room, 'board'))
+		.where(and(eq(table.eventLog.room, 'board'), notInArray(table.eventLog.action, [...QUIET_ACTIONS])))
 		.orderBy(desc(table.eventLog.seq))
 		.limit(15)
 		.all()
