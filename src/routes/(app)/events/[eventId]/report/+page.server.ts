@@ -1,0 +1,96 @@
+import { error, fail } from '@sveltejs/kit';
+import { z } from 'zod';
+import type { Actions, PageServerLoad } from './$types';
+import { requirePermission, requireUser } from '$lib/server/guard';
+import { failWith } from '$lib/server/forms';
+import { getEvent } from '$lib/server/events';
+import { listTelescopes } from '$lib/server/telescopes';
+import { fieldErrors, ObservationError, parseObservationCsv, report, reportMany, type ObservationInput } from '$lib/server/observations';
+import type { SessionUser } from '$lib/server/auth';
+
+const MAX_CSV_BYTES = 2_000_000;
+
+function ownTelescopes(user: SessionUser | null) {
+	if (!user) return [];
+	const coordinator = user.roles.includes('coordinator');
+	return listTelescopes()
+		.filter((t) => coordinator || user.teamIds.includes(t.teamId))
+		.map((t) => ({ id: t.id, name: t.name, teamName: t.teamName, filters: t.filters }));
+}
+
+export const load: PageServerLoad = ({ params, locals }) => {
+	requirePermission('events.view');
+	const event = getEvent(params.eventId);
+	if (!event) error(404, 'No such event.');
+	return { event: { id: event.eventId, sourceEventId: event.sourceEventId, state: event.state }, telescopes: ownTelescopes(locals.user), now: new Date().toISOString().slice(0, 19) + 'Z' };
+};
+
+/** Empty inputs are absent; numbers stay strings when unparsable so the schema names the field. */
+function numberOrText(v: FormDataEntryValue | null): number | string | undefined {
+	const s = typeof v === 'string' ? v.trim() : '';
+	if (s === '') return undefined;
+	const n = Number(s);
+	return Number.isFinite(n) ? n : s;
+}
+function text(v: FormDataEntryValue | null): string | undefined {
+	const s = typeof v === 'string' ? v.trim() : '';
+	return s === '' ? undefined : s;
+}
+/** Times are UTC: a time typed without an offset gets 'Z' rather than the server's zone. */
+function utc(v: string | undefined): string | undefined {
+	if (!v) return v;
+	const t = v.replace(' ', 'T');
+	const withSeconds = /T\d\d:\d\d$/.test(t) ? `${t}:00` : t;
+	return /(Z|[+-]\d\d:?\d\d)$/i.test(withSeconds) ? withSeconds : `${withSeconds}Z`;
+}
+
+export const actions: Actions = {
+	report: async ({ request, params }) => {
+		const user = requireUser('observations.report');
+		const form = await request.formData();
+		const raw = {
+			eventId: params.eventId,
+			telescopeId: text(form.get('telescopeId')),
+			observedAt: utc(text(form.get('observedAt'))),
+			raDeg: numberOrText(form.get('raDeg')),
+			decDeg: numberOrText(form.get('decDeg')),
+			fieldId: text(form.get('fieldId')),
+			filter: text(form.get('filter')),
+			exposureS: numberOrText(form.get('exposureS')),
+			limitingMag: numberOrText(form.get('limitingMag')),
+			seeingArcsec: numberOrText(form.get('seeingArcsec')),
+			notes: text(form.get('notes'))
+		};
+		if (!raw.telescopeId) return failWith(form, { telescopeId: 'Choose a telescope.' });
+		try {
+			const r = report({ user }, raw as ObservationInput, 'form');
+			return { reported: { id: r.observation.id, completedClaims: r.completedClaimIds.length } };
+		} catch (e) {
+			if (e instanceof z.ZodError) return failWith(form, fieldErrors(e));
+			if (e instanceof ObservationError) return failWith(form, e.fields, e.status >= 400 && e.status < 500 ? e.status : 400, e.message);
+			throw e;
+		}
+	},
+	upload: async ({ request, params }) => {
+		const user = requireUser('observations.report');
+		const form = await request.formData();
+		const telescopeId = text(form.get('telescopeId'));
+		const file = form.get('file');
+		if (!telescopeId) return failWith(form, { telescopeId: 'Choose a telescope.' });
+		if (!(file instanceof File) || file.size === 0) return failWith(form, { file: 'Choose a CSV file of pointings.' });
+		if (file.size > MAX_CSV_BYTES) return failWith(form, { file: `The file is larger than ${MAX_CSV_BYTES / 1e6} MB.` });
+		// All or nothing, every problem with its CSV line so the file can be fixed in one pass.
+		const refuse = (csvErrors: { line: number; message: string }[]) =>
+			fail(400, { values: { telescopeId }, errors: { file: `${csvErrors.length} problem(s); nothing was stored.` } as Record<string, string>, message: undefined, csvErrors });
+		const parsed = parseObservationCsv(await file.text());
+		if (parsed.errors.length) return refuse(parsed.errors);
+		try {
+			const out = reportMany({ user }, parsed.rows.map((r) => ({ ...r, eventId: params.eventId, telescopeId })), 'csv', { lines: parsed.lines });
+			if (out.errors.length) return refuse(out.errors);
+			return { uploaded: { count: out.results.length, completedClaims: out.results.reduce((n, r) => n + r.completedClaimIds.length, 0) } };
+		} catch (e) {
+			if (e instanceof ObservationError) return failWith(form, { file: e.message }, e.status >= 400 && e.status < 500 ? e.status : 400, e.message);
+			throw e;
+		}
+	}
+};

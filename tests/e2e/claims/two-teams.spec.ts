@@ -1,0 +1,157 @@
+import { test, expect, type Browser, type Page } from '@playwright/test';
+import { mkdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { signIn, signInAs } from '../support/people';
+import { DEMO_PEOPLE } from '../../../seeds/scenario';
+import { generateSkymap, skymapToFits } from '../../../fake-alert-broker/skymap';
+import { sunPosition } from '../../../src/lib/targeting/night';
+
+const SCREENS = 'test-results/screens';
+mkdirSync(SCREENS, { recursive: true });
+const WORK = 'test-results/claims-e2e';
+mkdirSync(WORK, { recursive: true });
+
+/** An event of our own, with a compact map opposite the Sun so that it is a night target today. */
+const SOURCE_ID = 'SX30052201';
+const PEAK = { raDeg: (sunPosition({ latitudeDeg: 0, longitudeDeg: 0, elevationM: 0 }, new Date()).raDeg + 180) % 360, decDeg: 0 };
+
+function skymapFile(): string {
+	const fits = skymapToFits(generateSkymap({ components: [{ ...PEAK, widthDeg: 3 }], distance: { meanMpc: 118, stdMpc: 24 } }), {
+		object: SOURCE_ID,
+		dateObs: new Date().toISOString().slice(0, 23)
+	});
+	const path = `${WORK}/skymap.multiorder.fits.gz`;
+	writeFileSync(path, fits);
+	return path;
+}
+
+/** The fixture notice, renamed and moved to now (merger 30 min ago) so that tonight's pointings are after it. */
+function noticeXml(): string {
+	const merger = new Date(Date.now() - 30 * 60_000).toISOString();
+	return readFileSync('tests/fixtures/notices/bns-initial.xml', 'utf8')
+		.replaceAll('SX30041207', SOURCE_ID)
+		.replace('2030-04-12T07:30:41.250Z', merger)
+		.replace('2030-04-12T08:02:00Z', new Date().toISOString().slice(0, 19) + 'Z');
+}
+
+async function observer(browser: Browser, email: string): Promise<Page> {
+	const person = DEMO_PEOPLE.find((p) => p.email === email)!;
+	const page = await (await browser.newContext()).newPage();
+	await signIn(page, person.email, person.password);
+	return page;
+}
+
+test('two teams contend for one galaxy: the second sees it taken live and is refused with the holder named', async ({ browser }) => {
+	test.setTimeout(120_000);
+	// A coordinator publishes the notice with its sky map; the event is then ranked.
+	const coordinator = await (await browser.newContext()).newPage();
+	await signInAs(coordinator, 'coordinator');
+	await coordinator.goto('/events/upload');
+	await coordinator.getByLabel('Notice XML').fill(noticeXml());
+	await coordinator.getByLabel('Sky map (optional)').setInputFiles(skymapFile());
+	await coordinator.getByRole('button', { name: 'Submit the notice' }).click();
+	await expect(coordinator.getByTestId('event-page')).toBeVisible({ timeout: 30_000 });
+	const eventId = new URL(coordinator.url()).pathname.split('/')[2];
+	await coordinator.context().close();
+
+	const a = await observer(browser, 'observer@strainline.demo');
+	const b = await observer(browser, 'observer2@strainline.demo');
+	for (const p of [a, b]) {
+		await p.goto(`/events/${eventId}/targets`);
+		const rows = p.getByTestId('galaxy-row');
+		await expect(async () => {
+			if ((await rows.count()) === 0) await p.reload();
+			await expect(rows.first()).toBeVisible({ timeout: 2000 });
+		}).toPass({ timeout: 30_000 });
+	}
+	// Each observer may only claim with their own team's telescopes.
+	await expect(a.getByTestId('claim-telescope').locator('option')).not.toHaveCount(0);
+	for (const text of await a.getByTestId('claim-telescope').locator('option').allInnerTexts()) expect(text).toContain('Altiplano Nightwatch');
+	for (const text of await b.getByTestId('claim-telescope').locator('option').allInnerTexts()) expect(text).toContain('Karoo Wide Field');
+
+	const rowA = a.locator('[data-testid="galaxy-row"][data-rank="1"]');
+	const rowB = b.locator('[data-testid="galaxy-row"][data-rank="1"]');
+	await expect(rowB.getByRole('button', { name: /^Claim / })).toBeVisible();
+	await b.screenshot({ path: `${SCREENS}/claims-1-open.png`, fullPage: true });
+
+	// A claims the top galaxy; B, who has not reloaded, sees it taken within a second.
+	await rowA.getByRole('button', { name: /^Claim / }).click();
+	await expect(rowA.getByTestId('claim-state')).toHaveText('claimed');
+	await expect(rowA.getByTestId('claim-cell')).toContainText('Altiplano Nightwatch');
+	await expect(rowB.getByTestId('claim-state')).toHaveText('claimed', { timeout: 1000 });
+	await expect(rowB.getByTestId('claim-cell')).toContainText('Altiplano Nightwatch');
+	// The holder's buttons are the holder's only.
+	await expect(rowB.getByRole('button', { name: /^(Start|Done|Release) / })).toHaveCount(0);
+	await b.screenshot({ path: `${SCREENS}/claims-2-taken-live.png`, fullPage: true });
+
+	// B claims the same galaxy anyway (a plain form post, as from a page that had not yet heard): refused, holder named.
+	const targetId = await rowB.getByTestId('claim-cell').getAttribute('data-target-id');
+	expect(targetId).toMatch(/^\d+$/);
+	const telescopeId = await b.getByTestId('claim-telescope').inputValue();
+	await b.evaluate(
+		({ targetId, telescopeId }) => {
+			const form = document.createElement('form');
+			form.method = 'POST';
+			form.action = '?/claim';
+			for (const [name, value] of Object.entries({ targetKind: 'galaxy', targetId, telescopeId })) {
+				const input = document.createElement('input');
+				input.type = 'hidden';
+				input.name = name;
+				input.value = value;
+				form.append(input);
+			}
+			document.body.append(form);
+			form.submit();
+		},
+		{ targetId: targetId!, telescopeId }
+	);
+	await expect(b.getByTestId('claim-message')).toContainText('Already taken by Altiplano Nightwatch');
+	await expect(b.getByTestId('claim-message')).toContainText(`galaxy ${targetId}`);
+	await b.screenshot({ path: `${SCREENS}/claims-2b-refused.png`, fullPage: true });
+	await b.goto(`/events/${eventId}/targets`);
+	await expect(b.locator('[data-hydrated="yes"]')).toBeVisible();
+	await expect(rowB.getByTestId('claim-state')).toHaveText('claimed');
+	// Let the reloaded page join the event's room before the next change.
+	await b.waitForTimeout(500);
+
+	// A starts observing; B sees it.
+	await rowA.getByRole('button', { name: /^Start / }).click();
+	await expect(rowA.getByTestId('claim-state')).toHaveText('observing');
+	await expect(rowB.getByTestId('claim-state')).toHaveText('observing', { timeout: 2000 });
+
+	// A reports the pointing at the galaxy: a bad value first is refused with the other values kept.
+	const raDeg = (await rowA.locator('td').nth(2).innerText()).replace('°', '');
+	const decDeg = (await rowA.locator('td').nth(3).innerText()).replace('°', '');
+	await a.goto(`/events/${eventId}/report`);
+	await expect(a.locator('[data-hydrated="yes"]')).toBeVisible();
+	const observedAt = new Date(Date.now() - 60_000).toISOString().slice(0, 19) + 'Z';
+	const reportForm = a.getByTestId('report-form');
+	await reportForm.getByLabel('Telescope').selectOption({ label: 'Pardo 0.6 m (Altiplano Nightwatch; filters g, r, i)' });
+	await reportForm.getByLabel('Time (UTC)').fill(observedAt);
+	await reportForm.getByLabel('RA (deg, J2000)').fill(raDeg);
+	await reportForm.getByLabel('Dec (deg, J2000)').fill(decDeg);
+	await reportForm.getByLabel('Filter').fill('r');
+	await reportForm.getByLabel('Exposure (s)').fill('300');
+	await reportForm.getByLabel('Limiting magnitude (AB)').fill('45');
+	await reportForm.getByRole('button', { name: 'Report pointing' }).click();
+	await expect(a.getByTestId('error-limitingMag')).toContainText('limiting magnitude must be 5–30');
+	await expect(reportForm.getByLabel('RA (deg, J2000)')).toHaveValue(raDeg);
+	await expect(reportForm.getByLabel('Filter')).toHaveValue('r');
+	await a.screenshot({ path: `${SCREENS}/claims-4-report-error.png`, fullPage: true });
+	await reportForm.getByLabel('Limiting magnitude (AB)').fill('20.4');
+	await reportForm.getByRole('button', { name: 'Report pointing' }).click();
+	await expect(a.getByTestId('report-ok')).toContainText('completed 1 claim');
+
+	// The report completed A's claim; B's page, untouched, shows it done.
+	await expect(rowB.getByTestId('claim-state')).toHaveText('done', { timeout: 2000 });
+	await expect(rowB.getByRole('button', { name: /^Claim / })).toHaveCount(0);
+	await b.screenshot({ path: `${SCREENS}/claims-5-done-seen.png`, fullPage: true });
+
+	// A CSV with a bad row stores nothing and names the line.
+	const csv = `${WORK}/pointings.csv`;
+	writeFileSync(csv, ['observed_at,ra_deg,dec_deg,filter,exposure_s,limiting_mag', `${observedAt},${raDeg},${decDeg},r,120,20.1`, `${observedAt},400,${decDeg},r,120,20.1`].join('\n') + '\n');
+	await a.getByTestId('csv-file').setInputFiles(csv);
+	await a.getByTestId('upload-form').getByRole('button', { name: 'Upload' }).click();
+	await expect(a.getByTestId('csv-errors')).toContainText('Line 3:');
+	await expect(a.getByTestId('csv-errors')).toContainText('RA must be in [0, 360)');
+	await a.screenshot({ path: `${SCREENS}/claims-6-csv-refused.png`, fullPage: true });
+});
