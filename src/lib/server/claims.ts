@@ -6,6 +6,7 @@
  * makes the second of two simultaneous inserts fail, whatever the number of server processes.
  * States: claimed → observing → done, or released, or lapsed (not started in time).
  */
+import { every } from './periodic';
 import { and, asc, eq, inArray, lt } from 'drizzle-orm';
 import { db } from './db';
 import * as table from './db/schema';
@@ -345,21 +346,10 @@ const slot = (): { uninstall: (() => void) | null } => {
 export function installClaims(o: { everyMs?: number | null } = {}): () => void {
 	const s = slot();
 	s.uninstall?.();
-	const every = o.everyMs === undefined ? LAPSE_CHECK_MS : o.everyMs;
-	let timer: NodeJS.Timeout | null = null;
-	if (every !== null) {
-		let running = false;
-		timer = setInterval(() => {
-			if (running) return;
-			running = true;
-			lapseOverdue()
-				.catch((e) => console.error('claim lapse check failed', e))
-				.finally(() => (running = false));
-		}, every);
-		timer.unref();
-	}
+	const everyMs = o.everyMs === undefined ? LAPSE_CHECK_MS : o.everyMs;
+	const stop = everyMs === null ? null : every(everyMs, () => lapseOverdue(), 'claim lapse check');
 	const uninstall = () => {
-		if (timer) clearInterval(timer);
+		stop?.();
 		if (s.uninstall === uninstall) s.uninstall = null;
 	};
 	s.uninstall = uninstall;

@@ -9,6 +9,7 @@ import * as table from './db/schema';
 import { config } from './config';
 import { loadSessionUser, randomId, type SessionUser } from './auth';
 import { sendMail, type OutgoingMail } from './mail';
+import { every } from './periodic';
 import { onRecorded, record, SYSTEM, type Actor, type LiveMessage } from './realtime';
 import { can, rolesFor } from './permissions';
 import {
@@ -556,22 +557,11 @@ export function installDuty(o: { escalateEveryMs?: number | null } = {}): () => 
 	const s = slot();
 	s.uninstall?.();
 	const off = onRecorded(react);
-	const every = o.escalateEveryMs === undefined ? ESCALATION_CHECK_MS : o.escalateEveryMs;
-	let timer: NodeJS.Timeout | null = null;
-	if (every !== null) {
-		let running = false;
-		timer = setInterval(() => {
-			if (running) return;
-			running = true;
-			escalate()
-				.catch((e) => console.error('duty escalation failed', e))
-				.finally(() => (running = false));
-		}, every);
-		timer.unref();
-	}
+	const everyMs = o.escalateEveryMs === undefined ? ESCALATION_CHECK_MS : o.escalateEveryMs;
+	const stop = everyMs === null ? null : every(everyMs, () => escalate(), 'duty escalation');
 	const uninstall = () => {
 		off();
-		if (timer) clearInterval(timer);
+		stop?.();
 		if (s.uninstall === uninstall) s.uninstall = null;
 	};
 	s.uninstall = uninstall;
