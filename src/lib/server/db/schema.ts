@@ -1,6 +1,7 @@
 import { sql } from 'drizzle-orm';
 import { ROLES_LIST } from '../../roles';
 import type { SkymapSummary } from '../../sky/index';
+import type { Classification, TriageVerdict } from '../../event-view';
 import { sqliteTable, text, integer, real, primaryKey, index, uniqueIndex, check } from 'drizzle-orm/sqlite-core';
 
 /** Roles a person can hold; one person may hold several. */
@@ -221,17 +222,7 @@ export const noticeInbox = sqliteTable(
 	(t) => [index('notice_inbox_pending_idx').on(t.processedAt)]
 );
 
-export interface Classification {
-	BNS: number | null;
-	NSBH: number | null;
-	BBH: number | null;
-	Terrestrial: number | null;
-}
-
-export interface TriageVerdict {
-	verdict: 'follow' | 'skip';
-	reasons: string[];
-}
+export type { Classification, TriageVerdict };
 
 export const gwEvent = sqliteTable(
 	'gw_event',
