@@ -12,7 +12,7 @@ import { commitNotice, processInbox } from './alerts/ingest';
 import { importCatalog } from './catalogs';
 import { createTeam } from './teams';
 import { createTelescope } from './telescopes';
-import { clearTargetCaches, eventFields, eventGalaxies, fieldsResponse, galaxiesResponse, installTargets, isWideField, rankEvent, targetsIdle, targetsMeta } from './targets';
+import { clearTargetCaches, eventFields, eventFieldsPage, eventGalaxies, fieldsResponse, galaxiesResponse, installTargets, isWideField, rankEvent, targetsIdle, targetsMeta } from './targets';
 import { DEMO_TELESCOPES } from '../../../seeds/scenario';
 import { credibleRegions, readSkyMap } from '../sky/index';
 import type { DB } from './db';
@@ -244,5 +244,31 @@ describe('targets: the network plan over the stored rankings', () => {
 		expect(covered.sky.at(-1)!.probability).toBeCloseTo(covered.skyTotal, 12);
 		expect(covered.galaxyTotal).toBeLessThanOrEqual(1 + 1e-9);
 		for (let i = 1; i < covered.galaxies.length; i++) expect(covered.galaxies[i].probability).toBeGreaterThanOrEqual(covered.galaxies[i - 1].probability);
+	}, 120_000);
+});
+
+describe('targets: filtered paging on the read side', () => {
+	it('applies a sky test after the database order and pages the rows it keeps; fields page like the full list', async () => {
+		expect.hasAssertions();
+		const r = await ingestWithMap(notice('bns-initial.xml'), mocMap);
+		const eventId = r.eventId!;
+		const all = eventGalaxies(eventId, { sort: 'dec', dir: 'desc', limit: 2000 });
+		// Keep the galaxies south of −30°: the same rows, in the same order, as filtering the full list.
+		const south = (_ra: Float64Array, dec: Float64Array) => Uint8Array.from(dec, (d) => (d < -30 ? 1 : 0));
+		const expected = all.galaxies.filter((g) => g.dec < -30);
+		expect(expected.length).toBeGreaterThan(10);
+		expect(expected.length).toBeLessThan(all.total);
+		const second = eventGalaxies(eventId, { sort: 'dec', dir: 'desc', offset: 10, limit: 10, filter: { sky: south } });
+		expect(second.total).toBe(expected.length);
+		expect(second.stored).toBe(all.total);
+		expect(second.galaxies.map((g) => g.rank)).toEqual(expected.slice(10, 20).map((g) => g.rank));
+
+		const wide = scopes['Karoo Schmidt 1.0 m'];
+		const full = eventFields(eventId, wide);
+		const page = eventFieldsPage(eventId, wide, { offset: 25, limit: 25 });
+		expect(page.total).toBe(full.length);
+		expect(page.rows).toEqual(full.slice(25, 50));
+		const byRa = eventFieldsPage(eventId, wide, { sort: 'ra', limit: 300 }).rows.map((f) => f.ra);
+		expect(byRa).toEqual([...byRa].sort((a, b) => a - b));
 	}, 120_000);
 });

@@ -10,7 +10,8 @@
  * about one galaxy of the region, and at ≲ 1 deg² the fields needed to tile a typical 90% region
  * of tens to hundreds of deg² outnumber what a night allows (common practice).
  */
-import { and, asc, desc, eq, sql } from 'drizzle-orm';
+import { and, asc, desc, eq, inArray, notInArray, sql, type SQL } from 'drizzle-orm';
+import type { SQLiteColumn } from 'drizzle-orm/sqlite-core';
 import { db } from './db';
 import * as table from './db/schema';
 import { onRecorded, record, SYSTEM, type Actor, type LiveMessage } from './realtime';
@@ -25,8 +26,11 @@ import { readSkyMap } from '../sky/index.ts';
 export const WIDE_FIELD_MIN_DEG2 = 1;
 /** Credible level of the region searched for galaxies and fields. */
 export const TARGET_LEVEL = 0.99;
-/** Galaxies stored per event (probabilities stay normalised over every candidate). */
-export const STORED_GALAXIES = 2000;
+/**
+ * Galaxies stored per event (probabilities stay normalised over every candidate). Large enough
+ * for a poorly localised event in a deep catalogue; the read side pages and filters on the server.
+ */
+export const STORED_GALAXIES = 10_000;
 /** Fields stored per telescope: until the union reaches this probability, at most MAX_FIELDS. */
 export const FIELDS_CUMULATIVE = 0.99;
 export const MAX_FIELDS = 300;
@@ -313,10 +317,91 @@ export function targetsMeta(eventId: string) {
 	return { ...meta, catalog: cat ? { id: cat.id, name: cat.name, synthetic: cat.synthetic, rowCount: cat.rowCount } : null };
 }
 
-/** Ranked galaxies of an event, a page at a time, in a chosen order. */
-export function eventGalaxies(eventId: string, o: { offset?: number; limit?: number; sort?: GalaxySort; dir?: 'asc' | 'desc' } = {}): { total: number; galaxies: GalaxyTarget[] } {
+/**
+ * Claim states that make a target "taken" for someone choosing what to observe: open claims and
+ * finished ones. Released and lapsed claims freed the target again.
+ */
+export const HELD_CLAIM_STATES = ['claimed', 'observing', 'done'] as const;
+
+/**
+ * Which targets to keep. `sky` is a vectorised position test (e.g. "observable now"): it gets
+ * the RA/Dec of every row that passed the database filters and returns 1 for the rows to keep,
+ * so the database still does the claim filters and the ordering.
+ */
+export interface TargetFilter {
+	/** No claim in HELD_CLAIM_STATES on the target. */
+	unclaimed?: boolean;
+	/** A claim in HELD_CLAIM_STATES by this team on the target. */
+	teamId?: string | null;
+	sky?: ((raDeg: Float64Array, decDeg: Float64Array) => Uint8Array) | null;
+}
+
+export interface TargetPage<T> {
+	/** Rows that match the filter. */
+	total: number;
+	/** Rows stored, before filtering. */
+	stored: number;
+	rows: T[];
+}
+
+/** Target ids (as the claim table spells them) held by claims of an event. */
+function heldTargets(eventId: string, kind: 'galaxy' | 'field', teamId?: string | null) {
+	const conditions = [eq(table.claim.eventId, eventId), eq(table.claim.targetKind, kind), inArray(table.claim.state, [...HELD_CLAIM_STATES])];
+	if (teamId) conditions.push(eq(table.claim.teamId, teamId));
+	const id = kind === 'galaxy' ? sql<number>`CAST(${table.claim.targetId} AS INTEGER)` : sql<string>`${table.claim.targetId}`;
+	return db.select({ id }).from(table.claim).where(and(...conditions));
+}
+
+function claimConditions(eventId: string, kind: 'galaxy' | 'field', column: SQLiteColumn, f: TargetFilter): SQL[] {
+	// IN / NOT IN over a subquery: SQLite builds the claimed set once, not once per row.
+	const out: SQL[] = [];
+	if (f.unclaimed) out.push(notInArray(column, heldTargets(eventId, kind)));
+	if (f.teamId) out.push(inArray(column, heldTargets(eventId, kind, f.teamId)));
+	return out;
+}
+
+/**
+ * Pages through rows that the database has filtered and ordered, applying the optional sky test
+ * to every such row in one vectorised call: `positions` returns [key, ra, dec] of each filtered row
+ * in order (a light query), `details` the full rows for the keys of the page.
+ */
+function pageWithSky<K, T>(
+	f: TargetFilter,
+	offset: number,
+	limit: number,
+	count: () => number,
+	page: () => T[],
+	positions: () => [K, number, number][],
+	details: (keys: K[]) => T[],
+	keyOf: (row: T) => K
+): { total: number; rows: T[] } {
+	if (!f.sky) return { total: count(), rows: page() };
+	const all = positions();
+	const ra = new Float64Array(all.length);
+	const dec = new Float64Array(all.length);
+	all.forEach((r, k) => {
+		ra[k] = r[1];
+		dec[k] = r[2];
+	});
+	const keep = f.sky(ra, dec);
+	const kept: K[] = [];
+	for (let k = 0; k < all.length; k++) if (keep[k]) kept.push(all[k][0]);
+	const pageKeys = kept.slice(offset, offset + limit);
+	const byKey = new Map(details(pageKeys).map((r) => [keyOf(r), r]));
+	return { total: kept.length, rows: pageKeys.map((key) => byKey.get(key)!).filter(Boolean) };
+}
+
+/**
+ * Ranked galaxies of an event, a page at a time, in a chosen order, optionally filtered by claim
+ * state, claiming team and a sky test. `total` counts the matching rows; `stored` every row.
+ */
+export function eventGalaxies(
+	eventId: string,
+	o: { offset?: number; limit?: number; sort?: GalaxySort; dir?: 'asc' | 'desc'; filter?: TargetFilter } = {}
+): { total: number; stored: number; galaxies: GalaxyTarget[] } {
 	const limit = Math.max(1, Math.min(o.limit ?? 50, STORED_GALAXIES));
 	const offset = Math.max(0, o.offset ?? 0);
+	const f = o.filter ?? {};
 	const column = {
 		rank: table.eventGalaxy.rank,
 		name: table.galaxy.name,
@@ -325,28 +410,48 @@ export function eventGalaxies(eventId: string, o: { offset?: number; limit?: num
 		dec: table.galaxy.decDeg
 	}[o.sort ?? 'rank'];
 	const order = o.dir === 'desc' ? desc(column) : asc(column);
-	const total = db.select({ n: sql<number>`count(*)` }).from(table.eventGalaxy).where(eq(table.eventGalaxy.eventId, eventId)).get()?.n ?? 0;
-	const galaxies = db
-		.select({
-			rank: table.eventGalaxy.rank,
-			galaxyId: table.eventGalaxy.galaxyId,
-			name: table.galaxy.name,
-			ra: table.galaxy.raDeg,
-			dec: table.galaxy.decDeg,
-			distance: table.galaxy.distanceMpc,
-			distanceErr: table.galaxy.distanceErrMpc,
-			score: table.eventGalaxy.score,
-			probability: table.eventGalaxy.probability,
-			cumulative: table.eventGalaxy.cumulative
-		})
-		.from(table.eventGalaxy)
-		.innerJoin(table.galaxy, eq(table.galaxy.id, table.eventGalaxy.galaxyId))
-		.where(eq(table.eventGalaxy.eventId, eventId))
-		.orderBy(order, asc(table.eventGalaxy.rank))
-		.limit(limit)
-		.offset(offset)
-		.all();
-	return { total, galaxies };
+	const ofEvent = eq(table.eventGalaxy.eventId, eventId);
+	const where = and(ofEvent, ...claimConditions(eventId, 'galaxy', table.eventGalaxy.galaxyId, f));
+	const countWhere = (w: SQL | undefined, join: boolean) => {
+		const q = db.select({ n: sql<number>`count(*)` }).from(table.eventGalaxy);
+		return (join ? q.innerJoin(table.galaxy, eq(table.galaxy.id, table.eventGalaxy.galaxyId)) : q).where(w).get()?.n ?? 0;
+	};
+	const stored = countWhere(ofEvent, false);
+	const select = () =>
+		db
+			.select({
+				rank: table.eventGalaxy.rank,
+				galaxyId: table.eventGalaxy.galaxyId,
+				name: table.galaxy.name,
+				ra: table.galaxy.raDeg,
+				dec: table.galaxy.decDeg,
+				distance: table.galaxy.distanceMpc,
+				distanceErr: table.galaxy.distanceErrMpc,
+				score: table.eventGalaxy.score,
+				probability: table.eventGalaxy.probability,
+				cumulative: table.eventGalaxy.cumulative
+			})
+			.from(table.eventGalaxy)
+			.innerJoin(table.galaxy, eq(table.galaxy.id, table.eventGalaxy.galaxyId));
+	const { total, rows } = pageWithSky<number, GalaxyTarget>(
+		f,
+		offset,
+		limit,
+		() => (f.unclaimed || f.teamId ? countWhere(where, false) : stored),
+		() => select().where(where).orderBy(order, asc(table.eventGalaxy.rank)).limit(limit).offset(offset).all(),
+		() =>
+			db
+				.select({ rank: table.eventGalaxy.rank, ra: table.galaxy.raDeg, dec: table.galaxy.decDeg })
+				.from(table.eventGalaxy)
+				.innerJoin(table.galaxy, eq(table.galaxy.id, table.eventGalaxy.galaxyId))
+				.where(where)
+				.orderBy(order, asc(table.eventGalaxy.rank))
+				.all()
+				.map((r) => [r.rank, r.ra, r.dec] as [number, number, number]),
+		(ranks) => (ranks.length ? select().where(and(ofEvent, inArray(table.eventGalaxy.rank, ranks))).all() : []),
+		(g) => g.rank
+	);
+	return { total, stored, galaxies: rows };
 }
 
 export interface FieldTarget {
@@ -359,22 +464,62 @@ export interface FieldTarget {
 	cumulative: number;
 }
 
+const fieldColumns = {
+	telescopeId: table.eventField.telescopeId,
+	rank: table.eventField.rank,
+	fieldId: table.eventField.fieldId,
+	ra: table.eventField.raDeg,
+	dec: table.eventField.decDeg,
+	probability: table.eventField.probability,
+	cumulative: table.eventField.cumulative
+};
+
 /** Ranked fields of an event, for one telescope or all, best first. */
 export function eventFields(eventId: string, telescopeId?: string | null): FieldTarget[] {
 	return db
-		.select({
-			telescopeId: table.eventField.telescopeId,
-			rank: table.eventField.rank,
-			fieldId: table.eventField.fieldId,
-			ra: table.eventField.raDeg,
-			dec: table.eventField.decDeg,
-			probability: table.eventField.probability,
-			cumulative: table.eventField.cumulative
-		})
+		.select(fieldColumns)
 		.from(table.eventField)
 		.where(telescopeId ? and(eq(table.eventField.eventId, eventId), eq(table.eventField.telescopeId, telescopeId)) : eq(table.eventField.eventId, eventId))
 		.orderBy(asc(table.eventField.telescopeId), asc(table.eventField.rank))
 		.all();
+}
+
+export const FIELD_SORTS = ['rank', 'field', 'ra', 'dec'] as const;
+export type FieldSort = (typeof FIELD_SORTS)[number];
+
+/** One telescope's ranked fields a page at a time, sorted and filtered like `eventGalaxies`. */
+export function eventFieldsPage(
+	eventId: string,
+	telescopeId: string,
+	o: { offset?: number; limit?: number; sort?: FieldSort; dir?: 'asc' | 'desc'; filter?: TargetFilter } = {}
+): TargetPage<FieldTarget> {
+	const limit = Math.max(1, Math.min(o.limit ?? 50, MAX_FIELDS));
+	const offset = Math.max(0, o.offset ?? 0);
+	const f = o.filter ?? {};
+	const column = { rank: table.eventField.rank, field: table.eventField.fieldId, ra: table.eventField.raDeg, dec: table.eventField.decDeg }[o.sort ?? 'rank'];
+	const order = o.dir === 'desc' ? desc(column) : asc(column);
+	const ofScope = and(eq(table.eventField.eventId, eventId), eq(table.eventField.telescopeId, telescopeId));
+	const where = and(ofScope, ...claimConditions(eventId, 'field', table.eventField.fieldId, f));
+	const count = (w: SQL | undefined) => db.select({ n: sql<number>`count(*)` }).from(table.eventField).where(w).get()?.n ?? 0;
+	const stored = count(ofScope);
+	const { total, rows } = pageWithSky<number, FieldTarget>(
+		f,
+		offset,
+		limit,
+		() => (f.unclaimed || f.teamId ? count(where) : stored),
+		() => db.select(fieldColumns).from(table.eventField).where(where).orderBy(order, asc(table.eventField.rank)).limit(limit).offset(offset).all(),
+		() =>
+			db
+				.select({ rank: table.eventField.rank, ra: table.eventField.raDeg, dec: table.eventField.decDeg })
+				.from(table.eventField)
+				.where(where)
+				.orderBy(order, asc(table.eventField.rank))
+				.all()
+				.map((r) => [r.rank, r.ra, r.dec] as [number, number, number]),
+		(ranks) => (ranks.length ? db.select(fieldColumns).from(table.eventField).where(and(ofScope, inArray(table.eventField.rank, ranks))).all() : []),
+		(r) => r.rank
+	);
+	return { total, stored, rows };
 }
 
 /** `GET /api/v1/events/{id}/galaxies` body (shape kept stable for programs). */

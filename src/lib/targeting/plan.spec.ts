@@ -12,6 +12,7 @@ import {
 	type Site
 } from './night.ts';
 import { planNetwork, type NetworkPlan, type PlanClaim, type PlanInput, type PlanTarget, type PlanTelescope } from './plan.ts';
+import { mulberry32 } from '../../../fake-alert-broker/prng.ts';
 
 // Sites and astronomical-twilight crossings from tests/fixtures/night/fixtures.json
 // (astroplan 0.7 / astropy 5.2.1, see tests/fixtures/night/README.md). Every position check below
@@ -39,17 +40,8 @@ const site = (name: string): Site => {
 	return s;
 };
 
-/** Deterministic pseudo-random numbers (mulberry32), so a failing case can be replayed. */
-function random(seed: number): () => number {
-	let a = seed >>> 0;
-	return () => {
-		a = (a + 0x6d2b79f5) >>> 0;
-		let t = a;
-		t = Math.imul(t ^ (t >>> 15), t | 1);
-		t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-		return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-	};
-}
+/** Deterministic uniform numbers (mulberry32), so a failure can be replayed. */
+const random = mulberry32;
 
 function telescope(id: string, where: Site, overrides: Partial<PlanTelescope> = {}): PlanTelescope {
 	return {

@@ -1,26 +1,20 @@
 /**
  * The benchmark's reference: a bare socket.io server with the same namespace, room join and
- * broadcast, and the same driver endpoint, but no authentication, no database and no presence.
- * Sequence numbers come from a counter. Env: PORT. Prints `ready` on stdout.
+ * broadcast, and a driver endpoint `POST /bench/action` that emits the posted message at once —
+ * no authentication, no database, no validation, no presence. Sequence numbers come from a
+ * counter. Env: PORT. Listens on 127.0.0.1 only. Prints `ready` on stdout.
  */
 import http from 'node:http';
 import { Server } from 'socket.io';
-import { nowMs, readBody, type DriveRequest } from './protocol.ts';
+import { readBody, type DriveRequest } from './protocol.ts';
 
 let seq = 0;
-const recordMs: number[] = [];
 const server = http.createServer(async (req, res) => {
 	if (req.method === 'POST' && req.url === '/bench/action') {
 		const body = JSON.parse(await readBody(req)) as DriveRequest;
-		const t0 = nowMs();
 		const message = { seq: ++seq, room: body.room, type: body.type, actor: 'bench', payload: body.payload, at: new Date().toISOString() };
 		io.of('/live').to(body.room).emit('live', message);
-		recordMs.push(nowMs() - t0);
 		res.writeHead(200, { 'content-type': 'application/json' }).end(JSON.stringify({ seq: message.seq }));
-		return;
-	}
-	if (req.method === 'GET' && req.url === '/bench/stats') {
-		res.writeHead(200, { 'content-type': 'application/json' }).end(JSON.stringify({ recordMs }));
 		return;
 	}
 	res.writeHead(404).end();

@@ -1,35 +1,54 @@
 /**
  * A client process of the live benchmark (forked with IPC): opens `count` socket.io clients
  * (websocket transport, one connection each, API-token authenticated), subscribes each to the
- * event room and notes, per client, every `live` message's seq and its latency (receive time −
- * the driver's send time carried in the payload). Raw sockets, not the browser's LiveConnection:
- * that one drops duplicates by seq, which would hide a hub that sends one twice.
+ * event room and notes, per client, every `live` message of that room: its seq, its key (type +
+ * the claim / observation id its payload names, see `keyOf`) and its receive time. At the end the
+ * parent sends the expected messages (key, logged seq, send time of the causing request) and the
+ * process reports latencies and what was lost, duplicated, reordered or unexpected.
+ * Raw sockets, not the browser's LiveConnection: that one drops duplicates by seq, which would
+ * hide a hub that sends one twice.
  */
 import { monitorEventLoopDelay } from 'node:perf_hooks';
 import { io, type Socket } from 'socket.io-client';
-import { nowMs, type ClientReport, type FromClients, type ToClients } from './protocol.ts';
+import { keyOf, nowMs, type ClientReport, type ExpectedMessage, type FromClients, type ToClients } from './protocol.ts';
 
 interface Client {
 	socket: Socket;
 	seqs: number[];
+	/** Index into `keys` (−1: untraceable message), parallel to `seqs`. */
+	keyIds: number[];
+	ats: number[];
 	disconnects: number;
 }
 
 const clients: Client[] = [];
-const latencies: number[] = [];
+// Keys are interned: 300 clients × ~2,000 messages would otherwise hold ~600k copies of the same strings.
+const keyIndex = new Map<string, number>();
+const keys: string[] = [];
 let presenceMessages = 0;
 const loop = monitorEventLoopDelay({ resolution: 5 });
 
 const send = (m: FromClients) => process.send!(m);
 
+function intern(key: string | null): number {
+	if (key === null) return -1;
+	let id = keyIndex.get(key);
+	if (id === undefined) {
+		id = keys.length;
+		keys.push(key);
+		keyIndex.set(key, id);
+	}
+	return id;
+}
+
 async function open(origin: string, room: string, token: string, timeoutMs: number): Promise<Client> {
 	const socket = io(`${origin}/live`, { path: '/socket.io', transports: ['websocket'], auth: { token }, reconnection: false, forceNew: true, timeout: timeoutMs });
-	const client: Client = { socket, seqs: [], disconnects: 0 };
-	socket.on('live', (m: { seq: number; room: string; payload: { sentAtMs?: number } }) => {
+	const client: Client = { socket, seqs: [], keyIds: [], ats: [], disconnects: 0 };
+	socket.on('live', (m: { seq: number; room: string; type: string; payload: Record<string, unknown> }) => {
 		if (m.room !== room) return;
-		const at = nowMs();
+		client.ats.push(nowMs());
 		client.seqs.push(m.seq);
-		if (typeof m.payload?.sentAtMs === 'number') latencies.push(Math.round((at - m.payload.sentAtMs) * 100) / 100);
+		client.keyIds.push(intern(keyOf(m.type, m.payload)));
 	});
 	socket.on('presence', () => presenceMessages++);
 	socket.on('disconnect', () => client.disconnects++);
@@ -42,24 +61,35 @@ async function open(origin: string, room: string, token: string, timeoutMs: numb
 	return client;
 }
 
-function report(expectedSeqs: number[]): ClientReport {
-	const expected = new Set(expectedSeqs);
+function report(expected: ExpectedMessage[]): ClientReport {
+	const byKey = new Map(expected.map((e) => [e.key, e]));
+	const latencies: number[] = [];
 	let lost = 0;
 	let duplicated = 0;
 	let outOfOrder = 0;
 	let unexpected = 0;
+	let seqMismatch = 0;
 	let deliveries = 0;
 	for (const c of clients) {
 		deliveries += c.seqs.length;
-		const seen = new Set<number>();
+		const seen = new Set<string>();
 		for (let k = 0; k < c.seqs.length; k++) {
-			const s = c.seqs[k];
-			if (seen.has(s)) duplicated++;
-			seen.add(s);
-			if (!expected.has(s)) unexpected++;
-			if (k > 0 && s < c.seqs[k - 1]) outOfOrder++;
+			if (k > 0 && c.seqs[k] < c.seqs[k - 1]) outOfOrder++;
+			const key = c.keyIds[k] < 0 ? null : keys[c.keyIds[k]];
+			const e = key === null ? undefined : byKey.get(key);
+			if (!e) {
+				unexpected++;
+				continue;
+			}
+			if (seen.has(e.key)) {
+				duplicated++;
+				continue;
+			}
+			seen.add(e.key);
+			if (c.seqs[k] !== e.seq) seqMismatch++;
+			if (e.sentAtMs !== null) latencies.push(Math.round((c.ats[k] - e.sentAtMs) * 100) / 100);
 		}
-		for (const s of expected) if (!seen.has(s)) lost++;
+		lost += expected.length - seen.size;
 	}
 	return {
 		clients: clients.length,
@@ -69,6 +99,7 @@ function report(expectedSeqs: number[]): ClientReport {
 		duplicated,
 		outOfOrder,
 		unexpected,
+		seqMismatch,
 		disconnects: clients.reduce((n, c) => n + c.disconnects, 0),
 		presenceMessages,
 		maxLoopLagMs: loop.max / 1e6
@@ -91,7 +122,7 @@ process.on('message', async (m: ToClients) => {
 		}
 	} else if (m.cmd === 'report') {
 		loop.disable();
-		send({ ev: 'report', report: report(m.expectedSeqs) });
+		send({ ev: 'report', report: report(m.expected) });
 	} else if (m.cmd === 'close') {
 		for (const c of clients) c.socket.close();
 		setTimeout(() => process.exit(0), 100);

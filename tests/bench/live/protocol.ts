@@ -1,6 +1,6 @@
 /**
- * Shared between the live benchmark's orchestrator (tests/bench/live.bench.ts), its hub
- * processes and its client processes. Times are milliseconds on the machine's wall clock with
+ * Shared between the live benchmark's orchestrator (tests/bench/live.bench.ts), its reference hub
+ * and its client processes. Times are milliseconds on the machine's wall clock with
  * sub-millisecond resolution (`performance.timeOrigin + performance.now()`), which every process
  * on one machine shares.
  */
@@ -8,29 +8,54 @@ import net from 'node:net';
 
 export const nowMs = (): number => performance.timeOrigin + performance.now();
 
-/** One action the driver sends; the hub broadcasts `payload` unchanged apart from its own fields. */
+/** One action the driver sends to the reference hub; it broadcasts `payload` unchanged. */
 export interface DriveRequest {
 	room: string;
 	type: string;
-	payload: Record<string, unknown> & { k: number; sentAtMs: number };
+	payload: Record<string, unknown> & { k: number };
+}
+
+/**
+ * What identifies a live message independently of its seq: its type and the id its payload
+ * names — the claim for `claim.*`, the observation for `observation.*`, the driver's action
+ * number for the reference hub's `bench.*`. The same ids come back in the HTTP responses, which
+ * is how a delivery is traced to the request that caused it. Null: a message the bench cannot trace.
+ */
+export function keyOf(type: string, payload: Record<string, unknown> | null | undefined): string | null {
+	const p = payload ?? {};
+	const id = type.startsWith('observation.') ? p.observationId : type.startsWith('claim.') ? p.claimId : type.startsWith('bench.') ? p.k : undefined;
+	return typeof id === 'string' || typeof id === 'number' ? `${type}|${id}` : null;
+}
+
+/** A message every client should receive exactly once: its key, the seq the server logged, and the send time of its request. */
+export interface ExpectedMessage {
+	key: string;
+	seq: number;
+	/** Null: the server logged it but no request of the driver names it (counted, not timed). */
+	sentAtMs: number | null;
 }
 
 /** Parent → client process. */
 export type ToClients =
 	| { cmd: 'connect'; origin: string; room: string; tokens: string[]; count: number; connectTimeoutMs: number }
-	| { cmd: 'report'; expectedSeqs: number[] }
+	| { cmd: 'report'; expected: ExpectedMessage[] }
 	| { cmd: 'close' };
 
 export interface ClientReport {
 	clients: number;
 	deliveries: number;
-	/** Every delivery's latency (receive − send), ms, rounded to 0.01 ms. */
+	/** Every traced delivery's latency (receive − the request's send time), ms, rounded to 0.01 ms. */
 	latenciesMs: number[];
+	/** Expected messages a client never received, summed over clients. */
 	lost: number;
+	/** Second and later receipts of one expected message by one client. */
 	duplicated: number;
+	/** Deliveries whose seq is lower than the previous one on the same client. */
 	outOfOrder: number;
-	/** Messages for seqs the driver never sent (should be 0). */
+	/** Deliveries in the event room that match no expected message (untraceable, or never logged). */
 	unexpected: number;
+	/** Deliveries whose key was expected but carried a different seq than the one logged. */
+	seqMismatch: number;
 	disconnects: number;
 	presenceMessages: number;
 	/** Largest event-loop delay seen in the client process, ms: a sign the client side is the bottleneck. */

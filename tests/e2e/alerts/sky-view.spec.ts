@@ -29,6 +29,12 @@ test('the event page shows the sky view: map, 50%/90% contours, grid in hours, l
 	expect(await sky.locator('path.sky-galactic-plane').count()).toBeGreaterThan(0);
 	await expect(sky.locator('.sky-sun')).not.toHaveCount(0);
 	await expect(sky.locator('.sky-moon')).not.toHaveCount(0);
+	// The view opens on the region (the outer contour fills the map); "Whole sky" shows it all, smaller.
+	const outer = sky.locator('path.sky-contour-90').first();
+	const opened = (await outer.boundingBox())!;
+	await sky.getByRole('button', { name: 'Whole sky' }).click();
+	await expect(async () => expect((await outer.boundingBox())!.width).toBeLessThan(opened.width / 2)).toPass({ timeout: 3000 });
+	await page.waitForTimeout(400);
 	// RA labels in hours; on the whole-sky view 12h lies left of 6h (RA increases to the left).
 	const labels = sky.locator('.sky-grid-label-ra');
 	await expect(labels.filter({ hasText: /^12h$/ })).toHaveCount(1);

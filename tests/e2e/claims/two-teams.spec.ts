@@ -1,37 +1,15 @@
 import { test, expect, type Browser, type Page } from '@playwright/test';
-import { mkdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { mkdirSync, writeFileSync } from 'node:fs';
 import { signIn, signInAs } from '../support/people';
 import { DEMO_PEOPLE } from '../../../seeds/scenario';
-import { generateSkymap, skymapToFits } from '../../../fake-alert-broker/skymap';
-import { sunPosition } from '../../../src/lib/targeting/night';
+import { publishNightEvent } from '../support/events';
 
 const SCREENS = 'test-results/screens';
 mkdirSync(SCREENS, { recursive: true });
 const WORK = 'test-results/claims-e2e';
 mkdirSync(WORK, { recursive: true });
 
-/** An event of our own, with a compact map opposite the Sun so that it is a night target today. */
 const SOURCE_ID = 'SX30052201';
-const PEAK = { raDeg: (sunPosition({ latitudeDeg: 0, longitudeDeg: 0, elevationM: 0 }, new Date()).raDeg + 180) % 360, decDeg: 0 };
-
-function skymapFile(): string {
-	const fits = skymapToFits(generateSkymap({ components: [{ ...PEAK, widthDeg: 3 }], distance: { meanMpc: 118, stdMpc: 24 } }), {
-		object: SOURCE_ID,
-		dateObs: new Date().toISOString().slice(0, 23)
-	});
-	const path = `${WORK}/skymap.multiorder.fits.gz`;
-	writeFileSync(path, fits);
-	return path;
-}
-
-/** The fixture notice, renamed and moved to now (merger 30 min ago) so that tonight's pointings are after it. */
-function noticeXml(): string {
-	const merger = new Date(Date.now() - 30 * 60_000).toISOString();
-	return readFileSync('tests/fixtures/notices/bns-initial.xml', 'utf8')
-		.replaceAll('SX30041207', SOURCE_ID)
-		.replace('2030-04-12T07:30:41.250Z', merger)
-		.replace('2030-04-12T08:02:00Z', new Date().toISOString().slice(0, 19) + 'Z');
-}
 
 async function observer(browser: Browser, email: string): Promise<Page> {
 	const person = DEMO_PEOPLE.find((p) => p.email === email)!;
@@ -45,12 +23,7 @@ test('two teams contend for one galaxy: the second sees it taken live and is ref
 	// A coordinator publishes the notice with its sky map; the event is then ranked.
 	const coordinator = await (await browser.newContext()).newPage();
 	await signInAs(coordinator, 'coordinator');
-	await coordinator.goto('/events/upload');
-	await coordinator.getByLabel('Notice XML').fill(noticeXml());
-	await coordinator.getByLabel('Sky map (optional)').setInputFiles(skymapFile());
-	await coordinator.getByRole('button', { name: 'Submit the notice' }).click();
-	await expect(coordinator.getByTestId('event-page')).toBeVisible({ timeout: 30_000 });
-	const eventId = new URL(coordinator.url()).pathname.split('/')[2];
+	const eventId = await publishNightEvent(coordinator, SOURCE_ID);
 	await coordinator.context().close();
 
 	const a = await observer(browser, 'observer@strainline.demo');
@@ -118,9 +91,40 @@ test('two teams contend for one galaxy: the second sees it taken live and is ref
 	await expect(rowA.getByTestId('claim-state')).toHaveText('observing');
 	await expect(rowB.getByTestId('claim-state')).toHaveText('observing', { timeout: 2000 });
 
-	// A reports the pointing at the galaxy: a bad value first is refused with the other values kept.
 	const raDeg = (await rowA.locator('td').nth(2).innerText()).replace('°', '');
 	const decDeg = (await rowA.locator('td').nth(3).innerText()).replace('°', '');
+
+	// B moves to the event page: nothing covered yet; the sky view shows the targets by claim state.
+	await b.goto(`/events/${eventId}`);
+	await expect(b.locator('[data-hydrated="yes"]')).toBeVisible();
+	await expect(b.getByTestId('coverage-none')).toBeVisible();
+	await expect(b.getByTestId('sky-map')).toHaveAttribute('data-ready', 'true');
+	await expect(b.locator('path.sky-galaxy.state-observing')).toHaveCount(1);
+	await expect(b.locator('path.sky-galaxy.state-open').first()).toBeVisible();
+	await expect(b.locator('path.sky-footprint')).toHaveCount(0);
+	// B claims another galaxy from the sky view itself: click it on the map, then Claim.
+	// A real click at a marker's place: the first open galaxy that nothing else covers there.
+	const open = b.locator('path.sky-galaxy.state-open');
+	let clicked = false;
+	for (let i = 0; i < Math.min(20, await open.count()) && !clicked; i++) {
+		clicked = await open
+			.nth(i)
+			.click({ timeout: 1000 })
+			.then(() => true)
+			.catch(() => false);
+	}
+	expect(clicked).toBe(true);
+	await expect(b.getByTestId('pick-state')).toHaveAttribute('data-state', 'open');
+	const pickedLabel = (await b.getByTestId('pick-label').innerText()).trim();
+	await b.getByTestId('pick-claim').getByRole('button', { name: /^Claim / }).click();
+	await expect(b.getByTestId('pick-message')).toHaveText(`Claimed ${pickedLabel}.`);
+	await expect(b.getByTestId('pick-state')).toHaveAttribute('data-state', 'mine');
+	await expect(b.locator('path.sky-galaxy.state-mine')).toHaveCount(1);
+	await b.screenshot({ path: `${SCREENS}/claims-3-sky-claim.png`, fullPage: true });
+	// Let the page settle in the event's room before A's report.
+	await b.waitForTimeout(500);
+
+	// A reports the pointing at the galaxy: a bad value first is refused with the other values kept.
 	await a.goto(`/events/${eventId}/report`);
 	await expect(a.locator('[data-hydrated="yes"]')).toBeVisible();
 	const observedAt = new Date(Date.now() - 60_000).toISOString().slice(0, 19) + 'Z';
@@ -141,10 +145,29 @@ test('two teams contend for one galaxy: the second sees it taken live and is ref
 	await reportForm.getByRole('button', { name: 'Report pointing' }).click();
 	await expect(a.getByTestId('report-ok')).toContainText('completed 1 claim');
 
-	// The report completed A's claim; B's page, untouched, shows it done.
-	await expect(rowB.getByTestId('claim-state')).toHaveText('done', { timeout: 2000 });
+	// B's event page, untouched, sees coverage rise and the footprint on the sky; the galaxy is observed.
+	await expect(b.getByTestId('coverage-union')).toBeVisible({ timeout: 3000 });
+	const coveredB = Number(await b.getByTestId('coverage-union').getAttribute('data-value'));
+	expect(coveredB).toBeGreaterThan(0);
+	await expect(b.getByTestId('coverage-team')).toHaveCount(1);
+	await expect(b.getByTestId('coverage-team')).toContainText('Altiplano Nightwatch');
+	await expect(b.getByTestId('coverage-galaxies')).not.toHaveText('0%');
+	await expect(b.locator('path.sky-footprint')).toHaveCount(1);
+	await expect(b.locator('path.sky-galaxy.state-done')).toHaveCount(1);
+	await expect(b.getByTestId('sky-summary')).toContainText('1 observed footprint,');
+	await expect(b.getByTestId('coverage-curve')).toHaveAttribute('data-ready', 'yes');
+	await b.getByTestId('coverage').scrollIntoViewIfNeeded();
+	await b.screenshot({ path: `${SCREENS}/claims-5-coverage-seen.png`, fullPage: true });
+	// A sees the same figures on the event page.
+	await a.goto(`/events/${eventId}`);
+	await expect(a.getByTestId('coverage-union')).toHaveAttribute('data-value', String(coveredB));
+	await expect(a.locator('path.sky-footprint')).toHaveCount(1);
+	await a.screenshot({ path: `${SCREENS}/claims-5b-coverage-a.png`, fullPage: true });
+	// The targets table shows A's claim done.
+	await b.goto(`/events/${eventId}/targets`);
+	await expect(rowB.getByTestId('claim-state')).toHaveText('done');
 	await expect(rowB.getByRole('button', { name: /^Claim / })).toHaveCount(0);
-	await b.screenshot({ path: `${SCREENS}/claims-5-done-seen.png`, fullPage: true });
+	await a.goto(`/events/${eventId}/report`);
 
 	// A CSV with a bad row stores nothing and names the line.
 	const csv = `${WORK}/pointings.csv`;

@@ -1,10 +1,26 @@
 import { describe, expect, it } from 'vitest';
 import { smallCircle } from '../../targeting/sky-geometry.ts';
-import { formatDec, formatRaHours, fromLatLng, linePaths, outlinePolygons, toLatLng } from './paths.ts';
+import { focusBounds, formatDec, formatRaHours, fromLatLng, linePaths, outlinePolygons, toLatLng } from './paths.ts';
 import { packRaster, rasterRgba, unpackRaster } from './raster-image.ts';
 import { PROBABILITY_RAMP, rampColour } from './palette.ts';
 
 describe('sky view projection', () => {
+	it('opens on the smallest RA arc holding the targets, padded, and on the whole RA range when that arc crosses RA 0', () => {
+		expect.hasAssertions();
+		expect(focusBounds([])).toBeNull();
+		// RA 100…110, Dec −5…5, margin 3: west edge at RA 113 (x = −113), east at RA 97.
+		expect(focusBounds([[100, -5], [110, 5], [105, 0]], 3, 12)).toEqual([[-8, -113], [8, -97]]);
+		// One galaxy: widened to 12° in RA and 6° in Dec about it.
+		expect(focusBounds([[200, 40]], 3, 12)).toEqual([[37, -206], [43, -194]]);
+		// Near the pole the Dec box is shifted, not cut.
+		expect(focusBounds([[10, 89]], 0, 12)).toEqual([[84, -16], [90, -4]]);
+		// 355 and 5 are 10° apart across RA 0: the map cannot show that in one piece.
+		expect(focusBounds([[355, 0], [5, 1]], 3, 12)).toEqual([[-3, -360], [4, 0]]);
+		// 10, 180, 350: the smallest arc holding them runs 180 → 350 → 10, across RA 0; but 10…200 does not cross it.
+		expect(focusBounds([[10, 0], [180, 0], [350, 0]], 0, 12)).toEqual([[-3, -360], [3, 0]]);
+		expect(focusBounds([[10, 0], [200, 0], [100, 0]], 0, 12)).toEqual([[-3, -200], [3, -10]]);
+	});
+
 	it('x = −RA: a larger RA lies further left; the inverse returns RA in 0…360', () => {
 		expect.hasAssertions();
 		expect(toLatLng(90, 10)[1]).toBeLessThan(toLatLng(30, 10)[1]);

@@ -171,3 +171,44 @@ export function gridStep(spanDeg: number, kind: 'ra' | 'dec'): number {
 	for (const s of steps) if (spanDeg / s >= 4) return s;
 	return steps[steps.length - 1];
 }
+
+/**
+ * The box to open the view on round some directions: RA is the smallest arc that holds them all
+ * (found as the complement of the widest empty gap), padded by `marginDeg` and widened to at
+ * least `minSpanDeg`. The map runs RA 360 → 0 in one piece, so an arc across RA 0 becomes the
+ * whole RA range. Returns Leaflet bounds [[south, west], [north, east]], or null with no points.
+ */
+export function focusBounds(points: [number, number][], marginDeg = 3, minSpanDeg = 12): [LatLng, LatLng] | null {
+	if (!points.length) return null;
+	const ras = points.map(([ra]) => ((ra % 360) + 360) % 360).sort((a, b) => a - b);
+	let gap = ras[0] + 360 - ras[ras.length - 1];
+	let gapAfter = ras.length - 1;
+	for (let i = 0; i + 1 < ras.length; i++) {
+		if (ras[i + 1] - ras[i] > gap) {
+			gap = ras[i + 1] - ras[i];
+			gapAfter = i;
+		}
+	}
+	let raMin = 0;
+	let raMax = 360;
+	// Widest gap across RA 0: the arc runs from the first RA to the last without crossing 0.
+	if (gapAfter === ras.length - 1) {
+		[raMin, raMax] = widen(ras[0] - marginDeg, ras[ras.length - 1] + marginDeg, minSpanDeg, 0, 360);
+	}
+	const decs = points.map(([, dec]) => dec);
+	const [decMin, decMax] = widen(Math.min(...decs) - marginDeg, Math.max(...decs) + marginDeg, minSpanDeg / 2, -90, 90);
+	// 0 − RA: the east edge at RA 0 is x = +0, not −0.
+	return [[decMin, 0 - raMax], [decMax, 0 - raMin]];
+}
+
+/** [lo, hi] widened about its middle to at least `span`, then shifted (not cut) inside [min, max]. */
+function widen(lo: number, hi: number, span: number, min: number, max: number): [number, number] {
+	if (hi - lo < span) {
+		const mid = (lo + hi) / 2;
+		lo = mid - span / 2;
+		hi = mid + span / 2;
+	}
+	if (lo < min) [lo, hi] = [min, Math.min(max, hi + (min - lo))];
+	if (hi > max) [lo, hi] = [Math.max(min, lo - (hi - max)), max];
+	return [lo, hi];
+}

@@ -11,6 +11,8 @@ export interface SkyTarget {
 	state: TargetState;
 	/** Fields: the footprint drawn; galaxies are dots. */
 	footprint?: FootprintShape;
+	/** Fields: the telescope whose tiling the field belongs to (the one that can claim it). */
+	telescopeId?: string;
 	label?: string;
 	/** Extra lines for the hover card (probability, distance, who claimed it…). */
 	details?: string[];

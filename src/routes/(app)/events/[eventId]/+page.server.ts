@@ -6,17 +6,44 @@ import { can } from '$lib/server/permissions';
 import { validateForm, failWith } from '$lib/server/forms';
 import { eventDetail } from '$lib/server/board';
 import * as duty from '$lib/server/duty';
-import { skymapDisplay } from '$lib/server/events';
-import { isStoredRaster, packRaster } from '$lib/components/sky/raster-image';
-import type { SkyBody, SkyContour, DisplayRaster } from '$lib/components/sky/types';
-import { moonPhase, moonPosition, sunPosition } from '$lib/targeting/night';
+import { eventCoverage } from '$lib/server/event-coverage';
+import { eventSky } from '$lib/server/event-sky';
+import { listTelescopes } from '$lib/server/telescopes';
+import { isWideField } from '$lib/server/targets';
 
 export const load: PageServerLoad = ({ params, locals, depends }) => {
 	requirePermission('events.view');
 	depends('app:event');
 	const event = eventDetail(params.eventId);
 	if (!event) error(404, 'No such event.');
-	return { event, canAcknowledge: can({ user: locals.user }, 'events.acknowledge'), sky: skyViewData(event) };
+	const usable = event.skymaps.filter((m) => !m.error);
+	const current = usable.findLast((m) => m.noticeId === event.skymap?.noticeId) ?? usable.at(-1);
+	const covered = eventCoverage(event.id);
+	const user = locals.user;
+	const coordinator = Boolean(user?.roles.includes('coordinator'));
+	// Telescopes the viewer may claim with: their teams' (coordinators: every one).
+	const telescopes = user && can({ user, telescopeId: null }, 'claims.create')
+		? listTelescopes()
+				.filter((t) => coordinator || user.teamIds.includes(t.teamId))
+				.map((t) => ({ id: t.id, name: t.name, teamName: t.teamName, wide: isWideField(t) }))
+		: [];
+	return {
+		event,
+		canAcknowledge: can({ user }, 'events.acknowledge'),
+		sky: eventSky(event.id, current?.id ?? null, user, covered),
+		coverage: covered && {
+			observations: covered.observations,
+			union: covered.union,
+			errorBound: covered.errorBound,
+			sumOfFootprints: covered.sumOfFootprints,
+			curve: covered.curve,
+			galaxyCurve: covered.galaxyCurve,
+			teams: covered.teams,
+			galaxies: covered.galaxies,
+			computeMs: covered.computeMs
+		},
+		claiming: { telescopes, canClaim: telescopes.length > 0 && event.state === 'active' }
+	};
 };
 
 const ackSchema = z.object({ confirm: z.literal('yes', { error: 'Confirm the acknowledgement.' }) });
@@ -35,34 +62,3 @@ export const actions: Actions = {
 		}
 	}
 };
-
-// ── Sky view ──
-/** Display avoidance radii: the telescope defaults (telescope.min_sun/moon_separation_deg). */
-const SUN_AVOID_DEG = 45;
-const MOON_AVOID_DEG = 20;
-
-/**
- * The current map's stored display raster, packed for the browser, its contours, and the Sun and
- * Moon now. Positions are topocentric for a reference point on the equator at longitude 0; the
- * Moon's parallax (≤ 1°) is below what the overview shows.
- */
-function skyViewData(event: NonNullable<ReturnType<typeof eventDetail>>): {
-	raster: DisplayRaster | null;
-	contours: SkyContour[];
-	sun: SkyBody;
-	moon: SkyBody;
-} {
-	const usable = event.skymaps.filter((m) => !m.error);
-	const current = usable.findLast((m) => m.noticeId === event.skymap?.noticeId) ?? usable.at(-1);
-	const display = current ? skymapDisplay(current.id) : null;
-	const now = new Date();
-	const site = { latitudeDeg: 0, longitudeDeg: 0, elevationM: 0 };
-	const sun = sunPosition(site, now);
-	const moon = moonPosition(site, now);
-	return {
-		raster: isStoredRaster(display) ? packRaster(display) : null,
-		contours: Array.isArray(display?.contours) ? (display.contours as SkyContour[]) : [],
-		sun: { raDeg: sun.raDeg, decDeg: sun.decDeg, avoidRadiusDeg: SUN_AVOID_DEG },
-		moon: { raDeg: moon.raDeg, decDeg: moon.decDeg, avoidRadiusDeg: MOON_AVOID_DEG, illumination: moonPhase(now).illumination }
-	};
-}

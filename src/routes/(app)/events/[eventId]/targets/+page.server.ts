@@ -2,81 +2,16 @@ import { error, fail } from '@sveltejs/kit';
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
 import { requirePermission, requireUser } from '$lib/server/guard';
-import { can } from '$lib/server/permissions';
 import * as claims from '$lib/server/claims';
-import { getEvent } from '$lib/server/events';
-import { listTelescopes } from '$lib/server/telescopes';
-import { eventFields, eventGalaxies, GALAXY_SORTS, targetsMeta, type GalaxySort } from '$lib/server/targets';
-import { telescopeViews, tonightFor, visibility } from '$lib/server/targets-view';
-
-const PAGE_SIZE = 25;
+import { failWith, validateForm } from '$lib/server/forms';
+import { parseTargetQuery, targetsPageData } from '$lib/server/target-filters';
 
 export const load: PageServerLoad = ({ params, url, depends, locals }) => {
 	requirePermission('events.view');
 	depends('app:targets');
-	const event = getEvent(params.eventId);
-	if (!event) error(404, 'No such event.');
-	const now = new Date();
-	const meta = targetsMeta(event.eventId);
-	const telescopes = listTelescopes();
-	const summary = event.skymap
-		? { distanceMean: event.skymap.distanceMean, distanceStd: event.skymap.distanceStd }
-		: null;
-	const views = telescopeViews(telescopes, summary, meta?.fieldCounts ?? {}, now);
-
-	const sortParam = url.searchParams.get('sort') ?? 'rank';
-	const sort: GalaxySort = (GALAXY_SORTS as readonly string[]).includes(sortParam) ? (sortParam as GalaxySort) : 'rank';
-	const dir = url.searchParams.get('dir') === 'desc' ? 'desc' : 'asc';
-	const page = Math.max(1, Math.floor(Number(url.searchParams.get('page')) || 1));
-	const { total, galaxies } = eventGalaxies(event.eventId, { sort, dir, offset: (page - 1) * PAGE_SIZE, limit: PAGE_SIZE });
-
-	// Visibility is for one telescope at a time (its site, limits and tonight).
-	const wanted = url.searchParams.get('telescope');
-	const chosen = telescopes.find((t) => t.id === wanted) ?? telescopes.find((t) => views.find((v) => v.id === t.id)?.kind === 'galaxies') ?? telescopes[0] ?? null;
-	const chosenView = chosen ? views.find((v) => v.id === chosen.id)! : null;
-	const night = chosen ? tonightFor(chosen, now) : null;
-	const see = (target: { ra: number; dec: number }) => (chosen && night ? visibility(chosen, night, { raDeg: target.ra, decDeg: target.dec }, now) : null);
-
-	const galaxyRows = galaxies.map((g) => ({ ...g, visibility: chosenView?.kind === 'galaxies' ? see(g) : null }));
-	const fields = chosen && chosenView?.kind === 'fields' ? eventFields(event.eventId, chosen.id).slice(0, 50).map((f) => ({ ...f, visibility: see(f) })) : [];
-	const dropped = [...galaxyRows.filter((g) => g.visibility?.sunDropped).map((g) => ({ id: g.name, reason: g.visibility!.sunDropped! })), ...fields.filter((f) => f.visibility?.sunDropped).map((f) => ({ id: f.fieldId, reason: f.visibility!.sunDropped! }))];
-
-	// Claim state per target: only the open or finished claims matter to someone choosing what to observe.
-	const claimRows = claims.listClaims(event.eventId).filter((c) => c.state !== 'released' && c.state !== 'lapsed');
-	const claimOf = (kind: 'galaxy' | 'field', id: string) => {
-		const c = claimRows.filter((r) => r.targetKind === kind && r.targetId === id).sort((a, b) => (a.state === 'done' ? 1 : 0) - (b.state === 'done' ? 1 : 0))[0];
-		return c ? { id: c.id, state: c.state, teamId: c.teamId, teamName: c.teamName, telescopeName: c.telescopeName, filter: c.filter, epoch: c.epoch } : null;
-	};
-	const user = locals.user;
-	const mayClaim = Boolean(user && can({ user, telescopeId: null }, 'claims.create'));
-	const coordinator = Boolean(user?.roles.includes('coordinator'));
-	const ownTelescopes = user ? telescopes.filter((t) => coordinator || user.teamIds.includes(t.teamId)).map((t) => ({ id: t.id, name: t.name, teamName: t.teamName })) : [];
-
-	return {
-		claiming: { allowed: mayClaim, coordinator, teamIds: user?.teamIds ?? [], telescopes: ownTelescopes, telescopeId: ownTelescopes.find((t) => t.id === chosen?.id)?.id ?? ownTelescopes[0]?.id ?? null },
-		event: { id: event.eventId, sourceEventId: event.sourceEventId, state: event.state, skymap: event.skymap },
-		meta: meta && {
-			skymapId: meta.skymapId,
-			catalog: meta.catalog,
-			mode: meta.mode,
-			level: meta.level,
-			regionAreaDeg2: meta.regionAreaDeg2,
-			candidates: meta.candidates,
-			galaxiesStored: meta.galaxiesStored,
-			withoutDistance: meta.withoutDistance,
-			completeness: meta.completeness,
-			computedAt: meta.computedAt.toISOString(),
-			computeMs: meta.computeMs
-		},
-		stale: Boolean(meta && event.skymap && meta.skymapId !== event.skymap.skymapId),
-		telescopes: views,
-		chosen: chosenView,
-		galaxies: galaxyRows.map((g) => ({ ...g, claim: claimOf('galaxy', String(g.galaxyId)) })),
-		fields: fields.map((f) => ({ ...f, claim: claimOf('field', f.fieldId) })),
-		dropped,
-		now: now.toISOString(),
-		paging: { page, pageSize: PAGE_SIZE, total, pages: Math.max(1, Math.ceil(total / PAGE_SIZE)), sort, dir }
-	};
+	const data = targetsPageData(params.eventId, parseTargetQuery(url.searchParams), locals.user ?? null);
+	if (!data) error(404, 'No such event.');
+	return data;
 };
 
 const claimForm = z.object({
@@ -85,6 +20,16 @@ const claimForm = z.object({
 	telescopeId: z.string().trim().min(1, 'Choose a telescope.')
 });
 const claimIdForm = z.object({ claimId: z.string().trim().min(1) });
+const reassignForm = z.object({ claimId: z.string().trim().min(1, 'Which claim?'), telescopeId: z.string().trim().min(1, 'Choose the telescope to hand the claim to.') });
+const LAPSE_RANGE = 'Enter whole minutes from 5 to 1440 (24 h).';
+const lapseForm = z.object({
+	lapseMinutes: z
+		.string({ error: LAPSE_RANGE })
+		.trim()
+		.regex(/^\d+$/, LAPSE_RANGE)
+		.transform(Number)
+		.pipe(z.number().int().min(5, LAPSE_RANGE).max(1440, LAPSE_RANGE))
+});
 
 /** Claim errors become form failures with the server's wording, which names the holder. */
 function failClaim(e: unknown, target?: string) {
@@ -119,5 +64,28 @@ export const actions: Actions = {
 	},
 	start: ({ request }) => transitionAction(request, (u, id) => claims.start(u, id)),
 	done: ({ request }) => transitionAction(request, (u, id) => claims.complete(u, id)),
-	release: ({ request }) => transitionAction(request, (u, id) => claims.release(u, id))
+	release: ({ request }) => transitionAction(request, (u, id) => claims.release(u, id)),
+	reassign: async ({ request }) => {
+		const user = requireUser('claims.manage');
+		const parsed = reassignForm.safeParse(Object.fromEntries(await request.formData()));
+		if (!parsed.success) return fail(400, { message: parsed.error.issues[0]?.message ?? 'Which claim, to which telescope?', target: null });
+		try {
+			claims.reassign(user, parsed.data.claimId, parsed.data.telescopeId);
+			return { ok: true, target: null };
+		} catch (e) {
+			return failClaim(e);
+		}
+	},
+	lapse: async ({ request, params }) => {
+		const user = requireUser('claims.manage');
+		const v = await validateForm(request, lapseForm);
+		if (v.failure) return v.failure;
+		try {
+			claims.setLapseMinutes(user, params.eventId, v.data.lapseMinutes);
+		} catch (e) {
+			if (e instanceof claims.ClaimError) return failWith(v.form, { lapseMinutes: e.message }, e.status);
+			throw e;
+		}
+		return { lapseSaved: v.data.lapseMinutes };
+	}
 };

@@ -1,0 +1,105 @@
+/**
+ * The live benchmark's world, written into a fresh temporary SQLite file before the app starts:
+ * the demo collaboration (people, teams, telescopes, the synthetic galaxy catalogue), one event
+ * made from a fixture notice with its sky map uploaded beside it (ingested, analysed and ranked
+ * by Strainline's own code, as the upload page would do), and API tokens: one per demo person for
+ * the socket.io clients, two people who may claim, and one token per telescope for observations.
+ */
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { asc, eq, inArray } from 'drizzle-orm';
+
+export interface BenchTelescope {
+	id: string;
+	name: string;
+	/** A telescope API token (no person behind it), as a robotic telescope would hold. */
+	token: string;
+}
+
+export interface BenchTarget {
+	galaxyId: number;
+	raDeg: number;
+	decDeg: number;
+}
+
+export interface AppWorld {
+	eventId: string;
+	/** One token per demo person, for the listening clients. */
+	listenerTokens: string[];
+	/** Tokens of people allowed to claim on both telescopes (an observer of both teams, a coordinator). */
+	claimerTokens: string[];
+	telescopes: BenchTelescope[];
+	/** Ranked galaxies of the event, best first. */
+	targets: BenchTarget[];
+}
+
+/** Observer of both teams whose telescopes the bench uses (seeds/scenario.ts). */
+const CLAIMERS = ['observer3@strainline.demo', 'coordinator@strainline.demo'];
+/** Two narrow-field demo telescopes (galaxy targeting) of two teams, both with an r filter. */
+const TELESCOPES = ['Saguaro 0.8 m', 'Tenaz 2.0 m'];
+const SOURCE_ID = 'SX30099060';
+
+export async function prepareAppWorld(root: string, dbFile: string, storageDir: string): Promise<AppWorld> {
+	const { connect, useDatabase } = await import('../../../src/lib/server/db/index.ts');
+	const { seedDemo } = await import('../../../seeds/demo.ts');
+	const { issueToken } = await import('../../../src/lib/server/tokens.ts');
+	const { saveUpload, useStorageRoot } = await import('../../../src/lib/server/storage.ts');
+	const { commitNotice, processInbox } = await import('../../../src/lib/server/alerts/ingest.ts');
+	const { installTargets, targetsIdle } = await import('../../../src/lib/server/targets.ts');
+	const table = await import('../../../src/lib/server/db/schema.ts');
+
+	// connect + useDatabase, not openDatabase: another bench module may have opened its own file already.
+	const database = connect(dbFile, join(root, 'drizzle'));
+	useDatabase(database);
+	useStorageRoot(storageDir);
+	const stopTargets = installTargets();
+	try {
+		await seedDemo(database);
+		// The event happened an hour ago, so that pointings reported "now" are plausible.
+		const eventTime = new Date(Date.now() - 3600_000).toISOString();
+		const xml = readFileSync(join(root, 'tests/fixtures/notices/bns-initial.xml'), 'utf8')
+			.replaceAll('SX30041207', SOURCE_ID)
+			.replace(/<ISOTime>\s*[^<]+\s*<\/ISOTime>/, `<ISOTime>${eventTime}</ISOTime>`);
+		const map = readFileSync(join(root, 'tests/fixtures/notices/skymap-demo.multiorder.fits.gz'));
+		const committed = commitNotice(xml, 'upload', { uploadedSkymapPath: saveUpload(new Uint8Array(map)).path });
+		const outcome = await processInbox(committed.inboxId);
+		await targetsIdle();
+		const eventId = outcome.eventId;
+		if (!eventId || outcome.error) throw new Error(`bench notice not ingested: ${outcome.outcome} ${outcome.error ?? ''}`);
+		const event = database.select().from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
+		if (event?.state !== 'active') throw new Error(`bench event is ${event?.state}, not active`);
+
+		const targets = database
+			.select({ galaxyId: table.galaxy.id, raDeg: table.galaxy.raDeg, decDeg: table.galaxy.decDeg })
+			.from(table.eventGalaxy)
+			.innerJoin(table.galaxy, eq(table.galaxy.id, table.eventGalaxy.galaxyId))
+			.where(eq(table.eventGalaxy.eventId, eventId))
+			.orderBy(asc(table.eventGalaxy.rank))
+			.all();
+		if (targets.length < 8) throw new Error(`only ${targets.length} ranked galaxies for the bench event`);
+
+		const people = database.select().from(table.user).all();
+		const actor = { userId: null, label: 'bench' };
+		const listenerTokens = people.map((p) => issueToken(actor, { name: 'live bench listener', userId: p.id }).secret);
+		const claimerTokens = CLAIMERS.map((email) => {
+			const p = people.find((x) => x.email === email);
+			if (!p) throw new Error(`demo person ${email} missing`);
+			return issueToken(actor, { name: 'live bench claimer', userId: p.id }).secret;
+		});
+		const scopes = database
+			.select()
+			.from(table.telescope)
+			.where(inArray(table.telescope.name, TELESCOPES))
+			.all();
+		const telescopes = TELESCOPES.map((name) => {
+			const t = scopes.find((s) => s.name === name);
+			if (!t || !t.filters.includes('r')) throw new Error(`demo telescope ${name} missing or without an r filter`);
+			return { id: t.id, name: t.name, token: issueToken(actor, { name: 'live bench telescope', telescopeId: t.id }).secret };
+		});
+		return { eventId, listenerTokens, claimerTokens, telescopes, targets };
+	} finally {
+		stopTargets();
+		useStorageRoot(null);
+		database.$client.close();
+	}
+}
