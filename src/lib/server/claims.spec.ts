@@ -11,6 +11,7 @@ import { onRecorded, SYSTEM, type LiveMessage } from './realtime';
 import { receivedMail, stopFakeSmtp } from './fake-smtp';
 import { cancelOpenClaims as ingestCancelOpenClaims } from './alerts/ingest';
 import * as claims from './claims';
+import { sunPosition, sunSeparationDeg } from '../targeting/night.ts';
 
 const MIN = 60_000;
 let n = 0;
@@ -80,17 +81,54 @@ function galaxyAt(raDeg: number, decDeg: number) {
 		.get().id;
 }
 
+function antiSunRaDeg(now = new Date()): number {
+	return (sunPosition({ latitudeDeg: 0, longitudeDeg: 0, elevationM: 0 }, now).raDeg + 180) % 360;
+}
+
 function setup() {
 	const north = team('North Ridge (test)');
 	const south = team('South Vale (test)');
 	const tn = telescope(north, 'Ridge 1m (test)');
 	const ts = telescope(south, 'Vale 0.6m (test)');
 	const eventId = event();
-	const galaxyId = String(galaxyAt(150, -20));
+	// Opposite the Sun now: claims inside a telescope's Sun limit are refused (tested below).
+	const galaxyId = String(galaxyAt(antiSunRaDeg(), -20));
 	return { north, south, tn, ts, eventId, galaxyId };
 }
 
 describe('claim', () => {
+	it('refuses a target inside the telescope’s own Sun-avoidance limit, naming the elongation, and reassigning into it too', () => {
+		const s = setup();
+		const now = new Date('2026-12-02T04:00:00Z');
+		const sun = sunPosition({ latitudeDeg: 0, longitudeDeg: 0, elevationM: 0 }, now);
+		// 30° east of the Sun along its declination circle (well inside 45°), and a strict telescope for the reassign case.
+		const near = String(galaxyAt((sun.raDeg + 30 / Math.cos((sun.decDeg * Math.PI) / 180)) % 360, sun.decDeg));
+		const elongation = sunSeparationDeg(db.select().from(table.galaxy).where(eq(table.galaxy.id, Number(near))).get()!, now);
+		expect(elongation).toBeGreaterThan(25);
+		expect(elongation).toBeLessThan(35);
+		const a = person('Ann', ['observer'], [s.north]);
+		let err: unknown;
+		try {
+			claims.claim(a, { eventId: s.eventId, targetKind: 'galaxy', targetId: near, telescopeId: s.tn }, now);
+		} catch (e) {
+			err = e;
+		}
+		expect(err).toBeInstanceOf(claims.ClaimError);
+		expect((err as claims.ClaimError).status).toBe(422);
+		expect((err as claims.ClaimError).code).toBe('sun_avoidance');
+		expect((err as Error).message).toContain(`is ${elongation.toFixed(1)}° from the Sun, inside Ridge 1m (test)'s 45° Sun-avoidance limit`);
+		expect(db.select().from(table.claim).all()).toHaveLength(0);
+		expect(heard.filter((m) => m.type === 'claim.claimed')).toHaveLength(0);
+		// A telescope whose own limit is 20° may claim it.
+		const lax = telescope(s.north, 'Ridge twilight (test)', { minSunSeparationDeg: 20 });
+		const ok = claims.claim(a, { eventId: s.eventId, targetKind: 'galaxy', targetId: near, telescopeId: lax }, now);
+		expect(ok.state).toBe('claimed');
+		// A coordinator cannot move it onto the 45° telescope.
+		const coordinator = person('Cora', ['coordinator']);
+		expect(() => claims.reassign(coordinator, ok.id, s.tn, now)).toThrow(/Sun-avoidance limit/);
+		expect(claims.getClaim(ok.id)!.telescopeId).toBe(lax);
+	});
+
 	it('gives a target to the first team and names the holder to the second', () => {
 		const s = setup();
 		const a = person('Ann Observer', ['observer'], [s.north]);

@@ -13,6 +13,7 @@ import * as table from './db/schema';
 import { randomId, type SessionUser } from './auth';
 import { actorOf, record, SYSTEM, type Actor } from './realtime';
 import { sendMail } from './mail';
+import { sunAvoidance } from '../targeting/night.ts';
 
 export const DEFAULT_LAPSE_MINUTES = 60;
 export const LAPSE_CHECK_MS = 30_000;
@@ -70,20 +71,39 @@ function telescopeOf(telescopeId: string): table.Telescope {
 	return t;
 }
 
-/** Galaxy targets must be catalogue rows; field targets must be among the event's ranked fields. */
-function checkTarget(eventId: string, kind: table.Claim['targetKind'], targetId: string): void {
+/**
+ * Galaxy targets must be catalogue rows; field targets must be among the event's ranked fields.
+ * Returns where the target is and what to call it.
+ */
+function checkTarget(eventId: string, kind: table.Claim['targetKind'], targetId: string): { raDeg: number; decDeg: number; name: string } {
 	if (kind === 'galaxy') {
 		const id = Number(targetId);
-		const found = Number.isSafeInteger(id) && db.select({ id: table.galaxy.id }).from(table.galaxy).where(eq(table.galaxy.id, id)).get();
+		const found = Number.isSafeInteger(id) && db.select({ raDeg: table.galaxy.raDeg, decDeg: table.galaxy.decDeg, name: table.galaxy.name }).from(table.galaxy).where(eq(table.galaxy.id, id)).get();
 		if (!found) throw new ClaimError(404, 'unknown_target', `No galaxy ${targetId} in the catalogues.`);
-		return;
+		return found;
 	}
 	const f = db
-		.select({ id: table.eventField.fieldId })
+		.select({ raDeg: table.eventField.raDeg, decDeg: table.eventField.decDeg, name: table.eventField.fieldId })
 		.from(table.eventField)
 		.where(and(eq(table.eventField.eventId, eventId), eq(table.eventField.fieldId, targetId)))
 		.get();
 	if (!f) throw new ClaimError(404, 'unknown_target', `Field ${targetId} is not among event ${eventId}'s ranked fields.`);
+	return f;
+}
+
+/**
+ * A telescope may not promise a target inside its own Sun-avoidance limit (the telescope's
+ * min_sun_separation_deg; solar elongation now, from night.ts). The observatory's own rules
+ * still decide at the telescope: this only stops the network from planning on such a target.
+ */
+function checkSun(target: { raDeg: number; decDeg: number; name: string }, scope: table.Telescope, now: Date): void {
+	const v = sunAvoidance(target, now, scope.minSunSeparationDeg);
+	if (!v.ok)
+		throw new ClaimError(
+			422,
+			'sun_avoidance',
+			`${target.name} is ${v.elongationDeg.toFixed(1)}° from the Sun, inside ${scope.name}'s ${scope.minSunSeparationDeg}° Sun-avoidance limit: it cannot be claimed with this telescope. Follow the observatory's own Sun rules.`
+		);
 }
 
 function holderOf(input: { eventId: string; targetKind: string; targetId: string; filter: string; epoch: number }) {
@@ -139,7 +159,7 @@ export function claim(user: SessionUser, input: ClaimInput, now = new Date()): t
 	try {
 		row = db.transaction((tx) => {
 			openEvent(input.eventId);
-			checkTarget(input.eventId, input.targetKind, input.targetId);
+			checkSun(checkTarget(input.eventId, input.targetKind, input.targetId), scope, now);
 			return tx
 				.insert(table.claim)
 				.values({ id: randomId(), ...key, telescopeId: scope.id, teamId: scope.teamId, userId: user.id, state: 'claimed', claimedAt: now, note: input.note ?? '' })
@@ -208,11 +228,12 @@ export function release(user: SessionUser, claimId: string, reason = '', now = n
  * Coordinators hand an open claim to another telescope (and its team). The claim keeps its
  * target and state; the unique index is unaffected since the target does not change.
  */
-export function reassign(user: SessionUser, claimId: string, telescopeId: string): table.Claim {
+export function reassign(user: SessionUser, claimId: string, telescopeId: string, now = new Date()): table.Claim {
 	if (!isCoordinator(user)) throw new ClaimError(403, 'forbidden', 'Only a coordinator may reassign a claim.');
 	const c = loadFor(user, claimId);
 	if (!(table.OPEN_CLAIM_STATES as readonly string[]).includes(c.state)) throw new ClaimError(409, 'bad_state', `The claim is ${c.state}; only open claims can be reassigned.`);
 	const t = telescopeOf(telescopeId);
+	checkSun(checkTarget(c.eventId, c.targetKind, c.targetId), t, now);
 	const updated = db
 		.update(table.claim)
 		.set({ telescopeId: t.id, teamId: t.teamId })

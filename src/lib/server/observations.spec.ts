@@ -59,8 +59,8 @@ function world() {
 }
 
 function claimBoth(w: ReturnType<typeof world>, observer: SessionUser) {
-	const a = claims.claim(observer, { eventId: w.eventId, targetKind: 'galaxy', targetId: w.inside, telescopeId: w.telescopeId });
-	const b = claims.claim(observer, { eventId: w.eventId, targetKind: 'galaxy', targetId: w.outside, telescopeId: w.telescopeId });
+	const a = claims.claim(observer, { eventId: w.eventId, targetKind: 'galaxy', targetId: w.inside, telescopeId: w.telescopeId }, NOW);
+	const b = claims.claim(observer, { eventId: w.eventId, targetKind: 'galaxy', targetId: w.outside, telescopeId: w.telescopeId }, NOW);
 	return { a, b };
 }
 
@@ -97,12 +97,12 @@ describe('report', () => {
 
 	it('leaves a claim for another filter, and other telescopes’ claims, alone', () => {
 		const w = world();
-		const inG = claims.claim(w.observer, { eventId: w.eventId, targetKind: 'galaxy', targetId: w.inside, telescopeId: w.telescopeId, filter: 'g' });
+		const inG = claims.claim(w.observer, { eventId: w.eventId, targetKind: 'galaxy', targetId: w.inside, telescopeId: w.telescopeId, filter: 'g' }, NOW);
 		const coord = loadSessionUser(
 			db.insert(table.user).values({ id: `c-${++n}`, email: `c${n}@obs.test`, name: 'Cora', passwordHash: 'x' }).returning().get().id
 		)!;
 		db.insert(table.userRole).values({ userId: coord.id, role: 'coordinator' }).run();
-		const other = claims.claim(loadSessionUser(coord.id)!, { eventId: w.eventId, targetKind: 'galaxy', targetId: w.inside, telescopeId: w.otherTel, filter: 'r' });
+		const other = claims.claim(loadSessionUser(coord.id)!, { eventId: w.eventId, targetKind: 'galaxy', targetId: w.inside, telescopeId: w.otherTel, filter: 'r' }, NOW);
 		const out = report({ user: w.observer }, { ...pointing(w), telescopeId: w.telescopeId }, 'form', NOW);
 		expect(out.completedClaimIds).toEqual([]);
 		expect(claims.getClaim(inG.id)?.state).toBe('claimed');

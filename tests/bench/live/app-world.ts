@@ -1,7 +1,7 @@
 /**
  * The live benchmark's world, written into a fresh temporary SQLite file before the app starts:
  * the demo collaboration (people, teams, telescopes, the synthetic galaxy catalogue), one event
- * made from a fixture notice with its sky map uploaded beside it (ingested, analysed and ranked
+ * made from a fixture notice with a generated sky map (opposite the Sun) uploaded beside it (ingested, analysed and ranked
  * by Strainline's own code, as the upload page would do), and API tokens: one per demo person for
  * the socket.io clients, two people who may claim, and one token per telescope for observations.
  */
@@ -60,7 +60,15 @@ export async function prepareAppWorld(root: string, dbFile: string, storageDir: 
 		const xml = readFileSync(join(root, 'tests/fixtures/notices/bns-initial.xml'), 'utf8')
 			.replaceAll('SX30041207', SOURCE_ID)
 			.replace(/<ISOTime>\s*[^<]+\s*<\/ISOTime>/, `<ISOTime>${eventTime}</ISOTime>`);
-		const map = readFileSync(join(root, 'tests/fixtures/notices/skymap-demo.multiorder.fits.gz'));
+		// A compact map of our own opposite the Sun today: claims inside a telescope's Sun limit are
+		// refused, and a fixed sky position drifts into the Sun's zone as the year turns.
+		const { generateSkymap, skymapToFits } = await import('../../../fake-alert-broker/skymap.ts');
+		const { sunPosition } = await import('../../../src/lib/targeting/night.ts');
+		const antiSunRaDeg = (sunPosition({ latitudeDeg: 0, longitudeDeg: 0, elevationM: 0 }, new Date()).raDeg + 180) % 360;
+		const map = skymapToFits(generateSkymap({ components: [{ raDeg: antiSunRaDeg, decDeg: -20, widthDeg: 2 }], distance: { meanMpc: 118, stdMpc: 24 } }), {
+			object: SOURCE_ID,
+			dateObs: eventTime.slice(0, 23)
+		});
 		const committed = commitNotice(xml, 'upload', { uploadedSkymapPath: saveUpload(new Uint8Array(map)).path });
 		const outcome = await processInbox(committed.inboxId);
 		await targetsIdle();

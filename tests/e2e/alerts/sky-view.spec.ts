@@ -31,6 +31,8 @@ test('the event page shows the sky view: map, 50%/90% contours, grid in hours, l
 	await expect(sky.locator('.sky-moon')).not.toHaveCount(0);
 	// The view opens on the region (the outer contour fills the map); "Whole sky" shows it all, smaller.
 	const outer = sky.locator('path.sky-contour-90').first();
+	// The first view is set without animation; let leaflet finish laying out before measuring.
+	await page.waitForTimeout(300);
 	const opened = (await outer.boundingBox())!;
 	await sky.getByRole('button', { name: 'Whole sky' }).click();
 	await expect(async () => expect((await outer.boundingBox())!.width).toBeLessThan(opened.width / 2)).toPass({ timeout: 3000 });

@@ -4,6 +4,7 @@ import { readFileSync } from 'node:fs';
 import Database from 'better-sqlite3';
 import { io, type Socket } from 'socket.io-client';
 import { BASE_URL } from '../../../playwright.config';
+import { sunSeparationDeg } from '../../../src/lib/targeting/night';
 
 /**
  * The app's database file (WAL mode): the test creates people and tokens in it directly, as an
@@ -64,13 +65,15 @@ test('100 simultaneous claims: one 201, 99 × 409, one row, one live message; a 
 			filters: string;
 		}[];
 		expect(scopes).toHaveLength(2);
-		const ranked = await request.get(`/api/v1/events/${eventId}/galaxies?limit=1`, { headers: { authorization: `Bearer ${adminToken}` } });
+		const ranked = await request.get(`/api/v1/events/${eventId}/galaxies?limit=50`, { headers: { authorization: `Bearer ${adminToken}` } });
 		const listed = ranked.ok() ? ((await ranked.json()) as { galaxies: { galaxyId: number }[] }).galaxies : [];
-		const galaxy = (
-			listed.length
-				? sqlite.prepare('SELECT id, ra_deg AS raDeg, dec_deg AS decDeg FROM galaxy WHERE id = ?').get(listed[0].galaxyId)
-				: sqlite.prepare('SELECT id, ra_deg AS raDeg, dec_deg AS decDeg FROM galaxy ORDER BY id LIMIT 1').get()
-		) as { id: number; raDeg: number; decDeg: number };
+		// Ranked galaxies first (when the event has a map), then any catalogue galaxy.
+		const pool = [
+			...listed.map((g) => sqlite.prepare('SELECT id, ra_deg AS raDeg, dec_deg AS decDeg FROM galaxy WHERE id = ?').get(g.galaxyId)),
+			...sqlite.prepare('SELECT id, ra_deg AS raDeg, dec_deg AS decDeg FROM galaxy ORDER BY id LIMIT 500').all()
+		] as { id: number; raDeg: number; decDeg: number }[];
+		// Far from the Sun today: claims inside a telescope's Sun limit are refused (and are not what this test is about).
+		const galaxy = pool.find((g) => sunSeparationDeg(g, new Date()) >= 60)!;
 		expect(galaxy).toBeTruthy();
 
 		const claimers = Array.from({ length: 100 }, (_, i) => {
