@@ -11,6 +11,7 @@ const PHRASES: Record<string, string> = {
 	'claim.reassigned': 'Claim reassigned',
 	'claim.settings': 'Claim lapse time changed',
 	'observation.reported': 'Observation reported',
+	'candidate.reported': 'Transient candidate reported',
 	'person.invited': 'Invitation sent',
 	'person.invitation-withdrawn': 'Invitation withdrawn',
 	'person.joined': 'A new member joined',

@@ -7,10 +7,11 @@ import type { SessionUser } from './auth';
 import { skymapDisplay } from './events';
 import { eventFields, eventGalaxies } from './targets';
 import { listClaims } from './claims';
+import { listCandidates } from './candidates';
 import { listTelescopes } from './telescopes';
 import type { EventCoverage } from './event-coverage';
 import { isStoredRaster, packRaster } from '../components/sky/raster-image.ts';
-import type { DisplayRaster, SkyBody, SkyContour, SkyFootprint, SkyTarget, TargetState } from '../components/sky/types.ts';
+import type { DisplayRaster, SkyBody, SkyCandidate, SkyContour, SkyFootprint, SkyTarget, TargetState } from '../components/sky/types.ts';
 import { moonPhase, moonPosition, sunPosition } from '../targeting/night.ts';
 
 /** Display avoidance radii: the telescope defaults (telescope.min_sun/moon_separation_deg). */
@@ -28,6 +29,7 @@ export interface SkyViewData {
 	moon: SkyBody;
 	targets: SkyTarget[];
 	footprints: SkyFootprint[];
+	candidates: SkyCandidate[];
 }
 
 const pct = (p: number) => (p >= 0.001 ? `${(100 * p).toFixed(p >= 0.1 ? 1 : 2)}%` : p > 0 ? '<0.1%' : '0%');
@@ -109,7 +111,21 @@ export function eventSky(
 		label: `Observed: ${pct(f.probability)} of the map inside`
 	}));
 
+	const candidates: SkyCandidate[] = listCandidates(eventId).map((c) => ({
+		id: c.id,
+		raDeg: c.raDeg,
+		decDeg: c.decDeg,
+		label: `Candidate ${c.name}`,
+		details: [
+			`${c.magnitude.toFixed(2)}${c.magnitudeErr != null ? ` ± ${c.magnitudeErr.toFixed(2)}` : ''} mag in ${c.filter}, found ${c.discoveredAt.slice(11, 16)} UTC`,
+			`${c.teamName}${c.telescopeName ? ` · ${c.telescopeName}` : ''}`,
+			...(c.classification ? [`classified: ${c.classification}`] : []),
+			...(c.near.length ? [`within ${c.near[0].separationArcsec.toFixed(1)}″ of ${c.near[0].name}`] : [])
+		]
+	}));
+
 	return {
+		candidates,
 		raster: isStoredRaster(display) ? packRaster(display) : null,
 		contours: Array.isArray(display?.contours) ? (display.contours as SkyContour[]) : [],
 		sun: { raDeg: sun.raDeg, decDeg: sun.decDeg, avoidRadiusDeg: SUN_AVOID_DEG },

@@ -67,3 +67,25 @@ export async function validateForm<S extends z.ZodType>(
 export function failWith(form: FormData, errors: FieldErrors, status = 400, message?: string) {
 	return fail(status, { values: echoValues(form), errors, message } satisfies FormFailure);
 }
+
+/** An empty input is absent; a number stays a string when it does not parse, so the schema names the field. */
+export function formNumber(v: FormDataEntryValue | null): number | string | undefined {
+	const s = typeof v === 'string' ? v.trim() : '';
+	if (s === '') return undefined;
+	const n = Number(s);
+	return Number.isFinite(n) ? n : s;
+}
+
+/** Trimmed text, absent when empty. */
+export function formText(v: FormDataEntryValue | null): string | undefined {
+	const s = typeof v === 'string' ? v.trim() : '';
+	return s === '' ? undefined : s;
+}
+
+/** Times are UTC: a time typed without an offset gets 'Z' rather than the server's zone. */
+export function formUtc(v: string | undefined): string | undefined {
+	if (!v) return v;
+	const t = v.replace(' ', 'T');
+	const withSeconds = /T\d\d:\d\d$/.test(t) ? `${t}:00` : t;
+	return /(Z|[+-]\d\d:?\d\d)$/i.test(withSeconds) ? withSeconds : `${withSeconds}Z`;
+}

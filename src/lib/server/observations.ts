@@ -12,20 +12,12 @@ import { randomId, type SessionUser } from './auth';
 import { actorOf, record, type Actor } from './realtime';
 import { footprintContains, footprintGeometry, type FootprintShape } from '../targeting/sky-geometry.ts';
 import { splitCsvLine } from '../csv';
+import { DomainError } from './errors';
 
 const MIN = 60_000;
 const DAY = 24 * 60 * MIN;
 
-export class ObservationError extends Error {
-	constructor(
-		readonly status: number,
-		readonly code: string,
-		message: string,
-		readonly fields: Record<string, string> = {}
-	) {
-		super(message);
-	}
-}
+export class ObservationError extends DomainError {}
 
 /** One pointing as reported; either (raDeg, decDeg) or fieldId must be given. */
 const pointingShape = z.object({

@@ -32,7 +32,8 @@ describe('permissions table', () => {
 			'catalogs.manage': ['admin', 'coordinator'],
 			'claims.create': ['observer', 'coordinator'],
 			'claims.manage': ['coordinator'],
-			'observations.report': ['observer', 'coordinator']
+			'observations.report': ['observer', 'coordinator'],
+			'candidates.report': ['observer', 'coordinator']
 		};
 		expect(Object.keys(PERMISSIONS).sort()).toEqual(Object.keys(expected).sort());
 		for (const [perm, roles] of Object.entries(expected) as [Permission, Role[]][]) {
@@ -49,5 +50,7 @@ describe('permissions table', () => {
 		expect(can({ user: null, telescopeId: 't1' }, 'people.invite')).toBe(false);
 		expect(can({ user: null, telescopeId: 't1' }, 'claims.create')).toBe(false);
 		expect(can({ user: null, telescopeId: 't1' }, 'observations.report')).toBe(true);
+		expect(can({ user: null, telescopeId: 't1' }, 'candidates.report')).toBe(true);
+		expect(can({ user: null, telescopeId: null }, 'candidates.report')).toBe(false);
 	});
 });

@@ -18,7 +18,8 @@ import {
 	type Site
 } from '../targeting/night.ts';
 import { depthCheck, type DepthCheck } from '../targeting/depth.ts';
-import { planNetwork, type NetworkPlan, type PlanTarget } from '../targeting/plan.ts';
+import { planNetwork, type NetworkPlan, type PlanClaim, type PlanTarget } from '../targeting/plan.ts';
+import { listClaims } from './claims';
 import { coverage, type ObservedFootprint } from '../targeting/coverage.ts';
 import { readSkyMap } from '../sky/index.ts';
 import { readStoredFile } from './storage';
@@ -170,8 +171,9 @@ export const PLAN_GALAXIES = 300;
 
 /**
  * The network plan for the next `horizonH` hours from `now`: the stored galaxies (narrow fields)
- * and each wide-field telescope's own fields (`lib/targeting/plan.ts`). No claims exist yet, so
- * every target is open.
+ * and each wide-field telescope's own fields (`lib/targeting/plan.ts`). Open claims bind their
+ * target to the claiming telescope (others leave it, reason "claimed"); targets already observed
+ * under a completed claim are left out.
  */
 export function networkPlan(eventId: string, now: Date, horizonH = 24): { plan: NetworkPlan; telescopes: TelescopeRow[]; labels: Map<string, string> } {
 	const telescopes = listTelescopes();
@@ -182,7 +184,17 @@ export function networkPlan(eventId: string, now: Date, horizonH = 24): { plan: 
 	for (const f of eventFields(eventId)) {
 		targets.push({ id: `${f.telescopeId}:${f.fieldId}`, kind: 'field', name: f.fieldId, raDeg: f.ra, decDeg: f.dec, probability: f.probability, fieldFor: f.telescopeId });
 	}
-	const plan = planNetwork({ targets, telescopes, claims: [], start: now, horizonH });
+	// Claims name galaxies by row id and fields by field id; the plan's ids carry a prefix.
+	const planId = (kind: string, targetId: string) => (kind === 'galaxy' ? `G${targetId}` : targets.find((t) => t.kind === 'field' && t.name === targetId)?.id);
+	const live = listClaims(eventId).filter((c) => c.state === 'claimed' || c.state === 'observing' || c.state === 'done');
+	const done = new Set(live.filter((c) => c.state === 'done').map((c) => planId(c.targetKind, c.targetId)));
+	const claims: PlanClaim[] = live
+		.filter((c) => c.state !== 'done')
+		.flatMap((c) => {
+			const id = planId(c.targetKind, c.targetId);
+			return id ? [{ targetId: id, filter: c.filter || null, epoch: c.epoch, telescopeId: c.telescopeId }] : [];
+		});
+	const plan = planNetwork({ targets: targets.filter((t) => !done.has(t.id)), telescopes, claims, start: now, horizonH });
 	const scopeName = new Map(telescopes.map((t) => [t.id, t.name]));
 	const labels = new Map(targets.map((t) => [t.id, t.kind === 'field' ? `${t.name} (${scopeName.get(String(t.fieldFor)) ?? 'field'})` : (t.name ?? t.id)]));
 	return { plan, telescopes, labels };

@@ -40,7 +40,8 @@ const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean }[] = [
 	{ path: '/events/{eventId}/targets?/reassign', allowed: ['coordinator'] },
 	{ path: '/events/{eventId}/targets?/lapse', allowed: ['coordinator'] },
 	{ path: '/events/{eventId}/report?/report', allowed: ['observer', 'coordinator'] },
-	{ path: '/events/{eventId}/report?/upload', allowed: ['observer', 'coordinator'] }
+	{ path: '/events/{eventId}/report?/upload', allowed: ['observer', 'coordinator'] },
+	{ path: '/events/{eventId}/candidates?/report', allowed: ['observer', 'coordinator'] }
 ];
 
 async function client(role: RoleName | null): Promise<APIRequestContext> {

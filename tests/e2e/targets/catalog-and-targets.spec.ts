@@ -186,4 +186,17 @@ test('a coordinator imports a catalogue through the mapping step, then an event 
 	expect(listed).toBeGreaterThan(0);
 	const csvRows = csv.trim().split('\r\n').length - 1;
 	expect(csvRows).toBeGreaterThanOrEqual(listed);
+
+	// Claiming from the plan: the first planned target of that telescope; the plan is redone with the claim held.
+	const planned = withRows.getByTestId('plan-row').first();
+	const target = (await planned.locator('td').nth(2).innerText()).replace('last chance', '').trim();
+	await planned.getByRole('button', { name: /^Claim / }).click();
+	await expect(withRows.getByRole('status')).toHaveText('Claimed.');
+	const row = withRows.getByTestId('plan-row').filter({ hasText: target });
+	await expect(row.getByTestId('plan-claim')).toContainText('claimed by');
+	// After a reload too: the claim is stored and the plan keeps the target for this telescope.
+	await page.reload();
+	await expect(row.getByTestId('plan-claim')).toContainText('claimed by');
+	await expect(row.getByRole('button', { name: /^Claim / })).toHaveCount(0);
+	await page.screenshot({ path: `${SCREENS}/targets-5-plan-claimed.png`, fullPage: true });
 });

@@ -606,3 +606,46 @@ export type Claim = typeof claim.$inferSelect;
 export type ClaimState = (typeof CLAIM_STATES)[number];
 export type Observation = typeof observation.$inferSelect;
 export type ClaimSetting = typeof claimSetting.$inferSelect;
+
+// ───────────────────────────── Transient candidates ─────────────────────────────
+
+/** A transient a team found in its images during an event (classification comes later, from spectra). */
+export const candidate = sqliteTable(
+	'candidate',
+	{
+		id: text('id').primaryKey(),
+		eventId: text('event_id')
+			.notNull()
+			.references(() => gwEvent.id, { onDelete: 'cascade' }),
+		/** The team's designation, unique per event regardless of case ('AT-1' and 'at-1' are one name). */
+		name: text('name').notNull(),
+		raDeg: real('ra_deg').notNull(),
+		decDeg: real('dec_deg').notNull(),
+		discoveredAt: integer('discovered_at', { mode: 'timestamp_ms' }).notNull(),
+		/** AB magnitude at discovery. */
+		magnitude: real('magnitude').notNull(),
+		magnitudeErr: real('magnitude_err'),
+		filter: text('filter').notNull(),
+		telescopeId: text('telescope_id').references(() => telescope.id, { onDelete: 'set null' }),
+		teamId: text('team_id')
+			.notNull()
+			.references(() => team.id, { onDelete: 'cascade' }),
+		reportedByUserId: text('reported_by_user_id').references(() => user.id, { onDelete: 'set null' }),
+		reportedByTokenId: text('reported_by_token_id').references(() => apiToken.id, { onDelete: 'set null' }),
+		notes: text('notes').notNull().default(''),
+		/** Set by spectroscopic classification (not yet built); null until then. */
+		classification: text('classification'),
+		createdAt: createdAt()
+	},
+	(t) => [
+		uniqueIndex('candidate_event_name_uq').on(t.eventId, sql`lower(${t.name})`),
+		index('candidate_event_idx').on(t.eventId, t.createdAt),
+		index('candidate_created_idx').on(t.createdAt),
+		check('candidate_ra', sql`${t.raDeg} >= 0 AND ${t.raDeg} < 360`),
+		check('candidate_dec', sql`${t.decDeg} BETWEEN -90 AND 90`),
+		check('candidate_mag', sql`${t.magnitude} BETWEEN 5 AND 30`),
+		check('candidate_mag_err', sql`${t.magnitudeErr} IS NULL OR ${t.magnitudeErr} >= 0`)
+	]
+);
+
+export type Candidate = typeof candidate.$inferSelect;

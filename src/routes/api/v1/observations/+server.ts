@@ -1,11 +1,7 @@
 import { json } from '@sveltejs/kit';
-import { and, eq, isNull } from 'drizzle-orm';
-import { apiError, apiRoute, readJson } from '$lib/server/api';
+import { apiError, apiRoute, readJson, reporterOf } from '$lib/server/api';
 import { requirePermission } from '$lib/server/guard';
-import { db } from '$lib/server/db';
-import * as table from '$lib/server/db/schema';
-import { hashToken } from '$lib/server/auth';
-import { observationInput, ObservationError, parseObservationCsv, report, reportMany, type Reporter } from '$lib/server/observations';
+import { observationInput, ObservationError, parseObservationCsv, report, reportMany } from '$lib/server/observations';
 
 const MAX_CSV_BYTES = 1024 * 1024;
 
@@ -46,19 +42,3 @@ export const POST = apiRoute(async ({ request, url }) => {
 		throw e;
 	}
 });
-
-function reporterOf(principal: ReturnType<typeof requirePermission>, request: Request): Reporter {
-	let reporter: Reporter;
-	if (principal.user) reporter = { user: principal.user };
-	else {
-		// The hook resolved the telescope; the token row is looked up again only to name the reporter.
-		const secret = (request.headers.get('authorization') ?? '').slice(7).trim();
-		const token = db
-			.select({ id: table.apiToken.id })
-			.from(table.apiToken)
-			.where(and(eq(table.apiToken.tokenHash, hashToken(secret)), isNull(table.apiToken.revokedAt)))
-			.get();
-		reporter = { user: null, telescopeId: principal.telescopeId!, tokenId: token?.id ?? null };
-	}
-	return reporter;
-}

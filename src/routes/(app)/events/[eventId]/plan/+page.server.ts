@@ -1,13 +1,15 @@
 import { error } from '@sveltejs/kit';
 import type { PageServerLoad } from './$types';
 import { requirePermission } from '$lib/server/guard';
+import { can } from '$lib/server/permissions';
+import { listClaims } from '$lib/server/claims';
 import { getEvent } from '$lib/server/events';
 import { targetsMeta } from '$lib/server/targets';
 import { networkPlan, planCoverage, planStart } from '$lib/server/targets-view';
 
 const SHOWN = 60;
 
-export const load: PageServerLoad = ({ params, url, depends }) => {
+export const load: PageServerLoad = ({ params, url, depends, locals }) => {
 	requirePermission('events.view');
 	depends('app:plan');
 	const event = getEvent(params.eventId);
@@ -17,6 +19,15 @@ export const load: PageServerLoad = ({ params, url, depends }) => {
 	const { plan, labels, telescopes } = networkPlan(event.eventId, start);
 	const covered = planCoverage(event.eventId, plan, telescopes);
 	const computeMs = performance.now() - started;
+	// Claiming from the plan: with the viewer's own teams' telescopes (coordinators: any), targets no claim holds.
+	const user = locals.user;
+	const mayClaim = Boolean(user && event.state === 'active' && can({ user, telescopeId: null }, 'claims.create'));
+	const claimable = new Set(mayClaim ? telescopes.filter((t) => user!.roles.includes('coordinator') || user!.teamIds.includes(t.teamId)).map((t) => t.id) : []);
+	const held = new Map(
+		listClaims(event.eventId)
+			.filter((c) => c.state !== 'released' && c.state !== 'lapsed')
+			.map((c) => [`${c.targetKind}:${c.targetId}`, { state: c.state, teamName: c.teamName, telescopeName: c.telescopeName }])
+	);
 	const counts = new Map<string, number>();
 	for (const d of plan.dropped) counts.set(d.reason, (counts.get(d.reason) ?? 0) + 1);
 	return {
@@ -41,7 +52,12 @@ export const load: PageServerLoad = ({ params, url, depends }) => {
 			total: t.assignments.length,
 			skyCovered: covered?.skyByTelescope[t.telescopeId] ?? 0,
 			kind: t.assignments.some((a) => a.kind === 'field') ? 'fields' : 'galaxies',
-			assignments: t.assignments.slice(0, SHOWN)
+			mayClaim: claimable.has(t.telescopeId),
+			assignments: t.assignments.slice(0, SHOWN).map((a) => {
+				// The plan's ids carry a prefix (G<row> for galaxies, <telescope>:<field> for fields); claims use the bare id.
+				const claimTargetId = a.kind === 'galaxy' ? a.targetId.replace(/^G/, '') : a.targetId.slice(a.targetId.indexOf(':') + 1);
+				return { ...a, claimTargetId, claim: held.get(`${a.kind}:${claimTargetId}`) ?? null };
+			})
 		})),
 		dropped: {
 			total: plan.dropped.length,

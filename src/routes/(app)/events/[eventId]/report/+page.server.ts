@@ -2,7 +2,7 @@ import { error, fail } from '@sveltejs/kit';
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
 import { requirePermission, requireUser } from '$lib/server/guard';
-import { failWith } from '$lib/server/forms';
+import { failWith, formNumber, formText, formUtc } from '$lib/server/forms';
 import { getEvent } from '$lib/server/events';
 import { listTelescopes } from '$lib/server/telescopes';
 import { fieldErrors, ObservationError, parseObservationCsv, report, reportMany, type ObservationInput } from '$lib/server/observations';
@@ -25,41 +25,22 @@ export const load: PageServerLoad = ({ params, locals }) => {
 	return { event: { id: event.eventId, sourceEventId: event.sourceEventId, state: event.state }, telescopes: ownTelescopes(locals.user), now: new Date().toISOString().slice(0, 19) + 'Z' };
 };
 
-/** Empty inputs are absent; numbers stay strings when unparsable so the schema names the field. */
-function numberOrText(v: FormDataEntryValue | null): number | string | undefined {
-	const s = typeof v === 'string' ? v.trim() : '';
-	if (s === '') return undefined;
-	const n = Number(s);
-	return Number.isFinite(n) ? n : s;
-}
-function text(v: FormDataEntryValue | null): string | undefined {
-	const s = typeof v === 'string' ? v.trim() : '';
-	return s === '' ? undefined : s;
-}
-/** Times are UTC: a time typed without an offset gets 'Z' rather than the server's zone. */
-function utc(v: string | undefined): string | undefined {
-	if (!v) return v;
-	const t = v.replace(' ', 'T');
-	const withSeconds = /T\d\d:\d\d$/.test(t) ? `${t}:00` : t;
-	return /(Z|[+-]\d\d:?\d\d)$/i.test(withSeconds) ? withSeconds : `${withSeconds}Z`;
-}
-
 export const actions: Actions = {
 	report: async ({ request, params }) => {
 		const user = requireUser('observations.report');
 		const form = await request.formData();
 		const raw = {
 			eventId: params.eventId,
-			telescopeId: text(form.get('telescopeId')),
-			observedAt: utc(text(form.get('observedAt'))),
-			raDeg: numberOrText(form.get('raDeg')),
-			decDeg: numberOrText(form.get('decDeg')),
-			fieldId: text(form.get('fieldId')),
-			filter: text(form.get('filter')),
-			exposureS: numberOrText(form.get('exposureS')),
-			limitingMag: numberOrText(form.get('limitingMag')),
-			seeingArcsec: numberOrText(form.get('seeingArcsec')),
-			notes: text(form.get('notes'))
+			telescopeId: formText(form.get('telescopeId')),
+			observedAt: formUtc(formText(form.get('observedAt'))),
+			raDeg: formNumber(form.get('raDeg')),
+			decDeg: formNumber(form.get('decDeg')),
+			fieldId: formText(form.get('fieldId')),
+			filter: formText(form.get('filter')),
+			exposureS: formNumber(form.get('exposureS')),
+			limitingMag: formNumber(form.get('limitingMag')),
+			seeingArcsec: formNumber(form.get('seeingArcsec')),
+			notes: formText(form.get('notes'))
 		};
 		if (!raw.telescopeId) return failWith(form, { telescopeId: 'Choose a telescope.' });
 		try {
@@ -74,7 +55,7 @@ export const actions: Actions = {
 	upload: async ({ request, params }) => {
 		const user = requireUser('observations.report');
 		const form = await request.formData();
-		const telescopeId = text(form.get('telescopeId'));
+		const telescopeId = formText(form.get('telescopeId'));
 		const file = form.get('file');
 		if (!telescopeId) return failWith(form, { telescopeId: 'Choose a telescope.' });
 		if (!(file instanceof File) || file.size === 0) return failWith(form, { file: 'Choose a CSV file of pointings.' });

@@ -1,0 +1,67 @@
+import { error } from '@sveltejs/kit';
+import type { Actions, PageServerLoad } from './$types';
+import { requirePermission, requireUser } from '$lib/server/guard';
+import { can } from '$lib/server/permissions';
+import { failWith, formNumber, formText, formUtc } from '$lib/server/forms';
+import { getEvent } from '$lib/server/events';
+import { listTelescopes } from '$lib/server/telescopes';
+import { listTeams } from '$lib/server/teams';
+import { CandidateError, listCandidates, reportCandidate, type CandidateInput } from '$lib/server/candidates';
+import type { SessionUser } from '$lib/server/auth';
+
+/** The telescopes and teams a person may report for (coordinators: all). */
+function choices(user: SessionUser | null) {
+	if (!user) return { telescopes: [], teams: [] };
+	const coordinator = user.roles.includes('coordinator');
+	const telescopes = listTelescopes()
+		.filter((t) => coordinator || user.teamIds.includes(t.teamId))
+		.map((t) => ({ id: t.id, name: t.name, teamName: t.teamName, filters: t.filters }));
+	const teams = listTeams()
+		.filter((t) => coordinator || user.teamIds.includes(t.id))
+		.map((t) => ({ id: t.id, name: t.name }));
+	return { telescopes, teams };
+}
+
+export const load: PageServerLoad = ({ params, locals, depends }) => {
+	requirePermission('events.view');
+	depends('app:candidates');
+	const event = getEvent(params.eventId);
+	if (!event) error(404, 'No such event.');
+	const canReport = can({ user: locals.user, telescopeId: locals.telescopeId }, 'candidates.report');
+	return {
+		event: { id: event.eventId, sourceEventId: event.sourceEventId, state: event.state },
+		candidates: listCandidates(event.eventId),
+		canReport,
+		...(canReport ? choices(locals.user) : { telescopes: [], teams: [] }),
+		now: new Date().toISOString().slice(0, 19) + 'Z'
+	};
+};
+
+export const actions: Actions = {
+	report: async ({ request, params }) => {
+		const user = requireUser('candidates.report');
+		const form = await request.formData();
+		const raw = {
+			eventId: params.eventId,
+			name: formText(form.get('name')) ?? '',
+			raDeg: formNumber(form.get('raDeg')),
+			decDeg: formNumber(form.get('decDeg')),
+			discoveredAt: formUtc(formText(form.get('discoveredAt'))),
+			magnitude: formNumber(form.get('magnitude')),
+			magnitudeErr: formNumber(form.get('magnitudeErr')),
+			filter: formText(form.get('filter')),
+			telescopeId: formText(form.get('telescopeId')),
+			teamId: formText(form.get('teamId')),
+			notes: formText(form.get('notes'))
+		};
+		try {
+			const out = reportCandidate({ user }, raw as CandidateInput);
+			return { reported: { name: out.candidate.name, warning: out.warning } };
+		} catch (e) {
+			if (!(e instanceof CandidateError)) throw e;
+			// Field problems are the form's 400; refusals keep their status (403, 404, 409).
+			const status = e.status === 422 ? 400 : e.status;
+			return failWith(form, e.fields, status, Object.keys(e.fields).length && e.status === 422 ? undefined : e.message);
+		}
+	}
+};

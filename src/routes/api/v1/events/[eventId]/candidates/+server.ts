@@ -1,0 +1,34 @@
+import { json } from '@sveltejs/kit';
+import { z } from 'zod';
+import { apiError, apiRoute, readJson, reporterOf } from '$lib/server/api';
+import { eventExists } from '$lib/server/targets-view';
+import { requirePermission } from '$lib/server/guard';
+import { CandidateError, listCandidates, reportCandidate, type CandidateInput } from '$lib/server/candidates';
+
+/** GET the event's candidates, newest report first: `{ candidates: [...] }`. */
+export const GET = apiRoute(({ params }) => {
+	requirePermission('events.view');
+	const eventId = params.eventId ?? '';
+	if (!eventExists(eventId)) return apiError(404, 'not_found', `No event ${eventId}.`);
+	return json({ candidates: listCandidates(eventId) });
+});
+
+/**
+ * POST a candidate `{ name, raDeg, decDeg, discoveredAt, magnitude, magnitudeErr?, filter, telescopeId?, teamId?, notes? }`
+ * with a person's or a telescope's bearer token (or a session). 201 `{ candidate, warning }`, where
+ * `warning` names an earlier candidate within 2″ (stored all the same). Errors
+ * `{ error: { code, message, fields? } }`: 403, 404, 409 (name taken, naming the team; event retracted), 422.
+ */
+export const POST = apiRoute(async ({ params, request }) => {
+	const principal = requirePermission('candidates.report');
+	const body = await readJson(request, z.record(z.string(), z.unknown()));
+	if (body.response) return body.response;
+	try {
+		const out = reportCandidate(reporterOf(principal, request), { ...body.data, eventId: params.eventId ?? '' } as CandidateInput);
+		return json(out, { status: 201 });
+	} catch (e) {
+		if (e instanceof CandidateError)
+			return json({ error: { code: e.code, message: e.message, ...(Object.keys(e.fields).length ? { fields: e.fields } : {}) } }, { status: e.status });
+		throw e;
+	}
+});
