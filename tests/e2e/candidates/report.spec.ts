@@ -115,7 +115,7 @@ test('an observer reports a candidate (a bad magnitude first); another team sees
 		data: { name: 'AN-0002', raDeg: 400, decDeg: 0, discoveredAt, magnitude: 19, filter: 'r' }
 	});
 	expect(bad.status()).toBe(422);
-	expect(await bad.json()).toEqual({ error: { code: 'invalid', message: 'raDeg: RA must be in [0, 360)', fields: { raDeg: 'RA must be in [0, 360)' } } });
+	expect(await bad.json()).toEqual({ error: { code: 'invalid', message: 'raDeg: RA must be in [0, 360)', details: { raDeg: 'RA must be in [0, 360)' } } });
 
 	// Every event's candidates, newest first, each linking to its event's page.
 	await a.goto('/candidates');

@@ -17,7 +17,7 @@ export const GET = apiRoute(({ params }) => {
  * POST a candidate `{ name, raDeg, decDeg, discoveredAt, magnitude, magnitudeErr?, filter, telescopeId?, teamId?, notes? }`
  * with a person's or a telescope's bearer token (or a session). 201 `{ candidate, warning }`, where
  * `warning` names an earlier candidate within 2″ (stored all the same). Errors
- * `{ error: { code, message, fields? } }`: 403, 404, 409 (name taken, naming the team; event retracted), 422.
+ * `{ error: { code, message, details? } }` (details: the message per field, as for observations): 403, 404, 409 (name taken, naming the team; event retracted), 422.
  */
 export const POST = apiRoute(async ({ params, request }) => {
 	const principal = requirePermission('candidates.report');
@@ -28,7 +28,7 @@ export const POST = apiRoute(async ({ params, request }) => {
 		return json(out, { status: 201 });
 	} catch (e) {
 		if (e instanceof CandidateError)
-			return json({ error: { code: e.code, message: e.message, ...(Object.keys(e.fields).length ? { fields: e.fields } : {}) } }, { status: e.status });
+			return apiError(e.status, e.code, e.message, Object.keys(e.fields).length ? e.fields : undefined);
 		throw e;
 	}
 });
