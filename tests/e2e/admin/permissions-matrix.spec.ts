@@ -1,5 +1,6 @@
 import { test, expect, request as newRequest, type APIRequestContext } from '@playwright/test';
 import { readFileSync } from 'node:fs';
+import Database from 'better-sqlite3';
 import { DEMO_PEOPLE } from '../../../seeds/scenario';
 import { ROLES_LIST, type RoleName } from '../../../src/lib/roles';
 import { BASE_URL } from '../../../playwright.config';
@@ -68,6 +69,14 @@ test.beforeAll(async () => {
 	expect(res.status(), await res.text()).toBe(201);
 	eventId = (await res.json()).eventId;
 	await coordinator.dispose();
+});
+// Leave the board as the other tests expect it (they start from an empty board): remove the matrix's event.
+test.afterAll(() => {
+	const sqlite = new Database(process.env.DATABASE_URL ?? 'tests/e2e/.artifacts/e2e.sqlite');
+	sqlite.pragma('busy_timeout = 5000');
+	sqlite.pragma('foreign_keys = ON');
+	sqlite.prepare('DELETE FROM gw_event WHERE id = ?').run(eventId);
+	sqlite.close();
 });
 
 for (const role of [...ROLES_LIST, null] as const) {
