@@ -34,6 +34,8 @@ function noticeXml(sourceId: string): string {
 /** Publish the event through the upload page as the signed-in coordinator; returns its id. */
 export async function publishNightEvent(coordinator: Page, sourceId: string): Promise<string> {
 	await coordinator.goto('/events/upload');
+	// Typing before hydration can be lost when the page hydrates under load: wait for it.
+	await expect(coordinator.locator('[data-hydrated="yes"]')).toBeVisible();
 	await coordinator.getByLabel('Notice XML').fill(noticeXml(sourceId));
 	await coordinator.getByLabel('Sky map (optional)').setInputFiles(skymapFile(sourceId));
 	await coordinator.getByRole('button', { name: 'Submit the notice' }).click();

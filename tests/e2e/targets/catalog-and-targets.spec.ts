@@ -117,6 +117,8 @@ test('a coordinator imports a catalogue through the mapping step, then an event 
 
 	// An event with a sky map, uploaded by hand.
 	await page.goto('/events/upload');
+	// Typing before hydration can be lost when the page hydrates under load: wait for it.
+	await expect(page.locator('[data-hydrated="yes"]')).toBeVisible();
 	await page.getByLabel('Notice XML').fill(noticeXml());
 	await page.getByLabel('Sky map (optional)').setInputFiles(skymapFile());
 	await page.getByRole('button', { name: 'Submit the notice' }).click();
