@@ -244,8 +244,13 @@ function enqueue(job: () => void): void {
 }
 
 /** Resolves when every ranking asked for so far has finished (tests, shutdown). */
-export function targetsIdle(): Promise<void> {
-	return queue.then(() => undefined);
+export async function targetsIdle(): Promise<void> {
+	// Jobs may queue more jobs (a new catalogue queues one per event): wait until none were added.
+	let seen: Promise<unknown>;
+	do {
+		seen = queue;
+		await seen;
+	} while (seen !== queue);
 }
 
 function react(message: LiveMessage): void {
@@ -261,7 +266,8 @@ function react(message: LiveMessage): void {
 			rankEvent(eventId, { skymapId });
 		});
 	} else if (message.type === 'catalog.imported') {
-		// A new catalogue becomes the active one: rank the open events again with it.
+		// A new catalogue becomes the active one: rank the open events again with it, one job per
+		// event so that requests are served between them.
 		enqueue(() => {
 			const open = db
 				.select({ id: table.gwEvent.id })
@@ -269,11 +275,13 @@ function react(message: LiveMessage): void {
 				.where(and(eq(table.gwEvent.state, 'active'), sql`${table.gwEvent.latestSkymapId} IS NOT NULL`))
 				.all();
 			for (const e of open) {
-				try {
-					rankEvent(e.id);
-				} catch (err) {
-					console.error(`re-ranking ${e.id} failed`, err);
-				}
+				enqueue(() => {
+					try {
+						rankEvent(e.id);
+					} catch (err) {
+						console.error(`re-ranking ${e.id} failed`, err);
+					}
+				});
 			}
 		});
 	}
