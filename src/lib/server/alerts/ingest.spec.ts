@@ -11,7 +11,7 @@ import * as table from '../db/schema';
 import { onRecorded, type LiveMessage } from '../realtime';
 import { storedFileExists, useStorageRoot } from '../storage';
 import { updatePolicy, DEFAULT_TRIAGE_POLICY } from '../triage';
-import { commitNotice, eventIdFor, processInbox, retryPending } from './ingest';
+import { commitNotice, eventIdFor, processInbox, retryPending, retrySkymaps } from './ingest';
 import { submitNotice } from './service';
 import type { DB } from '../db';
 
@@ -299,6 +299,61 @@ describe('ingest: refusals', () => {
 		expect(a.ivorn).toMatch(/^invalid:sha256:[0-9a-f]{64}$/);
 		expect(commitNotice(xml, 'vtp')).toEqual({ ...a, duplicate: true });
 		expect((await processInbox(a.inboxId)).outcome).toBe('rejected');
+	});
+
+	it('a sky map the host does not have yet is tried again later (1, 2, 4 … min), then analysed and shown, and the board told', async () => {
+		expect.hasAssertions();
+		// The broker serves no file under this name yet: 404, an HTTP error that may pass.
+		const xml = notice('bns-initial.xml').replace('SX30041207-2.multiorder.fits.gz', 'SX30041207-late.multiorder.fits.gz');
+		expect(xml).toContain('SX30041207-late.multiorder.fits.gz');
+		const t0 = new Date();
+		const r = await ingest(xml);
+		expect(r.outcome).toBe('event-created');
+		expect(r.error).toMatch(/answered 404 \(will try again\)$/);
+		let row = database.select().from(table.skymap).get()!;
+		expect(row).toMatchObject({ fetchAttempts: 1, summary: null });
+		expect(row.retryAt!.getTime() - t0.getTime()).toBeGreaterThanOrEqual(59_000);
+		expect(database.select().from(table.gwEvent).get()!.latestSkymapId).toBeNull();
+		// Not due yet: nothing is tried.
+		expect(await retrySkymaps({ fetch: fetchOpts, now: () => new Date(t0.getTime() + 30_000) })).toEqual([]);
+		// Due, still missing: attempt 2, next wait 2 min.
+		const t1 = new Date(t0.getTime() + 61_000);
+		expect(await retrySkymaps({ fetch: fetchOpts, now: () => t1 })).toEqual([row.id]);
+		row = database.select().from(table.skymap).get()!;
+		expect(row.fetchAttempts).toBe(2);
+		expect(row.retryAt!.getTime()).toBe(t1.getTime() + 120_000);
+		// The host publishes it: the next due try analyses it in the same row and the event shows it.
+		broker.addFile('SX30041207-late.multiorder.fits.gz', readFileSync(dir + 'skymap-demo.multiorder.fits.gz'));
+		log = [];
+		expect(await retrySkymaps({ fetch: fetchOpts, now: () => new Date(t1.getTime() + 121_000) })).toEqual([row.id]);
+		row = database.select().from(table.skymap).get()!;
+		expect(row).toMatchObject({ error: null, retryAt: null, fetchAttempts: 3 });
+		expect(row.summary!.area90 / astropy.area90Deg2).toBeCloseTo(1, 6);
+		expect(database.select().from(table.gwEvent).get()!.latestSkymapId).toBe(row.id);
+		expect(actions('board')).toEqual(['skymap.analysed']);
+		expect(log[0].payload).toMatchObject({ eventId: r.eventId, skymapId: row.id, retried: 3 });
+		// Nothing left to try.
+		expect(await retrySkymaps({ fetch: fetchOpts, now: () => new Date(t1.getTime() + 3_600_000) })).toEqual([]);
+	});
+
+	it('gives up after five downloads; a refused host is never tried again', async () => {
+		expect.hasAssertions();
+		const xml = notice('bns-initial.xml').replace('SX30041207-2.multiorder.fits.gz', 'SX30041207-never.multiorder.fits.gz');
+		await ingest(xml);
+		let at = Date.now();
+		for (let k = 0; k < 10; k++) {
+			at += 3_600_000;
+			await retrySkymaps({ fetch: fetchOpts, now: () => new Date(at) });
+		}
+		const row = database.select().from(table.skymap).get()!;
+		expect(row.fetchAttempts).toBe(5);
+		expect(row.retryAt).toBeNull();
+		expect(row.error).toMatch(/\(gave up after 5 attempts\)$/);
+		// bbh-initial.xml names a host off the allow-list: refused once, with no retry planned.
+		await ingest(raw('bbh-initial.xml'));
+		const refused = database.select().from(table.skymap).where(eq(table.skymap.eventId, 'sx30041422')).get()!;
+		expect(refused.retryAt).toBeNull();
+		expect(refused.error).toMatch(/is not on the allow-list \(SKYMAP_HOSTS\)$/);
 	});
 
 	it('a sky map from a host off the allow-list is refused; the notice is still processed and says why', async () => {

@@ -8,7 +8,7 @@
  * crash costs a repeat of the unfinished step, never a lost or doubled notice.
  */
 import { createHash } from 'node:crypto';
-import { and, asc, eq, isNull, lt } from 'drizzle-orm';
+import { and, asc, eq, isNotNull, isNull, lt, lte } from 'drizzle-orm';
 import { db } from '../db';
 import * as table from '../db/schema';
 import { randomId } from '../auth';
@@ -345,18 +345,82 @@ async function attachSkymap(
 		bytes = uploadedPath ? readStoredFile(uploadedPath) : (await fetchSkymap(n.skymapUrl!, fetchOpts)).bytes;
 	} catch (e) {
 		const error = e instanceof SkymapFetchError ? e.message : `could not read the sky map: ${(e as Error).message}`;
-		return insertSkymap({ eventId, noticeId, sourceUrl, error });
+		const retry = !uploadedPath && isTransient(e) ? { fetchAttempts: 1, retryAt: retryTime(1, new Date()) } : { fetchAttempts: uploadedPath ? 0 : 1 };
+		return insertSkymap({ eventId, noticeId, sourceUrl, error: retry.retryAt ? `${error} (will try again)` : error, ...retry });
 	}
+	return insertSkymap({ eventId, noticeId, sourceUrl, fetchAttempts: uploadedPath ? 0 : 1, ...analysedColumns(eventId, noticeId, bytes) });
+}
+
+/** Analyse fetched bytes into the sky-map row's columns (or the reason they could not be). */
+function analysedColumns(eventId: string, noticeId: string, bytes: Buffer): Partial<typeof table.skymap.$inferInsert> {
 	let analysed: ReturnType<typeof analyseSkymap>;
 	try {
 		analysed = analyseSkymap(new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength));
 	} catch (e) {
-		return insertSkymap({ eventId, noticeId, sourceUrl, error: `the sky map could not be analysed: ${(e as Error).message}` });
+		return { error: `the sky map could not be analysed: ${(e as Error).message}`, retryAt: null };
 	}
 	const { map, ...summary } = analysed;
 	const display = skyRaster(map, { width: 360, height: 180 }) as unknown as Record<string, unknown>;
 	const file = saveSkymapFile(eventId, noticeId, bytes);
-	return insertSkymap({ eventId, noticeId, sourceUrl, summary, display, filePath: file.path, bytes: file.bytes, sha256: file.sha256 });
+	return { summary, display, filePath: file.path, bytes: file.bytes, sha256: file.sha256, error: null, retryAt: null };
+}
+
+// ── Sky maps whose download failed for a passing reason ──
+
+/** Downloads tried at most this many times in all. */
+export const MAX_SKYMAP_FETCHES = 5;
+/** Wait before the next try: 1, 2, 4, 8 minutes (the map host may be slow to publish or briefly down). */
+export function retryTime(attemptsSoFar: number, now: Date): Date {
+	return new Date(now.getTime() + 60_000 * 2 ** (attemptsSoFar - 1));
+}
+
+/** A timeout, a network error or an HTTP error may pass; a refused host, a redirect or an oversize file will not. */
+function isTransient(e: unknown): boolean {
+	return e instanceof SkymapFetchError && (e.code === 'timeout' || e.code === 'network' || e.code === 'http_status');
+}
+
+/**
+ * Try again the downloads that failed for a passing reason and are due. A map that now arrives is
+ * analysed and stored in the same row, the event is recomputed (it shows the map if its notice is
+ * still the latest with one) and `skymap.analysed` goes out as for a first-time map, so targets are
+ * re-ranked and every page updates. Returns the sky-map ids that were tried.
+ */
+export async function retrySkymaps(opts: IngestOptions = {}): Promise<string[]> {
+	const now = opts.now?.() ?? new Date();
+	const actor = opts.actor ?? SYSTEM;
+	const due = db
+		.select()
+		.from(table.skymap)
+		.where(and(isNotNull(table.skymap.retryAt), lte(table.skymap.retryAt, now)))
+		.all();
+	const tried: string[] = [];
+	for (const row of due) {
+		if (!row.sourceUrl) continue;
+		tried.push(row.id);
+		const attempts = row.fetchAttempts + 1;
+		let bytes: Buffer;
+		try {
+			bytes = (await fetchSkymap(row.sourceUrl, opts.fetch)).bytes;
+		} catch (e) {
+			const error = e instanceof SkymapFetchError ? e.message : `could not read the sky map: ${(e as Error).message}`;
+			const again = isTransient(e) && attempts < MAX_SKYMAP_FETCHES;
+			db.update(table.skymap)
+				.set({ fetchAttempts: attempts, retryAt: again ? retryTime(attempts, now) : null, error: again ? `${error} (will try again)` : `${error} (gave up after ${attempts} attempts)` })
+				.where(eq(table.skymap.id, row.id))
+				.run();
+			continue;
+		}
+		const columns = analysedColumns(row.eventId, row.noticeId, bytes);
+		db.transaction((tx) => {
+			tx.update(table.skymap).set({ ...columns, fetchAttempts: attempts }).where(eq(table.skymap.id, row.id)).run();
+			refreshEvent(tx, row.eventId);
+		});
+		for (const room of rooms(row.eventId)) {
+			if (columns.error) record(actor, 'skymap.failed', room, { eventId: row.eventId, noticeId: row.noticeId, error: columns.error });
+			else record(actor, 'skymap.analysed', room, { eventId: row.eventId, skymapId: row.id, noticeId: row.noticeId, summary: columns.summary, retried: attempts });
+		}
+	}
+	return tried;
 }
 
 function insertSkymap(v: Omit<typeof table.skymap.$inferInsert, 'id'>): SkyResult {

@@ -10,7 +10,7 @@ import { config } from '../config';
 import { SYSTEM, type Actor } from '../realtime';
 import type { SkymapFetchOptions } from '../skymap-fetch';
 import { backfillFromArchive, parseBrokerAddress, VtpListener, type ListenerOptions, type ListenerStatus } from './listener';
-import { commitNotice, processInbox, retryPending, type CommitResult, type InboxVia, type IngestOutcome } from './ingest';
+import { commitNotice, processInbox, retryPending, retrySkymaps, type CommitResult, type InboxVia, type IngestOutcome } from './ingest';
 
 export type LogFn = (level: 'info' | 'warn' | 'error', message: string) => void;
 
@@ -85,7 +85,10 @@ export class AlertsService {
 		this.listener?.start();
 		const every = this.opts.retryIntervalMs ?? config.alerts.retryIntervalMs;
 		this.retryTimer = setInterval(() => {
-			if (!this.stopped) this.track(retryPending(this.ingestOptions()));
+			if (this.stopped) return;
+			this.track(retryPending(this.ingestOptions()));
+			// Sky maps whose download failed for a passing reason, when due (1, 2, 4, 8 min apart).
+			this.track(retrySkymaps(this.ingestOptions()));
 		}, every);
 		this.retryTimer.unref();
 		if (this.listener) this.log('info', `listening to ${this.listener.status().host}:${this.listener.status().port}${this.archiveUrl ? `, back-fill from ${this.archiveUrl}` : ''}`);

@@ -296,9 +296,13 @@ export const skymap = sqliteTable(
 		display: text('display', { mode: 'json' }).$type<Record<string, unknown>>(),
 		/** Why the map could not be fetched or read; null when analysed. */
 		error: text('error'),
+		/** Download attempts so far (a timeout, a network error or an HTTP error is tried again). */
+		fetchAttempts: integer('fetch_attempts').notNull().default(0),
+		/** When to try the download again; null when analysed, refused for good, or given up. */
+		retryAt: integer('retry_at', { mode: 'timestamp_ms' }),
 		createdAt: createdAt()
 	},
-	(t) => [index('skymap_event_idx').on(t.eventId)]
+	(t) => [index('skymap_event_idx').on(t.eventId), index('skymap_retry_idx').on(t.retryAt)]
 );
 
 // ───────────────────────────── Triage, shifts, acknowledgement ─────────────────────────────
