@@ -15,23 +15,14 @@ import { generateSyntheticCatalog, syntheticCatalogCsv } from '../../seeds/synth
 import { readSkyMap, summarise } from '../../src/lib/sky/index.ts';
 import { CatalogCsvParser } from '../../src/lib/targeting/catalog-csv.ts';
 import { buildCatalogIndex, rankGalaxies } from '../../src/lib/targeting/galaxies.ts';
-import { median, type BenchResult } from './run.ts';
+import { median, timeRuns, type BenchResult } from './run.ts';
 
 const PYTHON = '/usr/bin/python3';
 const ROWS = 1_000_000;
 const REPEATS = 7;
 const WARMUP = 2;
 
-function time(fn: () => void): number[] {
-	for (let k = 0; k < WARMUP; k++) fn();
-	const ms: number[] = [];
-	for (let k = 0; k < REPEATS; k++) {
-		const t0 = performance.now();
-		fn();
-		ms.push(performance.now() - t0);
-	}
-	return ms;
-}
+const time = (fn: () => void) => timeRuns(fn, REPEATS, WARMUP);
 
 export async function run(): Promise<BenchResult[]> {
 	const here = dirname(fileURLToPath(import.meta.url));

@@ -10,23 +10,13 @@ import { tmpdir } from 'node:os';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { analyseSkymap, credibleRegions, readSkyMap } from '../../src/lib/sky/index.ts';
-import { median, type BenchResult } from './run.ts';
+import { median, timeRuns, type BenchResult } from './run.ts';
 
 const PYTHON = '/usr/bin/python3';
 const REPEATS = 7;
 const WARMUP = 2;
 
-/** Median-ready timings after untimed warm-up runs (the JIT, like numpy's caches, needs a first pass). */
-function time(fn: () => void): number[] {
-	for (let k = 0; k < WARMUP; k++) fn();
-	const ms: number[] = [];
-	for (let k = 0; k < REPEATS; k++) {
-		const t0 = performance.now();
-		fn();
-		ms.push(performance.now() - t0);
-	}
-	return ms;
-}
+const time = (fn: () => void) => timeRuns(fn, REPEATS, WARMUP);
 
 export async function run(): Promise<BenchResult[]> {
 	const here = dirname(fileURLToPath(import.meta.url));

@@ -13,8 +13,8 @@
  * numeric order, narrows the crossing to one bucket in at most four 16-bit passes; only that
  * bucket's pixels are sorted.
  */
-import { nestToAng, nestToRadec, pixelAreaSr, ringToAng, ringToNest, SR_TO_DEG2, thetaPhiToRadec } from './coords.ts';
-import { areaTable, pixelAt, type SkyMap } from './moc.ts';
+import { nestToAng, nestToRadec, pixelAreaSr, ringToAng, SR_TO_DEG2, thetaPhiToRadec } from './coords.ts';
+import { areaTable, nestedPixel, pixelAt, type SkyMap } from './moc.ts';
 
 export interface CredibleRegion {
 	/** Requested level, 0 < level ≤ 1. */
@@ -254,17 +254,12 @@ export function regionPixels(map: SkyMap, level: number, order: number): Float64
 	const t = region.densityThresholdPerSr;
 	const d = map.probDensity;
 	const out: number[] = [];
+	const px = { order: 0, ipix: 0 };
 	for (let i = 0; i < d.length; i++) {
 		if (!(d[i] >= t)) continue;
-		let o: number;
-		let p: number;
-		if (map.ordering === 'NUNIQ') {
-			o = map.order![i];
-			p = map.ipix![i];
-		} else {
-			o = map.maxOrder;
-			p = map.ordering === 'RING' ? ringToNest(o, i) : i;
-		}
+		nestedPixel(map, i, px);
+		const o = px.order;
+		const p = px.ipix;
 		if (o >= order) out.push(Math.floor(p / 4 ** (o - order)));
 		else {
 			const f = 4 ** (order - o);

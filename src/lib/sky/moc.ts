@@ -14,6 +14,7 @@ import {
 	pixelAreaSr,
 	radecToNest,
 	radecToRing,
+	ringToNest,
 	uniqOrderBig,
 	uniqToOrderPix
 } from './coords.ts';
@@ -289,6 +290,21 @@ function buildLookup(map: SkyMap) {
 		w[k] = span[pixel[k]];
 	}
 	return { start: s, span: w, pixel };
+}
+
+/**
+ * The HEALPix order and NESTED index of row `i`: stored per row in a multi-order map; `maxOrder`
+ * and the row (converted from RING when needed) in a flat one. Written into `out` so that loops
+ * over every pixel allocate nothing.
+ */
+export function nestedPixel(map: SkyMap, i: number, out: { order: number; ipix: number }): void {
+	if (map.order) {
+		out.order = map.order[i];
+		out.ipix = map.ipix![i];
+	} else {
+		out.order = map.maxOrder;
+		out.ipix = map.ordering === 'RING' ? ringToNest(map.maxOrder, i) : i;
+	}
 }
 
 /** Index of the map pixel containing RA/Dec (degrees), or -1 where a partial map has no pixel. */

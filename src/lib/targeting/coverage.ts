@@ -27,8 +27,8 @@
  * wrongly; the miscounts on the two sides of an edge mostly cancel, and on the fixture the
  * default-order union is within 1.1e-4 of healpy's at order 10 against a bound of 0.045.
  */
-import { deinterleave, nestToAng, npix, ringToNest, SPHERE_DEG2, type SkyMap } from '../sky/index.ts';
-import { areaTable } from '../sky/moc.ts';
+import { deinterleave, nestToAng, npix, SPHERE_DEG2, type SkyMap } from '../sky/index.ts';
+import { areaTable, nestedPixel } from '../sky/moc.ts';
 import { containsVector, DISC_OUTSIDE, discRelation, footprintGeometry, type FootprintGeometry, type FootprintSpec, type Vec3 } from './sky-geometry.ts';
 
 const DEG = Math.PI / 180;
@@ -329,18 +329,13 @@ export function coverage(map: SkyMap, observed: ObservedFootprint[], options: Co
 
 	if (fps.length) {
 		const dens = map.probDensity;
+		const px = { order: 0, ipix: 0 };
 		for (let i = 0; i < map.size; i++) {
 			const d = dens[i];
 			if (!(d > 0)) continue;
-			let o: number;
-			let ipix: number;
-			if (map.order) {
-				o = map.order[i];
-				ipix = map.ipix![i];
-			} else {
-				o = map.maxOrder;
-				ipix = map.ordering === 'RING' ? ringToNest(o, i) : i;
-			}
+			nestedPixel(map, i, px);
+			const o = px.order;
+			const ipix = px.ipix;
 			const cand = o >= BUCKET_ORDER ? buckets[Math.floor(ipix / 4 ** (o - BUCKET_ORDER))] : allRanks;
 			if (cand.length === 0) continue;
 			visit(o, ipix, d, cand, cand.length);

@@ -32,7 +32,7 @@
  * Each point also belongs to exactly one cell, so the cell probabilities add up to the probability
  * evaluated; `cumulative` is the union probability of the fields ranked so far.
  */
-import { areaTable, credibleRegions, nestToRadec, npix, ringToNest, SPHERE_DEG2, type SkyMap } from '../sky/index.ts';
+import { areaTable, credibleRegions, nestedPixel, nestToRadec, npix, SPHERE_DEG2, type SkyMap } from '../sky/index.ts';
 
 const DEG = Math.PI / 180;
 
@@ -421,18 +421,13 @@ export function rankFields(map: SkyMap, t: Tiling, options: FieldRankOptions = {
 			if (!deep) boundary[f] += p;
 		}
 	};
+	const px = { order: 0, ipix: 0 };
 	for (let i = 0; i < map.size; i++) {
 		const d = dens[i];
 		if (!(d >= threshold) || d === 0) continue;
-		let o: number;
-		let ipix: number;
-		if (map.order) {
-			o = map.order[i];
-			ipix = map.ipix![i];
-		} else {
-			o = map.maxOrder;
-			ipix = map.ordering === 'RING' ? ringToNest(o, i) : i;
-		}
+		nestedPixel(map, i, px);
+		const o = px.order;
+		const ipix = px.ipix;
 		if (o >= evalOrder) {
 			const c = nestToRadec(o, ipix);
 			visit(c.ra, c.dec, d * areas[o]);

@@ -37,12 +37,12 @@ import {
 	credibleRegions,
 	hasDistance,
 	marginalMoments,
+	nestedPixel,
 	normalCdf,
 	npix,
 	pixelAt,
 	pixelProbabilityFn,
 	radecToNest,
-	ringToNest,
 	type SkyMap
 } from '../sky/index.ts';
 
@@ -240,17 +240,12 @@ export function rankGalaxies(map: SkyMap, index: CatalogIndex, options: RankOpti
 	// Index pixels under map pixels finer than the index, to visit once each.
 	const finer = new Uint8Array(npix(io));
 	let anyFiner = false;
+	const px = { order: 0, ipix: 0 };
 	for (let i = 0; i < map.size; i++) {
 		if (!(dens[i] >= t)) continue;
-		let o: number;
-		let p: number;
-		if (map.order) {
-			o = map.order[i];
-			p = map.ipix![i];
-		} else {
-			o = map.maxOrder;
-			p = map.ordering === 'RING' ? ringToNest(o, i) : i;
-		}
+		nestedPixel(map, i, px);
+		const o = px.order;
+		const p = px.ipix;
 		if (o <= io) {
 			// Nested children of (o, p) at the index order are one contiguous range.
 			const f = 4 ** (io - o);
