@@ -66,6 +66,11 @@ export function formatPercent(p: number | null | undefined): string {
 	return `${Math.round(p * 100)}%`;
 }
 
+/** A covered or enclosed probability: one decimal from 10%, two below, "<0.1%" under a thousandth. */
+export function formatProbability(p: number): string {
+	return p >= 0.001 ? `${(100 * p).toFixed(p >= 0.1 ? 1 : 2)}%` : p > 0 ? '<0.1%' : '0%';
+}
+
 /** A sky area in square degrees: one decimal below 10 deg², whole degrees above. */
 export function formatArea(areaDeg2: number | null | undefined): string {
 	if (typeof areaDeg2 !== 'number' || !Number.isFinite(areaDeg2)) return '—';

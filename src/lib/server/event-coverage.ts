@@ -93,6 +93,16 @@ export function eventCoverage(eventId: string): EventCoverage | null {
 	const sky = db.select({ id: table.skymap.id, filePath: table.skymap.filePath, error: table.skymap.error }).from(table.skymap).where(eq(table.skymap.id, event.skymapId)).get();
 	if (!sky?.filePath || sky.error) return null;
 
+	// Observations are append-only: the map, how many observations and done galaxy claims there are,
+	// and how many galaxies are ranked identify the inputs, so a page load that hits the cache reads
+	// counts only.
+	const count = (t: typeof table.observation | typeof table.claim | typeof table.eventGalaxy, where: ReturnType<typeof and>) =>
+		db.select({ n: sql<number>`count(*)` }).from(t).where(where).get()?.n ?? 0;
+	const doneGalaxy = and(eq(table.claim.eventId, eventId), eq(table.claim.targetKind, 'galaxy'), eq(table.claim.state, 'done'));
+	const rankedCount = count(table.eventGalaxy, eq(table.eventGalaxy.eventId, eventId));
+	const key = [sky.id, count(table.observation, eq(table.observation.eventId, eventId)), count(table.claim, doneGalaxy), rankedCount].join('|');
+	if (resultCache?.key === key) return resultCache.value;
+
 	const rows = db
 		.select({
 			id: table.observation.id,
@@ -116,15 +126,11 @@ export function eventCoverage(eventId: string): EventCoverage | null {
 		.orderBy(asc(table.observation.observedAt), sql`observation.rowid`)
 		.all();
 	const doneGalaxyClaims = db
-		.select({ targetId: table.claim.targetId, teamId: table.claim.teamId })
+		.select({ targetId: table.claim.targetId, teamId: table.claim.teamId, teamName: table.team.name })
 		.from(table.claim)
-		.where(and(eq(table.claim.eventId, eventId), eq(table.claim.targetKind, 'galaxy'), eq(table.claim.state, 'done')))
+		.innerJoin(table.team, eq(table.team.id, table.claim.teamId))
+		.where(doneGalaxy)
 		.all();
-	const rankedCount = db.select({ n: sql<number>`count(*)` }).from(table.eventGalaxy).where(eq(table.eventGalaxy.eventId, eventId)).get()?.n ?? 0;
-
-	// Observations are append-only, so the map, their number, the last id and the done claims identify the inputs.
-	const key = [sky.id, rows.length, rows.map((r) => r.id).sort().at(-1) ?? '', doneGalaxyClaims.length, rankedCount].join('|');
-	if (resultCache?.key === key) return resultCache.value;
 
 	const t0 = performance.now();
 	const map = loadMap(sky.id, sky.filePath);
@@ -150,8 +156,7 @@ export function eventCoverage(eventId: string): EventCoverage | null {
 		galaxies = { ranked: rankedCount, observedCount: gc.observedCount, probability: gc.observedProbability };
 		galaxyCurve = gc.curve.map((p) => [hours(p.timeMs), p.probability]);
 		// Per team: galaxies inside its own footprints or named by its own completed claims, each once.
-		const teamIds = new Set([...rows.map((r) => r.teamId), ...doneGalaxyClaims.map((c) => c.teamId)]);
-		for (const teamId of teamIds) {
+		for (const teamId of new Set([...rows, ...doneGalaxyClaims].map((r) => r.teamId))) {
 			const own = galaxyCoverage(ranked, {
 				galaxyIds: doneGalaxyClaims.filter((c) => c.teamId === teamId).map((c) => c.targetId),
 				footprints: footprints.filter((f) => f.groupId === teamId)
@@ -160,8 +165,7 @@ export function eventCoverage(eventId: string): EventCoverage | null {
 		}
 	}
 
-	const teamNames = new Map(rows.map((r) => [r.teamId, r.teamName]));
-	for (const c of doneGalaxyClaims) if (!teamNames.has(c.teamId)) teamNames.set(c.teamId, db.select({ name: table.team.name }).from(table.team).where(eq(table.team.id, c.teamId)).get()?.name ?? c.teamId);
+	const teamNames = new Map([...rows, ...doneGalaxyClaims].map((r) => [r.teamId, r.teamName]));
 	const teams: TeamCoverage[] = [...teamNames].map(([teamId, teamName]) => {
 		const g = union.groups.find((x) => x.groupId === teamId);
 		return {

@@ -13,6 +13,7 @@ import type { EventCoverage } from './event-coverage';
 import { isStoredRaster, packRaster } from '../components/sky/raster-image.ts';
 import type { DisplayRaster, SkyBody, SkyCandidate, SkyContour, SkyFootprint, SkyTarget, TargetState } from '../components/sky/types.ts';
 import { moonPhase, moonPosition, sunPosition } from '../targeting/night.ts';
+import { formatProbability } from '../alerts/display.ts';
 
 /** Display avoidance radii: the telescope defaults (telescope.min_sun/moon_separation_deg). */
 const SUN_AVOID_DEG = 45;
@@ -32,7 +33,7 @@ export interface SkyViewData {
 	candidates: SkyCandidate[];
 }
 
-const pct = (p: number) => (p >= 0.001 ? `${(100 * p).toFixed(p >= 0.1 ? 1 : 2)}%` : p > 0 ? '<0.1%' : '0%');
+const pct = formatProbability;
 
 /**
  * The sky view for one viewer. Positions of the Sun and Moon are topocentric for a reference

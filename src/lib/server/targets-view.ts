@@ -170,12 +170,24 @@ export function tonightFor(t: TelescopeRow, now: Date): NightInfo {
 export const PLAN_GALAXIES = 300;
 
 /**
+ * Plan targets carry their kind in the id — `G<galaxy row>` and `<telescope>:<field>` — while claims
+ * name the bare galaxy row or field id; this is the way back.
+ */
+export function claimTargetId(t: { kind: string; targetId: string }): string {
+	return t.kind === 'galaxy' ? t.targetId.replace(/^G/, '') : t.targetId.slice(t.targetId.indexOf(':') + 1);
+}
+
+/**
  * The network plan for the next `horizonH` hours from `now`: the stored galaxies (narrow fields)
  * and each wide-field telescope's own fields (`lib/targeting/plan.ts`). Open claims bind their
  * target to the claiming telescope (others leave it, reason "claimed"); targets already observed
  * under a completed claim are left out.
  */
-export function networkPlan(eventId: string, now: Date, horizonH = 24): { plan: NetworkPlan; telescopes: TelescopeRow[]; labels: Map<string, string> } {
+export function networkPlan(
+	eventId: string,
+	now: Date,
+	horizonH = 24
+): { plan: NetworkPlan; telescopes: TelescopeRow[]; labels: Map<string, string>; claims: ReturnType<typeof listClaims> } {
 	const telescopes = listTelescopes();
 	const targets: PlanTarget[] = [];
 	for (const g of eventGalaxies(eventId, { limit: Math.min(PLAN_GALAXIES, STORED_GALAXIES) }).galaxies) {
@@ -185,7 +197,8 @@ export function networkPlan(eventId: string, now: Date, horizonH = 24): { plan: 
 		targets.push({ id: `${f.telescopeId}:${f.fieldId}`, kind: 'field', name: f.fieldId, raDeg: f.ra, decDeg: f.dec, probability: f.probability, fieldFor: f.telescopeId });
 	}
 	// Claims name galaxies by row id and fields by field id; the plan's ids carry a prefix.
-	const planId = (kind: string, targetId: string) => (kind === 'galaxy' ? `G${targetId}` : targets.find((t) => t.kind === 'field' && t.name === targetId)?.id);
+	const fieldIds = new Map(targets.filter((t) => t.kind === 'field').map((t) => [t.name, t.id]));
+	const planId = (kind: string, targetId: string) => (kind === 'galaxy' ? `G${targetId}` : fieldIds.get(targetId));
 	const live = listClaims(eventId).filter((c) => c.state === 'claimed' || c.state === 'observing' || c.state === 'done');
 	const done = new Set(live.filter((c) => c.state === 'done').map((c) => planId(c.targetKind, c.targetId)));
 	const claims: PlanClaim[] = live
@@ -197,7 +210,7 @@ export function networkPlan(eventId: string, now: Date, horizonH = 24): { plan: 
 	const plan = planNetwork({ targets: targets.filter((t) => !done.has(t.id)), telescopes, claims, start: now, horizonH });
 	const scopeName = new Map(telescopes.map((t) => [t.id, t.name]));
 	const labels = new Map(targets.map((t) => [t.id, t.kind === 'field' ? `${t.name} (${scopeName.get(String(t.fieldFor)) ?? 'field'})` : (t.name ?? t.id)]));
-	return { plan, telescopes, labels };
+	return { plan, telescopes, labels, claims: live };
 }
 
 export interface PlanCoverage {

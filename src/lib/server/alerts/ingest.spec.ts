@@ -39,6 +39,19 @@ async function ingest(xml: string, via: 'vtp' | 'api' = 'vtp') {
 	return processInbox(c.inboxId, { fetch: fetchOpts });
 }
 
+/** Process the fixture notice and crash right after the given durable step. */
+async function crashAt(at: 'stored' | 'analysed') {
+	const c = commitNotice(notice('bns-initial.xml'), 'vtp');
+	await expect(
+		processInbox(c.inboxId, {
+			fetch: fetchOpts,
+			onStage: (stage) => {
+				if (stage === at) throw new Error('simulated crash');
+			}
+		})
+	).rejects.toThrow('simulated crash');
+}
+
 const actions = (room?: string) => log.filter((m) => !room || m.room === room).map((m) => m.type);
 
 beforeAll(async () => {
@@ -151,15 +164,7 @@ describe('ingest: idempotent and resumable', () => {
 
 	it('a crash after the notice was stored and before the sky map is resumed without doubles', async () => {
 		expect.hasAssertions();
-		const c = commitNotice(notice('bns-initial.xml'), 'vtp');
-		await expect(
-			processInbox(c.inboxId, {
-				fetch: fetchOpts,
-				onStage: (stage) => {
-					if (stage === 'stored') throw new Error('simulated crash');
-				}
-			})
-		).rejects.toThrow('simulated crash');
+		await crashAt('stored');
 		expect(database.select().from(table.notice).all()).toHaveLength(1);
 		expect(database.select().from(table.skymap).all()).toHaveLength(0);
 		expect(database.select().from(table.noticeInbox).get()!.processedAt).toBeNull();
@@ -176,15 +181,7 @@ describe('ingest: idempotent and resumable', () => {
 
 	it('a crash after analysis reuses the stored sky map', async () => {
 		expect.hasAssertions();
-		const c = commitNotice(notice('bns-initial.xml'), 'vtp');
-		await expect(
-			processInbox(c.inboxId, {
-				fetch: fetchOpts,
-				onStage: (stage) => {
-					if (stage === 'analysed') throw new Error('simulated crash');
-				}
-			})
-		).rejects.toThrow();
+		await crashAt('analysed');
 		await retryPending({ fetch: fetchOpts });
 		expect(database.select().from(table.skymap).all()).toHaveLength(1);
 		expect(database.select().from(table.gwEvent).get()!.latestSkymapId).toBe(database.select().from(table.skymap).get()!.id);

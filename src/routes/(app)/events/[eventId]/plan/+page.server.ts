@@ -2,10 +2,9 @@ import { error } from '@sveltejs/kit';
 import type { PageServerLoad } from './$types';
 import { requirePermission } from '$lib/server/guard';
 import { can } from '$lib/server/permissions';
-import { listClaims } from '$lib/server/claims';
 import { getEvent } from '$lib/server/events';
 import { targetsMeta } from '$lib/server/targets';
-import { networkPlan, planCoverage, planStart } from '$lib/server/targets-view';
+import { claimTargetId, networkPlan, planCoverage, planStart } from '$lib/server/targets-view';
 
 const SHOWN = 60;
 
@@ -16,18 +15,15 @@ export const load: PageServerLoad = ({ params, url, depends, locals }) => {
 	if (!event) error(404, 'No such event.');
 	const start = planStart(url.searchParams.get('start'));
 	const started = performance.now();
-	const { plan, labels, telescopes } = networkPlan(event.eventId, start);
+	const { plan, labels, telescopes, claims } = networkPlan(event.eventId, start);
 	const covered = planCoverage(event.eventId, plan, telescopes);
 	const computeMs = performance.now() - started;
 	// Claiming from the plan: with the viewer's own teams' telescopes (coordinators: any), targets no claim holds.
 	const user = locals.user;
 	const mayClaim = Boolean(user && event.state === 'active' && can({ user, telescopeId: null }, 'claims.create'));
 	const claimable = new Set(mayClaim ? telescopes.filter((t) => user!.roles.includes('coordinator') || user!.teamIds.includes(t.teamId)).map((t) => t.id) : []);
-	const held = new Map(
-		listClaims(event.eventId)
-			.filter((c) => c.state !== 'released' && c.state !== 'lapsed')
-			.map((c) => [`${c.targetKind}:${c.targetId}`, { state: c.state, teamName: c.teamName, telescopeName: c.telescopeName }])
-	);
+	// The claims the plan honoured (open and completed ones).
+	const held = new Map(claims.map((c) => [`${c.targetKind}:${c.targetId}`, { state: c.state, teamName: c.teamName, telescopeName: c.telescopeName }]));
 	const counts = new Map<string, number>();
 	for (const d of plan.dropped) counts.set(d.reason, (counts.get(d.reason) ?? 0) + 1);
 	return {
@@ -54,9 +50,8 @@ export const load: PageServerLoad = ({ params, url, depends, locals }) => {
 			kind: t.assignments.some((a) => a.kind === 'field') ? 'fields' : 'galaxies',
 			mayClaim: claimable.has(t.telescopeId),
 			assignments: t.assignments.slice(0, SHOWN).map((a) => {
-				// The plan's ids carry a prefix (G<row> for galaxies, <telescope>:<field> for fields); claims use the bare id.
-				const claimTargetId = a.kind === 'galaxy' ? a.targetId.replace(/^G/, '') : a.targetId.slice(a.targetId.indexOf(':') + 1);
-				return { ...a, claimTargetId, claim: held.get(`${a.kind}:${claimTargetId}`) ?? null };
+				const id = claimTargetId(a);
+				return { ...a, claimTargetId: id, claim: held.get(`${a.kind}:${id}`) ?? null };
 			})
 		})),
 		dropped: {
