@@ -2,7 +2,7 @@
 // The handler is registered first: engine.io wraps the listeners present when it attaches and
 // keeps /socket.io requests for itself.
 import http from 'node:http';
-import { attachSocketIO } from './src/lib/server/socket-host.js';
+import { attachSocketIO } from './src/lib/server/platform/socket-host.js';
 
 // Uploaded sky maps are larger than adapter-node's 512 kB default body limit.
 process.env.BODY_SIZE_LIMIT ??= '80M';

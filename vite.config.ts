@@ -2,7 +2,7 @@ import { sveltekit } from '@sveltejs/kit/vite';
 import { defineConfig } from 'vitest/config';
 import type { Plugin } from 'vite';
 import type { Server as HttpServer } from 'node:http';
-import { attachSocketIO } from './src/lib/server/socket-host.js';
+import { attachSocketIO } from './src/lib/server/platform/socket-host.js';
 
 /** socket.io on Vite's own HTTP server, so `vite dev` and `vite preview` have the live hub too. */
 function liveHub(): Plugin {

@@ -13,7 +13,7 @@
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import { parseArgs } from 'node:util';
-import { openDatabase } from '../src/lib/server/db';
+import { openDatabase } from '../src/lib/server/platform/db';
 import { seedDemo } from '../seeds/demo';
 import { startBroker } from '../fake-alert-broker/broker.ts';
 

@@ -4,14 +4,14 @@
  */
 import { and, eq, gt, inArray, lte } from 'drizzle-orm';
 import { pathToFileURL } from 'node:url';
-import { openDatabase, type DB } from '../src/lib/server/db';
-import * as table from '../src/lib/server/db/schema';
-import { createUser } from '../src/lib/server/people';
-import { createTeam } from '../src/lib/server/teams';
-import { createTelescope } from '../src/lib/server/telescopes';
-import { SYSTEM } from '../src/lib/server/realtime';
-import { randomId } from '../src/lib/server/auth';
-import { importCatalog } from '../src/lib/server/catalogs';
+import { openDatabase, type DB } from '../src/lib/server/platform/db';
+import * as table from '../src/lib/server/platform/db/schema';
+import { createUser } from '../src/lib/server/people/people';
+import { createTeam } from '../src/lib/server/people/teams';
+import { createTelescope } from '../src/lib/server/people/telescopes';
+import { SYSTEM } from '../src/lib/server/platform/realtime';
+import { randomId } from '../src/lib/server/people/auth';
+import { importCatalog } from '../src/lib/server/targeting/catalogs';
 import { DEMO_PEOPLE, DEMO_TEAMS, DEMO_TELESCOPES } from './scenario';
 import { generateSyntheticCatalog, syntheticCatalogCsv } from './synthetic-catalog';
 

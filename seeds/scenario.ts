@@ -3,7 +3,7 @@
  * telescope names are fictional; the sites are plausible observatory latitudes and longitudes
  * chosen so that the network spans several continents and both hemispheres.
  */
-import type { Role } from '../src/lib/server/db/schema';
+import type { Role } from '../src/lib/server/platform/db/schema';
 
 export interface DemoTeam {
 	key: string;

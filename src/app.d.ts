@@ -1,4 +1,4 @@
-import type { SessionUser, SessionInfo } from '$lib/server/auth';
+import type { SessionUser, SessionInfo } from '$lib/server/people/auth';
 
 declare global {
 	namespace App {

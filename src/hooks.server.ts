@@ -1,12 +1,12 @@
 import type { Handle, HandleServerError, ServerInit } from '@sveltejs/kit';
 import { sequence } from '@sveltejs/kit/hooks';
-import { openDatabase } from '$lib/server/db';
-import * as auth from '$lib/server/auth';
-import { startMail } from '$lib/server/mail';
-import { installRealtime } from '$lib/server/realtime';
-import { installDuty } from '$lib/server/duty';
-import { installTargets } from '$lib/server/targets';
-import { installClaims } from '$lib/server/claims';
+import { openDatabase } from '$lib/server/platform/db';
+import * as auth from '$lib/server/people/auth';
+import { startMail } from '$lib/server/platform/mail';
+import { installRealtime } from '$lib/server/platform/realtime';
+import { installDuty } from '$lib/server/duty/paging';
+import { installTargets } from '$lib/server/targeting/rankings';
+import { installClaims } from '$lib/server/coordination/claims';
 import { startAlerts } from '$lib/server/alerts/service';
 
 export const init: ServerInit = async () => {

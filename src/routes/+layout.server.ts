@@ -1,6 +1,6 @@
 import type { LayoutServerLoad } from './$types';
-import { can } from '$lib/server/permissions';
-import { usesFakeSmtp } from '$lib/server/mail';
+import { can } from '$lib/server/people/permissions';
+import { usesFakeSmtp } from '$lib/server/platform/mail';
 
 export const load: LayoutServerLoad = ({ locals }) => {
 	const user = locals.user;

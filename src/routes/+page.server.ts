@@ -2,14 +2,14 @@ import { redirect } from '@sveltejs/kit';
 import { and, desc, eq, notInArray } from 'drizzle-orm';
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
-import { db } from '$lib/server/db';
-import * as table from '$lib/server/db/schema';
-import { requirePermission, requireUser } from '$lib/server/guard';
-import { can } from '$lib/server/permissions';
-import { validateForm, failWith } from '$lib/server/forms';
-import { boardEvents } from '$lib/server/board';
+import { db } from '$lib/server/platform/db';
+import * as table from '$lib/server/platform/db/schema';
+import { requirePermission, requireUser } from '$lib/server/people/guard';
+import { can } from '$lib/server/people/permissions';
+import { validateForm, failWith } from '$lib/server/platform/forms';
+import { boardEvents } from '$lib/server/alerts/board';
 import { QUIET_ACTIONS } from '$lib/activity';
-import * as duty from '$lib/server/duty';
+import * as duty from '$lib/server/duty/paging';
 
 export const load: PageServerLoad = ({ locals, depends }) => {
 	if (!locals.user) return { board: null };

@@ -59,9 +59,9 @@ function newestSource(): number {
 	const files = [
 		'src/lib/server/alerts/ingest.ts',
 		'src/lib/server/alerts/service.ts',
-		'src/lib/server/skymap-fetch.ts',
-		'src/lib/server/storage.ts',
-		'src/lib/server/triage.ts',
+		'src/lib/server/alerts/skymap-fetch.ts',
+		'src/lib/server/platform/storage.ts',
+		'src/lib/server/alerts/triage-policy.ts',
 		'src/hooks.server.ts'
 	];
 	return Math.max(...files.map((f) => statSync(join(ROOT, f)).mtimeMs));
@@ -87,10 +87,10 @@ function noticeXml(base: string, httpBase: string, n: number): { xml: string; iv
 
 /** Seed a temporary database with the demo people and issue a token for the duty scientist. */
 async function prepareDatabase(file: string): Promise<string> {
-	const { openDatabase } = await import('../../src/lib/server/db/index.ts');
+	const { openDatabase } = await import('../../src/lib/server/platform/db/index.ts');
 	const { seedDemo } = await import('../../seeds/demo.ts');
-	const { issueToken } = await import('../../src/lib/server/tokens.ts');
-	const schema = await import('../../src/lib/server/db/schema.ts');
+	const { issueToken } = await import('../../src/lib/server/people/tokens.ts');
+	const schema = await import('../../src/lib/server/platform/db/schema.ts');
 	const { eq } = await import('drizzle-orm');
 	const database = openDatabase(file);
 	await seedDemo(database);

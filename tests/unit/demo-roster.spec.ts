@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
-import { createTestDatabase } from '../../src/lib/server/testing/database';
-import * as table from '../../src/lib/server/db/schema';
-import { onShift } from '../../src/lib/server/duty';
+import { createTestDatabase } from '../../src/lib/server/platform/testing/database';
+import * as table from '../../src/lib/server/platform/db/schema';
+import { onShift } from '../../src/lib/server/duty/paging';
 import { seedDemo, seedDemoRoster, DEMO_ROSTER_HALF_SPAN_MS } from '../../seeds/demo';
 
 describe('demo roster', () => {

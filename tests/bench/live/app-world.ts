@@ -40,13 +40,13 @@ const TELESCOPES = ['Saguaro 0.8 m', 'Tenaz 2.0 m'];
 const SOURCE_ID = 'SX30099060';
 
 export async function prepareAppWorld(root: string, dbFile: string, storageDir: string): Promise<AppWorld> {
-	const { connect, useDatabase } = await import('../../../src/lib/server/db/index.ts');
+	const { connect, useDatabase } = await import('../../../src/lib/server/platform/db/index.ts');
 	const { seedDemo } = await import('../../../seeds/demo.ts');
-	const { issueToken } = await import('../../../src/lib/server/tokens.ts');
-	const { saveUpload, useStorageRoot } = await import('../../../src/lib/server/storage.ts');
+	const { issueToken } = await import('../../../src/lib/server/people/tokens.ts');
+	const { saveUpload, useStorageRoot } = await import('../../../src/lib/server/platform/storage.ts');
 	const { commitNotice, processInbox } = await import('../../../src/lib/server/alerts/ingest.ts');
-	const { installTargets, targetsIdle } = await import('../../../src/lib/server/targets.ts');
-	const table = await import('../../../src/lib/server/db/schema.ts');
+	const { installTargets, targetsIdle } = await import('../../../src/lib/server/targeting/rankings.ts');
+	const table = await import('../../../src/lib/server/platform/db/schema.ts');
 
 	// connect + useDatabase, not openDatabase: another bench module may have opened its own file already.
 	const database = connect(dbFile, join(root, 'drizzle'));

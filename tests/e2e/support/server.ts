@@ -1,7 +1,7 @@
 /** Start the built app for the browser tests on a fresh, seeded database. */
 import { rmSync, existsSync } from 'node:fs';
 import { spawn, spawnSync } from 'node:child_process';
-import { openDatabase } from '../../../src/lib/server/db';
+import { openDatabase } from '../../../src/lib/server/platform/db';
 import { seedDemo } from '../../../seeds/demo';
 import { startE2eBroker } from './broker';
 

@@ -9,17 +9,17 @@
  */
 import { createHash } from 'node:crypto';
 import { and, asc, eq, isNotNull, isNull, lt, lte } from 'drizzle-orm';
-import { db } from '../db';
-import * as table from '../db/schema';
-import { randomId } from '../auth';
-import { record, SYSTEM, type Actor } from '../realtime';
-import { fetchSkymap, SkymapFetchError, type SkymapFetchOptions } from '../skymap-fetch';
-import { readStoredFile, saveSkymapFile } from '../storage';
-import { policyInput, factsOf } from '../triage';
+import { db } from '../platform/db';
+import * as table from '../platform/db/schema';
+import { randomId } from '../people/auth';
+import { record, SYSTEM, type Actor } from '../platform/realtime';
+import { fetchSkymap, SkymapFetchError, type SkymapFetchOptions } from './skymap-fetch';
+import { readStoredFile, saveSkymapFile } from '../platform/storage';
+import { policyInput, factsOf } from './triage-policy';
 import { parseVoevent, sniffIvorn, type Notice as ParsedNotice } from '../../alerts/voevent.ts';
 import { evaluateTriage } from '../../alerts/triage.ts';
 import { analyseSkymap, skyRaster } from '../../sky/index.ts';
-import { cancelOpenClaims as releaseOpenClaims } from '../claims';
+import { cancelOpenClaims as releaseOpenClaims } from '../coordination/claims';
 
 export type InboxVia = table.NoticeInboxRow['via'];
 

@@ -4,13 +4,13 @@ import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { startBroker, type FakeBroker } from '../../../../fake-alert-broker/broker.ts';
-import { createTestDatabase } from '../testing/database';
-import * as table from '../db/schema';
-import { onRecorded, type LiveMessage } from '../realtime';
-import { useStorageRoot } from '../storage';
+import { createTestDatabase } from '../platform/testing/database';
+import * as table from '../platform/db/schema';
+import { onRecorded, type LiveMessage } from '../platform/realtime';
+import { useStorageRoot } from '../platform/storage';
 import { commitNotice } from './ingest';
 import { AlertsService, archiveBaseUrl } from './service';
-import type { DB } from '../db';
+import type { DB } from '../platform/db';
 
 const dir = fileURLToPath(new URL('../../../../tests/fixtures/notices/', import.meta.url));
 const MAP_NAME = 'SX30041207-1.multiorder.fits.gz';

@@ -4,11 +4,11 @@
  * every (re)connection, and a periodic retry of inbox rows whose processing did not finish.
  */
 import { desc, inArray } from 'drizzle-orm';
-import { db } from '../db';
-import * as table from '../db/schema';
-import { config } from '../config';
-import { SYSTEM, type Actor } from '../realtime';
-import type { SkymapFetchOptions } from '../skymap-fetch';
+import { db } from '../platform/db';
+import * as table from '../platform/db/schema';
+import { config } from '../platform/config';
+import { SYSTEM, type Actor } from '../platform/realtime';
+import type { SkymapFetchOptions } from './skymap-fetch';
 import { backfillFromArchive, parseBrokerAddress, VtpListener, type ListenerOptions, type ListenerStatus } from './listener';
 import { commitNotice, processInbox, retryPending, retrySkymaps, type CommitResult, type InboxVia, type IngestOutcome } from './ingest';
 

@@ -1,10 +1,10 @@
 import { redirect } from '@sveltejs/kit';
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
-import { requireUser } from '$lib/server/guard';
-import { validateForm, failWith } from '$lib/server/forms';
-import * as auth from '$lib/server/auth';
-import * as people from '$lib/server/people';
+import { requireUser } from '$lib/server/people/guard';
+import { validateForm, failWith } from '$lib/server/platform/forms';
+import * as auth from '$lib/server/people/auth';
+import * as people from '$lib/server/people/people';
 import { newPasswordField } from '$lib/validation';
 
 export const load: PageServerLoad = ({ locals }) => {

@@ -1,6 +1,6 @@
 import type { PageServerLoad } from './$types';
-import { requirePermission } from '$lib/server/guard';
-import { listAllCandidates } from '$lib/server/candidates';
+import { requirePermission } from '$lib/server/people/guard';
+import { listAllCandidates } from '$lib/server/candidates/candidates';
 
 export const load: PageServerLoad = () => {
 	requirePermission('events.view');

@@ -1,7 +1,7 @@
 import type { PageServerLoad } from './$types';
-import { can } from '$lib/server/permissions';
-import { requirePermission } from '$lib/server/guard';
-import { activeCatalog, listCatalogs } from '$lib/server/catalogs';
+import { can } from '$lib/server/people/permissions';
+import { requirePermission } from '$lib/server/people/guard';
+import { activeCatalog, listCatalogs } from '$lib/server/targeting/catalogs';
 
 export const load: PageServerLoad = ({ locals, depends }) => {
 	requirePermission('events.view');

@@ -1,7 +1,7 @@
 import type { PageServerLoad } from './$types';
-import { requirePermission } from '$lib/server/guard';
-import { can } from '$lib/server/permissions';
-import { listEvents } from '$lib/server/events';
+import { requirePermission } from '$lib/server/people/guard';
+import { can } from '$lib/server/people/permissions';
+import { listEvents } from '$lib/server/alerts/events';
 
 export const load: PageServerLoad = ({ locals }) => {
 	requirePermission('events.view');

@@ -1,8 +1,8 @@
 import { error } from '@sveltejs/kit';
 import type { PageServerLoad } from './$types';
-import { requirePermission } from '$lib/server/guard';
-import { usesFakeSmtp } from '$lib/server/mail';
-import { receivedMail, fakeSmtpPort } from '$lib/server/fake-smtp';
+import { requirePermission } from '$lib/server/people/guard';
+import { usesFakeSmtp } from '$lib/server/platform/mail';
+import { receivedMail, fakeSmtpPort } from '$lib/server/platform/fake-smtp';
 
 export const load: PageServerLoad = () => {
 	if (!usesFakeSmtp()) error(404, 'The mailbox exists only while mail goes to the local catcher.');

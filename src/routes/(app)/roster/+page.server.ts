@@ -1,10 +1,10 @@
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
-import { requirePermission, requireUser } from '$lib/server/guard';
-import { can } from '$lib/server/permissions';
-import { validateForm, failWith } from '$lib/server/forms';
-import { actorOf } from '$lib/server/realtime';
-import * as duty from '$lib/server/duty';
+import { requirePermission, requireUser } from '$lib/server/people/guard';
+import { can } from '$lib/server/people/permissions';
+import { validateForm, failWith } from '$lib/server/platform/forms';
+import { actorOf } from '$lib/server/platform/realtime';
+import * as duty from '$lib/server/duty/paging';
 
 const DAY_MS = 24 * 3600_000;
 

@@ -1,11 +1,11 @@
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
-import { can } from '$lib/server/permissions';
-import { requirePermission, requireUser } from '$lib/server/guard';
-import { validateForm, failWith } from '$lib/server/forms';
-import { actorOf } from '$lib/server/realtime';
-import * as teams from '$lib/server/teams';
-import { listUsers } from '$lib/server/people';
+import { can } from '$lib/server/people/permissions';
+import { requirePermission, requireUser } from '$lib/server/people/guard';
+import { validateForm, failWith } from '$lib/server/platform/forms';
+import { actorOf } from '$lib/server/platform/realtime';
+import * as teams from '$lib/server/people/teams';
+import { listUsers } from '$lib/server/people/people';
 
 export const load: PageServerLoad = ({ locals }) => {
 	requirePermission('teams.view');

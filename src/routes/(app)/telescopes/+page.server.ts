@@ -1,7 +1,7 @@
 import type { PageServerLoad } from './$types';
-import { can } from '$lib/server/permissions';
-import { requirePermission } from '$lib/server/guard';
-import { listTelescopes } from '$lib/server/telescopes';
+import { can } from '$lib/server/people/permissions';
+import { requirePermission } from '$lib/server/people/guard';
+import { listTelescopes } from '$lib/server/people/telescopes';
 
 export const load: PageServerLoad = ({ locals }) => {
 	requirePermission('telescopes.view');

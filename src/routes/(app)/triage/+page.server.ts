@@ -1,9 +1,9 @@
 import type { Actions, PageServerLoad } from './$types';
-import { requirePermission, requireUser } from '$lib/server/guard';
-import { validateForm } from '$lib/server/forms';
-import { actorOf } from '$lib/server/realtime';
-import { listEvents } from '$lib/server/events';
-import { getPolicy, policyForm, policyInput, updatePolicy } from '$lib/server/triage';
+import { requirePermission, requireUser } from '$lib/server/people/guard';
+import { validateForm } from '$lib/server/platform/forms';
+import { actorOf } from '$lib/server/platform/realtime';
+import { listEvents } from '$lib/server/alerts/events';
+import { getPolicy, policyForm, policyInput, updatePolicy } from '$lib/server/alerts/triage-policy';
 import { DEFAULT_TRIAGE_POLICY } from '$lib/alerts/triage';
 
 export const load: PageServerLoad = () => {

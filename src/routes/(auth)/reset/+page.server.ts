@@ -1,7 +1,7 @@
 import { z } from 'zod';
 import type { Actions } from './$types';
-import { validateForm } from '$lib/server/forms';
-import { requestPasswordReset } from '$lib/server/people';
+import { validateForm } from '$lib/server/platform/forms';
+import { requestPasswordReset } from '$lib/server/people/people';
 import { emailField } from '$lib/validation';
 
 export const actions: Actions = {

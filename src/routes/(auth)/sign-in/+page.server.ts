@@ -1,9 +1,9 @@
 import { redirect } from '@sveltejs/kit';
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
-import { validateForm, failWith } from '$lib/server/forms';
-import { signIn } from '$lib/server/sign-in';
-import { startSession, safeNext } from '$lib/server/session-cookie';
+import { validateForm, failWith } from '$lib/server/platform/forms';
+import { signIn } from '$lib/server/people/sign-in';
+import { startSession, safeNext } from '$lib/server/people/session-cookie';
 import { emailField } from '$lib/validation';
 
 export const load: PageServerLoad = ({ locals, url }) => {

@@ -1,6 +1,6 @@
 import { redirect } from '@sveltejs/kit';
 import type { Actions, PageServerLoad } from './$types';
-import { invalidateSession, deleteSessionTokenCookie } from '$lib/server/auth';
+import { invalidateSession, deleteSessionTokenCookie } from '$lib/server/people/auth';
 
 export const load: PageServerLoad = () => redirect(303, '/');
 

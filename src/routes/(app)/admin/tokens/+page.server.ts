@@ -1,11 +1,11 @@
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
-import { requirePermission, requireUser } from '$lib/server/guard';
-import { validateForm, failWith } from '$lib/server/forms';
-import { actorOf } from '$lib/server/realtime';
-import * as tokens from '$lib/server/tokens';
-import { listUsers } from '$lib/server/people';
-import { listTelescopes } from '$lib/server/telescopes';
+import { requirePermission, requireUser } from '$lib/server/people/guard';
+import { validateForm, failWith } from '$lib/server/platform/forms';
+import { actorOf } from '$lib/server/platform/realtime';
+import * as tokens from '$lib/server/people/tokens';
+import { listUsers } from '$lib/server/people/people';
+import { listTelescopes } from '$lib/server/people/telescopes';
 
 export const load: PageServerLoad = () => {
 	requirePermission('tokens.manage');

@@ -1,6 +1,6 @@
 import type { PageServerLoad } from './$types';
-import { requirePermission } from '$lib/server/guard';
-import { MAX_CATALOG_BYTES, REPORTED_REJECTS } from '$lib/server/catalogs';
+import { requirePermission } from '$lib/server/people/guard';
+import { MAX_CATALOG_BYTES, REPORTED_REJECTS } from '$lib/server/targeting/catalogs';
 
 export const load: PageServerLoad = () => {
 	requirePermission('catalogs.manage');

@@ -1,8 +1,8 @@
 import { error, json, redirect } from '@sveltejs/kit';
 import type { RequestHandler } from './$types';
-import { requireUser } from '$lib/server/guard';
-import { actorOf } from '$lib/server/realtime';
-import { CatalogError, importCatalog } from '$lib/server/catalogs';
+import { requireUser } from '$lib/server/people/guard';
+import { actorOf } from '$lib/server/platform/realtime';
+import { CatalogError, importCatalog } from '$lib/server/targeting/catalogs';
 import { CATALOG_FIELDS, type CatalogField } from '$lib/targeting/catalog-csv';
 
 const CSV_TYPES = ['text/csv', 'application/csv', 'text/plain', 'application/octet-stream'];

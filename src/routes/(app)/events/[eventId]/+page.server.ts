@@ -1,15 +1,15 @@
 import { error } from '@sveltejs/kit';
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
-import { requirePermission, requireUser } from '$lib/server/guard';
-import { can } from '$lib/server/permissions';
-import { validateForm, failWith } from '$lib/server/forms';
-import { eventDetail } from '$lib/server/board';
-import * as duty from '$lib/server/duty';
-import { eventCoverage } from '$lib/server/event-coverage';
-import { eventSky } from '$lib/server/event-sky';
-import { listTelescopes } from '$lib/server/telescopes';
-import { isWideField } from '$lib/server/targets';
+import { requirePermission, requireUser } from '$lib/server/people/guard';
+import { can } from '$lib/server/people/permissions';
+import { validateForm, failWith } from '$lib/server/platform/forms';
+import { eventDetail } from '$lib/server/alerts/board';
+import * as duty from '$lib/server/duty/paging';
+import { eventCoverage } from '$lib/server/coordination/event-coverage';
+import { eventSky } from '$lib/server/targeting/event-sky';
+import { listTelescopes } from '$lib/server/people/telescopes';
+import { isWideField } from '$lib/server/targeting/rankings';
 
 export const load: PageServerLoad = ({ params, locals, depends }) => {
 	requirePermission('events.view');

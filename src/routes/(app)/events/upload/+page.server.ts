@@ -1,10 +1,10 @@
 import { fail, redirect } from '@sveltejs/kit';
 import type { Actions, PageServerLoad } from './$types';
-import { requirePermission, requireUser } from '$lib/server/guard';
-import { actorOf } from '$lib/server/realtime';
+import { requirePermission, requireUser } from '$lib/server/people/guard';
+import { actorOf } from '$lib/server/platform/realtime';
 import { submitNotice } from '$lib/server/alerts/service';
-import { saveUpload } from '$lib/server/storage';
-import { config } from '$lib/server/config';
+import { saveUpload } from '$lib/server/platform/storage';
+import { config } from '$lib/server/platform/config';
 import { DEFAULT_MAX_NOTICE_BYTES } from '$lib/alerts/voevent';
 import { readSkyMap } from '$lib/sky';
 

@@ -1,9 +1,9 @@
 import { error } from '@sveltejs/kit';
 import type { Actions, PageServerLoad } from './$types';
-import { requirePermission } from '$lib/server/guard';
-import { listTeams } from '$lib/server/teams';
-import { getTelescope } from '$lib/server/telescopes';
-import { saveTelescope } from '$lib/server/telescope-actions';
+import { requirePermission } from '$lib/server/people/guard';
+import { listTeams } from '$lib/server/people/teams';
+import { getTelescope } from '$lib/server/people/telescopes';
+import { saveTelescope } from '$lib/server/people/telescope-actions';
 
 export const load: PageServerLoad = ({ params }) => {
 	requirePermission('telescopes.manage');

@@ -1,7 +1,7 @@
 import type { Actions, PageServerLoad } from './$types';
-import { requirePermission } from '$lib/server/guard';
-import { listTeams } from '$lib/server/teams';
-import { saveTelescope } from '$lib/server/telescope-actions';
+import { requirePermission } from '$lib/server/people/guard';
+import { listTeams } from '$lib/server/people/teams';
+import { saveTelescope } from '$lib/server/people/telescope-actions';
 
 export const load: PageServerLoad = () => {
 	requirePermission('telescopes.manage');

@@ -1,9 +1,9 @@
 import { redirect } from '@sveltejs/kit';
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
-import { validateForm, failWith } from '$lib/server/forms';
-import * as people from '$lib/server/people';
-import { startSession } from '$lib/server/session-cookie';
+import { validateForm, failWith } from '$lib/server/platform/forms';
+import * as people from '$lib/server/people/people';
+import { startSession } from '$lib/server/people/session-cookie';
 import { nameField, newPasswordField } from '$lib/validation';
 import { ROLE_LABELS } from '$lib/roles';
 

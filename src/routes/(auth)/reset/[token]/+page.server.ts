@@ -1,8 +1,8 @@
 import { redirect } from '@sveltejs/kit';
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
-import { validateForm, failWith } from '$lib/server/forms';
-import * as people from '$lib/server/people';
+import { validateForm, failWith } from '$lib/server/platform/forms';
+import * as people from '$lib/server/people/people';
 import { newPasswordField } from '$lib/validation';
 
 export const load: PageServerLoad = ({ params }) => ({ valid: Boolean(people.findOpenReset(params.token)) });

@@ -1,8 +1,8 @@
 import { json } from '@sveltejs/kit';
-import { apiError, apiRoute } from '$lib/server/api';
-import { requirePermission } from '$lib/server/guard';
-import { listEvents } from '$lib/server/events';
-import { EVENT_STATES } from '$lib/server/db/schema';
+import { apiError, apiRoute } from '$lib/server/platform/api';
+import { requirePermission } from '$lib/server/people/guard';
+import { listEvents } from '$lib/server/alerts/events';
+import { EVENT_STATES } from '$lib/server/platform/db/schema';
 
 /** GET every event, newest first; `?state=active|retracted|closed` narrows the list. */
 export const GET = apiRoute(({ url }) => {

@@ -1,8 +1,8 @@
 import { json } from '@sveltejs/kit';
 import { eq } from 'drizzle-orm';
-import { apiRoute } from '$lib/server/api';
-import { db } from '$lib/server/db';
-import * as table from '$lib/server/db/schema';
+import { apiRoute } from '$lib/server/platform/api';
+import { db } from '$lib/server/platform/db';
+import * as table from '$lib/server/platform/db/schema';
 import { error } from '@sveltejs/kit';
 
 /** Who the request is: a person (cookie or token) or a telescope (its token). */

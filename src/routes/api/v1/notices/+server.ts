@@ -1,7 +1,7 @@
 import { json } from '@sveltejs/kit';
-import { apiError, apiRoute } from '$lib/server/api';
-import { requirePermission } from '$lib/server/guard';
-import { actorOf } from '$lib/server/realtime';
+import { apiError, apiRoute } from '$lib/server/platform/api';
+import { requirePermission } from '$lib/server/people/guard';
+import { actorOf } from '$lib/server/platform/realtime';
 import { submitNotice } from '$lib/server/alerts/service';
 import { DEFAULT_MAX_NOTICE_BYTES } from '$lib/alerts/voevent';
 

@@ -1,7 +1,7 @@
 import { json } from '@sveltejs/kit';
-import { apiError, apiRoute, readJson, reporterOf } from '$lib/server/api';
-import { requirePermission } from '$lib/server/guard';
-import { observationInput, ObservationError, parseObservationCsv, report, reportMany } from '$lib/server/observations';
+import { apiError, apiRoute, readJson, reporterOf } from '$lib/server/platform/api';
+import { requirePermission } from '$lib/server/people/guard';
+import { observationInput, ObservationError, parseObservationCsv, report, reportMany } from '$lib/server/coordination/observations';
 
 const MAX_CSV_BYTES = 1024 * 1024;
 

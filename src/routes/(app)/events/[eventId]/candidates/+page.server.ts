@@ -1,13 +1,13 @@
 import { error } from '@sveltejs/kit';
 import type { Actions, PageServerLoad } from './$types';
-import { requirePermission, requireUser } from '$lib/server/guard';
-import { can } from '$lib/server/permissions';
-import { failWith, formNumber, formText, formUtc } from '$lib/server/forms';
-import { getEvent } from '$lib/server/events';
-import { listTelescopes } from '$lib/server/telescopes';
-import { listTeams } from '$lib/server/teams';
-import { CandidateError, listCandidates, reportCandidate, type CandidateInput } from '$lib/server/candidates';
-import type { SessionUser } from '$lib/server/auth';
+import { requirePermission, requireUser } from '$lib/server/people/guard';
+import { can } from '$lib/server/people/permissions';
+import { failWith, formNumber, formText, formUtc } from '$lib/server/platform/forms';
+import { getEvent } from '$lib/server/alerts/events';
+import { listTelescopes } from '$lib/server/people/telescopes';
+import { listTeams } from '$lib/server/people/teams';
+import { CandidateError, listCandidates, reportCandidate, type CandidateInput } from '$lib/server/candidates/candidates';
+import type { SessionUser } from '$lib/server/people/auth';
 
 /** The telescopes and teams a person may report for (coordinators: all). */
 function choices(user: SessionUser | null) {

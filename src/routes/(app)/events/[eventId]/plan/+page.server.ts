@@ -1,10 +1,10 @@
 import { error } from '@sveltejs/kit';
 import type { PageServerLoad } from './$types';
-import { requirePermission } from '$lib/server/guard';
-import { can } from '$lib/server/permissions';
-import { getEvent } from '$lib/server/events';
-import { targetsMeta } from '$lib/server/targets';
-import { claimTargetId, networkPlan, planCoverage, planStart } from '$lib/server/targets-view';
+import { requirePermission } from '$lib/server/people/guard';
+import { can } from '$lib/server/people/permissions';
+import { getEvent } from '$lib/server/alerts/events';
+import { targetsMeta } from '$lib/server/targeting/rankings';
+import { claimTargetId, networkPlan, planCoverage, planStart } from '$lib/server/targeting/visibility-view';
 
 const SHOWN = 60;
 

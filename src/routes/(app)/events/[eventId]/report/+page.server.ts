@@ -1,12 +1,12 @@
 import { error, fail } from '@sveltejs/kit';
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
-import { requirePermission, requireUser } from '$lib/server/guard';
-import { failWith, formNumber, formText, formUtc } from '$lib/server/forms';
-import { getEvent } from '$lib/server/events';
-import { listTelescopes } from '$lib/server/telescopes';
-import { fieldErrors, ObservationError, parseObservationCsv, report, reportMany, type ObservationInput } from '$lib/server/observations';
-import type { SessionUser } from '$lib/server/auth';
+import { requirePermission, requireUser } from '$lib/server/people/guard';
+import { failWith, formNumber, formText, formUtc } from '$lib/server/platform/forms';
+import { getEvent } from '$lib/server/alerts/events';
+import { listTelescopes } from '$lib/server/people/telescopes';
+import { fieldErrors, ObservationError, parseObservationCsv, report, reportMany, type ObservationInput } from '$lib/server/coordination/observations';
+import type { SessionUser } from '$lib/server/people/auth';
 
 const MAX_CSV_BYTES = 2_000_000;
 

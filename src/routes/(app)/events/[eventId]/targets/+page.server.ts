@@ -1,10 +1,10 @@
 import { error, fail } from '@sveltejs/kit';
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
-import { requirePermission, requireUser } from '$lib/server/guard';
-import * as claims from '$lib/server/claims';
-import { failWith, validateForm } from '$lib/server/forms';
-import { parseTargetQuery, targetsPageData } from '$lib/server/target-filters';
+import { requirePermission, requireUser } from '$lib/server/people/guard';
+import * as claims from '$lib/server/coordination/claims';
+import { failWith, validateForm } from '$lib/server/platform/forms';
+import { parseTargetQuery, targetsPageData } from '$lib/server/targeting/filters';
 
 export const load: PageServerLoad = ({ params, url, depends, locals }) => {
 	requirePermission('events.view');
@@ -37,7 +37,7 @@ function failClaim(e: unknown, target?: string) {
 	throw e;
 }
 
-async function transitionAction(request: Request, act: (user: import('$lib/server/auth').SessionUser, claimId: string) => unknown) {
+async function transitionAction(request: Request, act: (user: import('$lib/server/people/auth').SessionUser, claimId: string) => unknown) {
 	const user = requireUser('claims.create');
 	const parsed = claimIdForm.safeParse(Object.fromEntries(await request.formData()));
 	if (!parsed.success) return fail(400, { message: 'Which claim?', target: null });

@@ -1,9 +1,9 @@
 import { json } from '@sveltejs/kit';
 import { z } from 'zod';
-import { apiError, apiRoute, readJson } from '$lib/server/api';
-import { requirePermission, requireUser } from '$lib/server/guard';
-import { can } from '$lib/server/permissions';
-import { ClaimError, complete, getClaim, reassign, release, start } from '$lib/server/claims';
+import { apiError, apiRoute, readJson } from '$lib/server/platform/api';
+import { requirePermission, requireUser } from '$lib/server/people/guard';
+import { can } from '$lib/server/people/permissions';
+import { ClaimError, complete, getClaim, reassign, release, start } from '$lib/server/coordination/claims';
 
 const change = z.discriminatedUnion('action', [
 	z.object({ action: z.literal('start') }),

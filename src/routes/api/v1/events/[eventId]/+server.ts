@@ -1,7 +1,7 @@
 import { json } from '@sveltejs/kit';
-import { apiError, apiRoute } from '$lib/server/api';
-import { requirePermission } from '$lib/server/guard';
-import { getEvent } from '$lib/server/events';
+import { apiError, apiRoute } from '$lib/server/platform/api';
+import { requirePermission } from '$lib/server/people/guard';
+import { getEvent } from '$lib/server/alerts/events';
 
 /** GET one event: state, classification, latest sky-map summary, triage and notice history. */
 export const GET = apiRoute(({ params }) => {

@@ -1,9 +1,9 @@
 import { error } from '@sveltejs/kit';
 import type { RequestHandler } from './$types';
-import { requirePermission } from '$lib/server/guard';
-import { getEvent } from '$lib/server/events';
-import { getTelescope } from '$lib/server/telescopes';
-import { networkPlan, planStart } from '$lib/server/targets-view';
+import { requirePermission } from '$lib/server/people/guard';
+import { getEvent } from '$lib/server/alerts/events';
+import { getTelescope } from '$lib/server/people/telescopes';
+import { networkPlan, planStart } from '$lib/server/targeting/visibility-view';
 import { observingListCsv, observingListJson } from '$lib/targeting/plan-export';
 
 /** One telescope's observing list from the network plan: `?format=csv` (default) or `json`, `?start=` as on the page. */

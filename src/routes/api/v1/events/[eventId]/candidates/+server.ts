@@ -1,9 +1,9 @@
 import { json } from '@sveltejs/kit';
 import { z } from 'zod';
-import { apiError, apiRoute, readJson, reporterOf } from '$lib/server/api';
-import { eventExists } from '$lib/server/targets-view';
-import { requirePermission } from '$lib/server/guard';
-import { CandidateError, listCandidates, reportCandidate, type CandidateInput } from '$lib/server/candidates';
+import { apiError, apiRoute, readJson, reporterOf } from '$lib/server/platform/api';
+import { eventExists } from '$lib/server/targeting/visibility-view';
+import { requirePermission } from '$lib/server/people/guard';
+import { CandidateError, listCandidates, reportCandidate, type CandidateInput } from '$lib/server/candidates/candidates';
 
 /** GET the event's candidates, newest report first: `{ candidates: [...] }`. */
 export const GET = apiRoute(({ params }) => {

@@ -1,11 +1,11 @@
 import { json } from '@sveltejs/kit';
 import { eq } from 'drizzle-orm';
 import { z } from 'zod';
-import { apiError, apiRoute, readJson } from '$lib/server/api';
-import { requirePermission, requireUser } from '$lib/server/guard';
-import { db } from '$lib/server/db';
-import * as table from '$lib/server/db/schema';
-import { claim, ClaimError, listClaims } from '$lib/server/claims';
+import { apiError, apiRoute, readJson } from '$lib/server/platform/api';
+import { requirePermission, requireUser } from '$lib/server/people/guard';
+import { db } from '$lib/server/platform/db';
+import * as table from '$lib/server/platform/db/schema';
+import { claim, ClaimError, listClaims } from '$lib/server/coordination/claims';
 
 const claimBody = z.object({
 	targetKind: z.enum(table.CLAIM_TARGET_KINDS),

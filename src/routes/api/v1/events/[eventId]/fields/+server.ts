@@ -1,10 +1,10 @@
 import { json } from '@sveltejs/kit';
 import { eq } from 'drizzle-orm';
-import { apiError, apiRoute } from '$lib/server/api';
-import { requirePermission } from '$lib/server/guard';
-import { db } from '$lib/server/db';
-import * as table from '$lib/server/db/schema';
-import { fieldsResponse } from '$lib/server/targets';
+import { apiError, apiRoute } from '$lib/server/platform/api';
+import { requirePermission } from '$lib/server/people/guard';
+import { db } from '$lib/server/platform/db';
+import * as table from '$lib/server/platform/db/schema';
+import { fieldsResponse } from '$lib/server/targeting/rankings';
 
 /** GET the ranked survey fields of an event, for one telescope (`?telescope=ID`) or every wide-field one. */
 export const GET = apiRoute(({ params, url }) => {

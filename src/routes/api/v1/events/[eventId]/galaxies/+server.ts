@@ -1,10 +1,10 @@
 import { json } from '@sveltejs/kit';
 import { eq } from 'drizzle-orm';
-import { apiError, apiRoute } from '$lib/server/api';
-import { requirePermission } from '$lib/server/guard';
-import { db } from '$lib/server/db';
-import * as table from '$lib/server/db/schema';
-import { galaxiesResponse, STORED_GALAXIES } from '$lib/server/targets';
+import { apiError, apiRoute } from '$lib/server/platform/api';
+import { requirePermission } from '$lib/server/people/guard';
+import { db } from '$lib/server/platform/db';
+import * as table from '$lib/server/platform/db/schema';
+import { galaxiesResponse, STORED_GALAXIES } from '$lib/server/targeting/rankings';
 
 /** GET the ranked galaxies of an event's current sky map: `{ galaxies: [{ rank, galaxyId, name, ra, dec, distance, score, probability, cumulative }] }`. */
 export const GET = apiRoute(({ params, url }) => {

@@ -1,0 +1,143 @@
+/**
+ * What the board and the event page show of an event: its latest state, sky-map summary,
+ * notice history and acknowledgement, shaped for the page (plain, serialisable values).
+ */
+import { and, asc, desc, eq, gt, inArray, or, sql } from 'drizzle-orm';
+import { db } from '../platform/db';
+import * as table from '../platform/db/schema';
+import { ackState, escalateAfterMin, pagesFor, type PageView } from '../duty/paging';
+import type { AckView, EventDetail, EventView, PageRow, SkymapView } from '../../event-view';
+
+export type { AckView, EventView, NoticeView, PageRow, SkymapView } from '../../event-view';
+
+/** Retracted events stay on the board this long, so that everyone sees the retraction. */
+export const RETRACTED_VISIBLE_MS = 24 * 3600_000;
+
+const iso = (d: Date | null | undefined) => (d ? d.toISOString() : null);
+
+function skymapView(row: table.Skymap | undefined): SkymapView | null {
+	if (!row) return null;
+	const s = row.summary;
+	return {
+		noticeId: row.noticeId,
+		area50Deg2: s?.area50 ?? null,
+		area90Deg2: s?.area90 ?? null,
+		area99Deg2: s?.area99 ?? null,
+		distanceMeanMpc: s?.distanceMean ?? null,
+		distanceStdMpc: s?.distanceStd ?? null,
+		peak: s?.peak ? { raDeg: s.peak.ra, decDeg: s.peak.dec } : null,
+		warnings: s?.warnings ?? [],
+		error: row.error
+	};
+}
+
+function pageRow(p: PageView): PageRow {
+	return {
+		id: p.id,
+		noticeId: p.noticeId,
+		level: p.level,
+		to: p.to,
+		sentAt: p.sentAt.toISOString(),
+		escalatedAt: iso(p.escalatedAt),
+		acknowledgedAt: iso(p.acknowledgedAt),
+		acknowledgedBy: p.acknowledgedBy,
+		latencyS: p.latencyS
+	};
+}
+
+function ackView(pages: PageView[]): AckView {
+	const a = ackState(pages);
+	return { ...a, openSince: iso(a.openSince), acknowledgedAt: iso(a.acknowledgedAt) };
+}
+
+function views(events: table.GwEvent[]): { views: EventView[]; pages: Map<string, PageView[]> } {
+	const ids = events.map((e) => e.id);
+	if (ids.length === 0) return { views: [], pages: new Map() };
+	const notices = db
+		.select({ notice: table.notice, receivedAt: table.noticeInbox.receivedAt })
+		.from(table.notice)
+		.leftJoin(table.noticeInbox, eq(table.noticeInbox.id, table.notice.inboxId))
+		.where(inArray(table.notice.eventId, ids))
+		.orderBy(asc(table.notice.authoredAt))
+		.all();
+	const maps = db.select().from(table.skymap).where(inArray(table.skymap.eventId, ids)).orderBy(asc(table.skymap.createdAt)).all();
+	const mapByNotice = new Map<string, table.Skymap>();
+	for (const m of maps) mapByNotice.set(m.noticeId, m);
+	const mapById = new Map(maps.map((m) => [m.id, m]));
+	const pages = pagesFor(ids);
+	const out = events.map((e): EventView => {
+		// The map in force: the event's latest analysed map; a failed map for the latest notice is shown as such.
+		const latestMap = e.latestSkymapId ? mapById.get(e.latestSkymapId) : undefined;
+		const latestNoticeMap = e.latestNoticeId ? mapByNotice.get(e.latestNoticeId) : undefined;
+		const current = skymapView(latestMap ?? latestNoticeMap);
+		if (current && latestNoticeMap?.error && latestNoticeMap !== latestMap) current.error = latestNoticeMap.error;
+		return {
+			id: e.id,
+			sourceEventId: e.sourceEventId,
+			state: e.state,
+			role: e.role,
+			eventTime: iso(e.eventTime),
+			createdAt: e.createdAt.toISOString(),
+			retractedAt: iso(e.retractedAt),
+			latestKind: e.latestKind,
+			farHz: e.farHz,
+			classification: e.classification,
+			properties: e.properties,
+			triage: e.triage,
+			skymap: current,
+			notices: notices
+				.filter((n) => n.notice.eventId === e.id)
+				.map(({ notice: n, receivedAt }) => {
+					const m = mapByNotice.get(n.id);
+					return {
+						id: n.id,
+						kind: n.kind,
+						role: n.role,
+						authoredAt: n.authoredAt.toISOString(),
+						receivedAt: iso(receivedAt),
+						farHz: n.farHz,
+						classification: n.classification,
+						area90Deg2: m?.summary?.area90 ?? null,
+						skymapError: m?.error ?? null
+					};
+				}),
+			ack: ackView(pages.get(e.id) ?? [])
+		};
+	});
+	return { views: out, pages };
+}
+
+/**
+ * Events on the board: every active one and those retracted within the last day, newest merger
+ * first (events without a merger time by when they arrived).
+ */
+export function boardEvents(now = new Date()): EventView[] {
+	const rows = db
+		.select()
+		.from(table.gwEvent)
+		.where(
+			or(
+				eq(table.gwEvent.state, 'active'),
+				and(eq(table.gwEvent.state, 'retracted'), gt(table.gwEvent.retractedAt, new Date(now.getTime() - RETRACTED_VISIBLE_MS)))
+			)
+		)
+		.orderBy(desc(sql`coalesce(${table.gwEvent.eventTime}, ${table.gwEvent.createdAt})`), desc(table.gwEvent.createdAt))
+		.limit(50)
+		.all();
+	return views(rows).views;
+}
+
+/** Everything known about one event, or null when there is no such event. */
+export function eventDetail(eventId: string): EventDetail | null {
+	const row = db.select().from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
+	if (!row) return null;
+	const { views: [view], pages } = views([row]);
+	const skymaps = db
+		.select()
+		.from(table.skymap)
+		.where(eq(table.skymap.eventId, eventId))
+		.orderBy(asc(table.skymap.createdAt))
+		.all()
+		.map((m) => ({ ...skymapView(m)!, id: m.id, createdAt: m.createdAt.toISOString() }));
+	return { ...view, pages: (pages.get(eventId) ?? []).map(pageRow), escalateAfterMin: escalateAfterMin(), skymaps };
+}

@@ -1,0 +1,312 @@
+/**
+ * Reported observations: pointings a team made (by form, CSV upload, or a robotic telescope's
+ * token). Each pointing completes the reporting telescope's open claims it covers: galaxy
+ * claims whose galaxy lies inside the telescope's footprint centred on the pointing, and field
+ * claims whose field centre lies inside it.
+ */
+import { and, eq, inArray } from 'drizzle-orm';
+import { z } from 'zod';
+import { db } from '../platform/db';
+import * as table from '../platform/db/schema';
+import { randomId, type SessionUser } from '../people/auth';
+import { actorOf, record, type Actor } from '../platform/realtime';
+import { footprintContains, footprintGeometry, type FootprintShape } from '../../targeting/sky-geometry.ts';
+import { splitCsvLine } from '../../csv';
+import { DomainError } from '../platform/errors';
+
+const MIN = 60_000;
+const DAY = 24 * 60 * MIN;
+
+export class ObservationError extends DomainError {}
+
+/** One pointing as reported; either (raDeg, decDeg) or fieldId must be given. */
+const pointingShape = z.object({
+		eventId: z.string().min(1).max(80),
+		telescopeId: z.string().min(1).max(80).optional(),
+		observedAt: z.iso.datetime({ offset: true, message: 'observedAt must be an ISO 8601 time, e.g. 2026-12-02T03:04:05Z' }),
+		raDeg: z.number().min(0, 'RA must be in [0, 360)').lt(360, 'RA must be in [0, 360)').optional(),
+		decDeg: z.number().min(-90, 'Dec must be in [−90, 90]').max(90, 'Dec must be in [−90, 90]').optional(),
+		fieldId: z.string().min(1).max(80).optional(),
+		filter: z.string().min(1).max(20),
+		exposureS: z.number().gt(0, 'exposure must be > 0 s').max(86_400),
+		limitingMag: z.number().min(5, 'limiting magnitude must be 5–30').max(30, 'limiting magnitude must be 5–30'),
+		seeingArcsec: z.number().gt(0, 'seeing must be in (0, 20] arcsec').max(20, 'seeing must be in (0, 20] arcsec').optional(),
+		notes: z.string().max(2000).optional()
+	});
+export const observationInput = pointingShape.refine((o) => (o.raDeg !== undefined && o.decDeg !== undefined) || o.fieldId !== undefined, {
+		message: 'give raDeg and decDeg, or fieldId',
+		path: ['raDeg']
+	});
+export type ObservationInput = z.infer<typeof observationInput>;
+
+/** Who reports: a person (observer of the telescope's team, or a coordinator) or a telescope token. */
+export type Reporter = { user: SessionUser; telescopeId?: null; tokenId?: null } | { user: null; telescopeId: string; tokenId: string | null };
+
+function fovOf(t: table.Telescope): FootprintShape {
+	return t.fovShape === 'circle' ? { shape: 'circle', diameterDeg: t.fovWidthDeg } : { shape: 'rectangle', widthDeg: t.fovWidthDeg, heightDeg: t.fovHeightDeg };
+}
+
+export interface ReportResult {
+	observation: table.Observation;
+	completedClaimIds: string[];
+}
+
+/**
+ * Store one pointing and complete the open claims it covers. Validation beyond the schema:
+ * the time is at most 5 minutes ahead of `now` and no earlier than the event time − 1 day; the
+ * filter is one of the telescope's (compared case-sensitively, since 'r' and 'R' are different
+ * bands in common practice).
+ */
+export function report(reporter: Reporter, raw: ObservationInput, source: table.Observation['source'], now = new Date()): ReportResult {
+	return store(reporter, prepare(reporter, raw, now), source, now);
+}
+
+/**
+ * Store several pointings (a CSV upload) all or nothing: every row is validated first, and a
+ * single bad row stores none, with each problem numbered by its CSV line (`lines[i]`).
+ */
+export function reportMany(
+	reporter: Reporter,
+	inputs: ObservationInput[],
+	source: table.Observation['source'],
+	o: { lines?: number[]; now?: Date } = {}
+): { results: ReportResult[]; errors: { line: number; message: string }[] } {
+	const now = o.now ?? new Date();
+	const errors: { line: number; message: string }[] = [];
+	const prepared: Prepared[] = [];
+	inputs.forEach((raw, i) => {
+		try {
+			prepared.push(prepare(reporter, raw, now));
+		} catch (e) {
+			const message = e instanceof z.ZodError ? Object.entries(fieldErrors(e)).map(([k, v]) => `${k}: ${v}`).join('; ') : (e as Error).message;
+			errors.push({ line: o.lines?.[i] ?? i + 1, message });
+		}
+	});
+	if (errors.length) return { results: [], errors };
+	return { results: prepared.map((p) => store(reporter, p, source, now)), errors: [] };
+}
+
+interface Prepared {
+	input: ObservationInput;
+	scope: table.Telescope;
+	event: table.GwEvent;
+	raDeg: number;
+	decDeg: number;
+	observedAt: Date;
+}
+
+/** Validate one pointing against its telescope and event; throws ObservationError. */
+function prepare(reporter: Reporter, raw: ObservationInput, now: Date): Prepared {
+	const input = observationInput.parse(raw);
+	const telescopeId = reporter.user ? input.telescopeId : reporter.telescopeId;
+	if (!telescopeId) throw new ObservationError(422, 'invalid', 'telescopeId: required when a person reports', { telescopeId: 'required' });
+	if (!reporter.user && input.telescopeId && input.telescopeId !== reporter.telescopeId)
+		throw new ObservationError(403, 'forbidden', "A telescope token reports for its own telescope only.");
+	const scope = db.select().from(table.telescope).where(eq(table.telescope.id, telescopeId)).get();
+	if (!scope) throw new ObservationError(404, 'not_found', `No telescope ${telescopeId}.`);
+	if (reporter.user && !reporter.user.roles.includes('coordinator') && !reporter.user.teamIds.includes(scope.teamId))
+		throw new ObservationError(403, 'forbidden', `Telescope ${scope.name} belongs to a team you are not a member of.`);
+	const event = db.select().from(table.gwEvent).where(eq(table.gwEvent.id, input.eventId)).get();
+	if (!event) throw new ObservationError(404, 'not_found', `No event ${input.eventId}.`);
+
+	const fields: Record<string, string> = {};
+	const observedAt = new Date(input.observedAt);
+	if (observedAt.getTime() > now.getTime() + 5 * MIN) fields.observedAt = 'observedAt is more than 5 minutes in the future';
+	const eventTime = event.eventTime ?? event.createdAt;
+	if (observedAt.getTime() < eventTime.getTime() - DAY) fields.observedAt = 'observedAt is more than 1 day before the event';
+	if (!scope.filters.includes(input.filter))
+		fields.filter = `filter "${input.filter}" is not one of ${scope.name}'s filters (${scope.filters.join(', ')}; case-sensitive)`;
+
+	let raDeg = input.raDeg;
+	let decDeg = input.decDeg;
+	if (raDeg === undefined || decDeg === undefined) {
+		const f = db
+			.select({ raDeg: table.eventField.raDeg, decDeg: table.eventField.decDeg })
+			.from(table.eventField)
+			.where(and(eq(table.eventField.eventId, event.id), eq(table.eventField.telescopeId, scope.id), eq(table.eventField.fieldId, input.fieldId!)))
+			.get();
+		if (!f) fields.fieldId = `field ${input.fieldId} is not among this event's fields for ${scope.name}; give raDeg/decDeg`;
+		else ({ raDeg, decDeg } = f);
+	}
+	if (Object.keys(fields).length)
+		throw new ObservationError(
+			422,
+			'invalid',
+			Object.entries(fields)
+				.map(([k, v]) => `${k}: ${v}`)
+				.join('; '),
+			fields
+		);
+
+	return { input, scope, event, raDeg: raDeg!, decDeg: decDeg!, observedAt };
+}
+
+function store(reporter: Reporter, p: Prepared, source: table.Observation['source'], now: Date): ReportResult {
+	const { input, scope, event, raDeg, decDeg, observedAt } = p;
+	const footprint = footprintGeometry({ raDeg, decDeg, ...fovOf(scope) });
+	const open = db
+		.select()
+		.from(table.claim)
+		.where(and(eq(table.claim.eventId, event.id), eq(table.claim.telescopeId, scope.id), inArray(table.claim.state, [...table.OPEN_CLAIM_STATES])))
+		.all()
+		.filter((c) => c.filter === '' || c.filter === input.filter);
+	const galaxyIds = open.filter((c) => c.targetKind === 'galaxy').map((c) => Number(c.targetId));
+	const galaxyPos = new Map(
+		galaxyIds.length
+			? db
+					.select({ id: table.galaxy.id, raDeg: table.galaxy.raDeg, decDeg: table.galaxy.decDeg })
+					.from(table.galaxy)
+					.where(inArray(table.galaxy.id, galaxyIds))
+					.all()
+					.map((g) => [String(g.id), g] as const)
+			: []
+	);
+	const fieldIds = open.filter((c) => c.targetKind === 'field').map((c) => c.targetId);
+	const fieldPos = new Map(
+		fieldIds.length
+			? db
+					.select({ id: table.eventField.fieldId, raDeg: table.eventField.raDeg, decDeg: table.eventField.decDeg })
+					.from(table.eventField)
+					.where(and(eq(table.eventField.eventId, event.id), inArray(table.eventField.fieldId, fieldIds)))
+					.all()
+					.map((f) => [f.id, f] as const)
+			: []
+	);
+	const covered = open.filter((c) => {
+		if (c.targetKind === 'field' && input.fieldId === c.targetId) return true;
+		const p = c.targetKind === 'galaxy' ? galaxyPos.get(c.targetId) : fieldPos.get(c.targetId);
+		return p ? footprintContains(footprint, p.raDeg, p.decDeg) : false;
+	});
+
+	const { row, done } = db.transaction((tx) => {
+		const done: table.Claim[] = [];
+		for (const c of covered) {
+			const u = tx
+				.update(table.claim)
+				.set({ state: 'done', doneAt: now })
+				.where(and(eq(table.claim.id, c.id), inArray(table.claim.state, [...table.OPEN_CLAIM_STATES])))
+				.returning()
+				.get();
+			if (u) done.push(u);
+		}
+		const row = tx
+			.insert(table.observation)
+			.values({
+				id: randomId(),
+				eventId: event.id,
+				telescopeId: scope.id,
+				teamId: scope.teamId,
+				reportedByUserId: reporter.user?.id ?? null,
+				reportedByTokenId: reporter.user ? null : reporter.tokenId,
+				observedAt,
+				raDeg,
+				decDeg,
+				fieldId: input.fieldId ?? null,
+				filter: input.filter,
+				exposureS: input.exposureS,
+				limitingMag: input.limitingMag,
+				seeingArcsec: input.seeingArcsec ?? null,
+				notes: input.notes ?? '',
+				source,
+				claimId: done[0]?.id ?? null
+			})
+			.returning()
+			.get();
+		return { row, done };
+	});
+
+	const actor: Actor = reporter.user ? actorOf(reporter.user) : { userId: null, label: `telescope ${scope.name}` };
+	const room = `event:${event.id}` as const;
+	for (const c of done) record(actor, 'claim.done', room, { claimId: c.id, eventId: c.eventId, targetKind: c.targetKind, targetId: c.targetId, telescopeId: c.telescopeId, teamId: c.teamId, state: c.state, observationId: row.id });
+	record(actor, 'observation.reported', room, {
+		observationId: row.id,
+		eventId: event.id,
+		telescopeId: scope.id,
+		teamId: scope.teamId,
+		source,
+		raDeg: row.raDeg,
+		decDeg: row.decDeg,
+		fieldId: row.fieldId,
+		filter: row.filter,
+		exposureS: row.exposureS,
+		limitingMag: row.limitingMag,
+		completedClaimIds: done.map((c) => c.id)
+	});
+	return { observation: row, completedClaimIds: done.map((c) => c.id) };
+}
+
+/** Zod issues → `{ field: message }`, first message per field. */
+export function fieldErrors(e: z.ZodError): Record<string, string> {
+	const out: Record<string, string> = {};
+	for (const i of e.issues) out[i.path.join('.') || 'body'] ??= i.message;
+	return out;
+}
+
+const CSV_COLUMNS = ['observed_at', 'ra_deg', 'dec_deg', 'field_id', 'filter', 'exposure_s', 'limiting_mag', 'seeing_arcsec', 'notes'] as const;
+const REQUIRED_COLUMNS = ['observed_at', 'filter', 'exposure_s', 'limiting_mag'] as const;
+
+export type CsvPointing = Omit<ObservationInput, 'eventId' | 'telescopeId'>;
+
+/**
+ * Parse an uploaded CSV of pointings. Header names (any order): observed_at, ra_deg, dec_deg,
+ * field_id, filter, exposure_s, limiting_mag, seeing_arcsec, notes. All or nothing: any bad row
+ * returns every error with its 1-based line number and no rows.
+ */
+export function parseObservationCsv(
+	text: string
+): { rows: CsvPointing[]; lines: number[]; errors: [] } | { rows: []; lines: []; errors: { line: number; message: string }[] } {
+	const lines = text.replace(/^\uFEFF/, '').split(/\r?\n/);
+	const errors: { line: number; message: string }[] = [];
+	const header = splitCsvLine(lines[0] ?? '')?.map((h) => h.toLowerCase()) ?? [];
+	for (const h of header) if (!(CSV_COLUMNS as readonly string[]).includes(h)) errors.push({ line: 1, message: `unknown column "${h}" (known: ${CSV_COLUMNS.join(', ')})` });
+	for (const r of REQUIRED_COLUMNS) if (!header.includes(r)) errors.push({ line: 1, message: `missing column "${r}"` });
+	if (errors.length) return { rows: [], lines: [], errors };
+	const rows: CsvPointing[] = [];
+	const rowLines: number[] = [];
+	const schema = pointingShape.omit({ eventId: true, telescopeId: true });
+	for (let n = 1; n < lines.length; n++) {
+		if (lines[n].trim() === '') continue;
+		const cells = splitCsvLine(lines[n]);
+		if (!cells) {
+			errors.push({ line: n + 1, message: 'unterminated quote' });
+			continue;
+		}
+		if (cells.length !== header.length) {
+			errors.push({ line: n + 1, message: `${cells.length} cells, header has ${header.length}` });
+			continue;
+		}
+		const get = (c: string) => {
+			const v = cells[header.indexOf(c)];
+			return v === undefined || v === '' ? undefined : v;
+		};
+		const num = (c: string) => {
+			const v = get(c);
+			return v === undefined ? undefined : Number(v);
+		};
+		const candidate = {
+			observedAt: get('observed_at'),
+			raDeg: num('ra_deg'),
+			decDeg: num('dec_deg'),
+			fieldId: get('field_id'),
+			filter: get('filter'),
+			exposureS: num('exposure_s'),
+			limitingMag: num('limiting_mag'),
+			seeingArcsec: num('seeing_arcsec'),
+			notes: get('notes')
+		};
+		const parsed = schema.safeParse(candidate);
+		if (!parsed.success) {
+			for (const [k, v] of Object.entries(fieldErrors(parsed.error))) errors.push({ line: n + 1, message: `${k}: ${v}` });
+			continue;
+		}
+		if ((parsed.data.raDeg === undefined || parsed.data.decDeg === undefined) && !parsed.data.fieldId) {
+			errors.push({ line: n + 1, message: 'give ra_deg and dec_deg, or field_id' });
+			continue;
+		}
+		rows.push(parsed.data);
+		rowLines.push(n + 1);
+	}
+	if (errors.length) return { rows: [], lines: [], errors };
+	if (rows.length === 0) return { rows: [], lines: [], errors: [{ line: 1, message: 'no data rows' }] };
+	return { rows, lines: rowLines, errors: [] };
+}

@@ -1,0 +1,56 @@
+import { describe, expect, it } from 'vitest';
+import { can, PERMISSIONS, type Permission } from './permissions';
+import { ROLES, type Role } from '../platform/db/schema';
+
+const person = (...roles: Role[]) => ({ user: { id: 'u', email: 'u@x.test', name: 'U', roles, teamIds: [] } });
+
+describe('permissions table', () => {
+	it('lets every role see the board and manage its own account', () => {
+		for (const r of ROLES) {
+			expect(can(person(r), 'board.view')).toBe(true);
+			expect(can(person(r), 'account.manage')).toBe(true);
+		}
+	});
+	it('keeps administration to admins and coordinators', () => {
+		const expected: Record<Permission, Role[]> = {
+			'board.view': [...ROLES],
+			'events.view': [...ROLES],
+			'telescopes.view': [...ROLES],
+			'teams.view': [...ROLES],
+			'account.manage': [...ROLES],
+			'admin.view': ['admin', 'coordinator'],
+			'people.invite': ['admin', 'coordinator'],
+			'people.manage': ['admin'],
+			'teams.manage': ['admin', 'coordinator'],
+			'telescopes.manage': ['admin', 'coordinator'],
+			'tokens.manage': ['admin'],
+			'mailbox.view': ['admin', 'coordinator'],
+			'notices.submit': ['admin', 'coordinator', 'duty'],
+			'events.acknowledge': ['duty', 'coordinator'],
+			'triage.manage': ['admin', 'coordinator'],
+			'shifts.manage': ['admin', 'coordinator'],
+			'catalogs.manage': ['admin', 'coordinator'],
+			'claims.create': ['observer', 'coordinator'],
+			'claims.manage': ['coordinator'],
+			'observations.report': ['observer', 'coordinator'],
+			'candidates.report': ['observer', 'coordinator']
+		};
+		expect(Object.keys(PERMISSIONS).sort()).toEqual(Object.keys(expected).sort());
+		for (const [perm, roles] of Object.entries(expected) as [Permission, Role[]][]) {
+			for (const r of ROLES) expect(can(person(r), perm), `${r} → ${perm}`).toBe(roles.includes(r));
+		}
+	});
+	it('grants the union of several roles', () => {
+		expect(can(person('viewer', 'coordinator'), 'people.invite')).toBe(true);
+		expect(can(person('viewer', 'observer'), 'people.invite')).toBe(false);
+	});
+	it('gives nothing to nobody, and nothing to a telescope token outside robot actions', () => {
+		expect(can(null, 'board.view')).toBe(false);
+		expect(can({ user: null }, 'board.view')).toBe(false);
+		expect(can({ user: null, telescopeId: 't1' }, 'people.invite')).toBe(false);
+		expect(can({ user: null, telescopeId: 't1' }, 'claims.create')).toBe(false);
+		expect(can({ user: null, telescopeId: 't1' }, 'observations.report')).toBe(true);
+		expect(can({ user: null, telescopeId: 't1' }, 'candidates.report')).toBe(true);
+		expect(can({ user: null, telescopeId: null }, 'candidates.report')).toBe(false);
+	});
+});

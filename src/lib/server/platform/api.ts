@@ -1,0 +1,72 @@
+import { isHttpError, json, type RequestEvent, type RequestHandler } from '@sveltejs/kit';
+import type { z } from 'zod';
+import { and, eq, isNull } from 'drizzle-orm';
+import { db } from './db';
+import * as table from './db/schema';
+import { hashToken, type SessionUser } from '../people/auth';
+
+/** The API's error body: `{ error: { code, message } }`. */
+export function apiError(status: number, code: string, message: string, details?: unknown) {
+	return json({ error: { code, message, ...(details ? { details } : {}) } }, { status });
+}
+
+const CODES: Record<number, string> = {
+	400: 'bad_request',
+	401: 'unauthenticated',
+	403: 'forbidden',
+	404: 'not_found',
+	409: 'conflict',
+	413: 'too_large',
+	415: 'unsupported_media_type',
+	422: 'invalid'
+};
+
+/** Wrap a `+server.ts` handler so expected failures come out in the API's error shape. */
+export function apiRoute(handler: (event: RequestEvent) => Promise<Response> | Response): RequestHandler {
+	return async (event) => {
+		try {
+			return await handler(event);
+		} catch (e) {
+			if (isHttpError(e)) return apiError(e.status, CODES[e.status] ?? 'error', e.body.message);
+			throw e;
+		}
+	};
+}
+
+/** Parse a JSON body against a schema, or answer 400/422 with the field problems. */
+export async function readJson<S extends z.ZodType>(request: Request, schema: S, maxBytes = 256 * 1024) {
+	const text = await request.text();
+	if (text.length > maxBytes) return { response: apiError(413, 'too_large', `Body over ${maxBytes} bytes.`) };
+	let body: unknown;
+	try {
+		body = JSON.parse(text);
+	} catch {
+		return { response: apiError(400, 'bad_json', 'The body is not valid JSON.') };
+	}
+	const parsed = schema.safeParse(body);
+	if (!parsed.success)
+		return {
+			response: apiError(
+				422,
+				'invalid',
+				parsed.error.issues.map((i) => `${i.path.join('.') || 'body'}: ${i.message}`).join('; '),
+				parsed.error.issues
+			)
+		};
+	return { data: parsed.data as z.infer<S> };
+}
+
+/** Who reports through the API: a person, or a robotic telescope by its own token (recorded by token id). */
+export type ApiReporter = { user: SessionUser; telescopeId?: null; tokenId?: null } | { user: null; telescopeId: string; tokenId: string | null };
+
+export function reporterOf(principal: { user: SessionUser | null; telescopeId?: string | null }, request: Request): ApiReporter {
+	if (principal.user) return { user: principal.user };
+	// The hook resolved the telescope; the token row is looked up again only to record who reported.
+	const secret = (request.headers.get('authorization') ?? '').slice(7).trim();
+	const token = db
+		.select({ id: table.apiToken.id })
+		.from(table.apiToken)
+		.where(and(eq(table.apiToken.tokenHash, hashToken(secret)), isNull(table.apiToken.revokedAt)))
+		.get();
+	return { user: null, telescopeId: principal.telescopeId!, tokenId: token?.id ?? null };
+}

@@ -1,0 +1,269 @@
+import type { Socket } from 'socket.io';
+import { and, asc, gt, inArray } from 'drizzle-orm';
+import { parse as parseCookie } from 'cookie';
+import { db } from './db';
+import * as table from './db/schema';
+import { realtimeSlot } from './socket-host.js';
+import { SESSION_COOKIE, validateSessionToken, validateApiToken, type SessionUser } from '../people/auth';
+import { can } from '../people/permissions';
+
+/** Rooms: the board (everything of interest to every signed-in client) or one event. */
+export type Room = 'board' | `event:${string}`;
+
+/** Every live message is an event-log entry; `seq` lets a client catch up after reconnecting. */
+export interface LiveMessage<T extends Record<string, unknown> = Record<string, unknown>> {
+	seq: number;
+	room: Room;
+	type: string;
+	actor: string;
+	payload: T;
+	at: string;
+}
+
+export interface Actor {
+	userId: string | null;
+	label: string;
+}
+
+export const SYSTEM: Actor = { userId: null, label: 'system' };
+
+export function actorOf(user: SessionUser | null, fallback = 'system'): Actor {
+	return user ? { userId: user.id, label: user.name } : { userId: null, label: fallback };
+}
+
+const CATCH_UP_LIMIT = 2000;
+
+function toMessage(row: table.EventLogEntry): LiveMessage {
+	return {
+		seq: row.seq,
+		room: row.room as Room,
+		type: row.action,
+		actor: row.actorLabel,
+		payload: row.payload,
+		at: row.createdAt.toISOString()
+	};
+}
+
+/** Emit a message already written to the event log to every client in its room. */
+export function publish(message: LiveMessage): void {
+	const io = realtimeSlot().io;
+	if (!io) return;
+	io.of('/live').to(message.room).emit('live', message);
+}
+
+type RecordedListener = (message: LiveMessage) => void;
+const recordedListeners = new Set<RecordedListener>();
+
+/**
+ * Server-side reaction to logged actions (e.g. paging the duty scientist when a significant
+ * notice has been processed). Listeners run after the broadcast; an exception in one is logged
+ * and does not stop the others. Returns the function that removes the listener.
+ */
+export function onRecorded(listener: RecordedListener): () => void {
+	recordedListeners.add(listener);
+	return () => recordedListeners.delete(listener);
+}
+
+/**
+ * Write an action to the event log and broadcast it. Call after the change itself has been
+ * committed so that no client hears of something the database does not hold.
+ */
+export function record(actor: Actor, action: string, room: Room, payload: Record<string, unknown>): LiveMessage {
+	const row = db
+		.insert(table.eventLog)
+		.values({ actorUserId: actor.userId, actorLabel: actor.label, action, room, payload })
+		.returning()
+		.get();
+	const message = toMessage(row);
+	publish(message);
+	for (const listener of recordedListeners) {
+		try {
+			listener(message);
+		} catch (e) {
+			console.error(`listener for ${action} failed`, e);
+		}
+	}
+	return message;
+}
+
+/** What a client missed in its rooms since `sinceSeq`, oldest first. */
+export function missedSince(rooms: Room[], sinceSeq: number): LiveMessage[] {
+	if (rooms.length === 0) return [];
+	return db
+		.select()
+		.from(table.eventLog)
+		.where(and(inArray(table.eventLog.room, rooms), gt(table.eventLog.seq, sinceSeq)))
+		.orderBy(asc(table.eventLog.seq))
+		.limit(CATCH_UP_LIMIT)
+		.all()
+		.map(toMessage);
+}
+
+function bearerOf(socket: Socket): string | null {
+	const fromAuth = (socket.handshake.auth as { token?: unknown } | undefined)?.token;
+	if (typeof fromAuth === 'string' && fromAuth) return fromAuth;
+	const header = socket.handshake.headers.authorization;
+	if (header?.startsWith('Bearer ')) return header.slice(7).trim();
+	return null;
+}
+
+async function authenticate(socket: Socket): Promise<void> {
+	const cookies = parseCookie(socket.handshake.headers.cookie ?? '');
+	const sessionToken = cookies[SESSION_COOKIE];
+	if (sessionToken) {
+		const { user } = validateSessionToken(sessionToken);
+		if (user) {
+			socket.data.user = user;
+			return;
+		}
+	}
+	const bearer = bearerOf(socket);
+	if (bearer) {
+		const principal = validateApiToken(bearer);
+		if (principal) {
+			socket.data.user = principal.user;
+			socket.data.telescopeId = principal.telescopeId;
+			return;
+		}
+	}
+	throw new Error('unauthorised: sign in or present a valid token');
+}
+
+interface SubscribeRequest {
+	rooms?: unknown;
+	since?: unknown;
+}
+
+function onConnection(socket: Socket): void {
+	const principal = { user: (socket.data.user as SessionUser | null) ?? null, telescopeId: socket.data.telescopeId ?? null };
+	if (!can(principal, 'board.view')) {
+		socket.disconnect(true);
+		return;
+	}
+	socket.join('board');
+	socket.on('subscribe', (request: SubscribeRequest, reply?: (answer: unknown) => void) => {
+		const rooms = Array.isArray(request?.rooms) ? request.rooms : [];
+		const wanted = rooms.filter(
+			(r): r is Room => typeof r === 'string' && (r === 'board' || /^event:[A-Za-z0-9_-]{1,64}$/.test(r))
+		);
+		const allowed = wanted.filter((r) => r === 'board' || can(principal, 'events.view'));
+		for (const r of allowed) socket.join(r);
+		const since = typeof request?.since === 'number' && Number.isInteger(request.since) ? request.since : null;
+		// Joining and reading the log happen in one synchronous step: nothing recorded in between
+		// can be both missing from `missed` and not broadcast to this socket.
+		const missed = since === null ? [] : missedSince(allowed, since);
+		const presence: Record<string, Watcher[]> = {};
+		for (const r of allowed) {
+			if (!isWatched(r)) continue;
+			if (principal.user) noteWatching(r, socket.id, principal.user);
+			presence[r] = watchers(r);
+		}
+		reply?.({ rooms: allowed, missed, latestSeq: latestSeq(), presence });
+	});
+	socket.on('unsubscribe', (request: { rooms?: unknown }) => {
+		const rooms = Array.isArray(request?.rooms) ? request.rooms : [];
+		for (const r of rooms) {
+			if (typeof r !== 'string' || r === 'board') continue;
+			socket.leave(r);
+			if (isWatched(r)) forgetWatching(r as Room, socket.id);
+		}
+	});
+	socket.on('disconnect', () => {
+		for (const [room, sockets] of presenceRooms) if (sockets.has(socket.id)) forgetWatching(room, socket.id);
+	});
+}
+
+/** Who is looking at a room right now: one entry per person, `count` = their open connections. */
+export interface Watcher {
+	userId: string;
+	name: string;
+	count: number;
+}
+
+/** Ephemeral, not an action: sent as the `presence` socket event and never written to the event log. */
+export interface PresenceMessage {
+	room: Room;
+	watchers: Watcher[];
+}
+
+/**
+ * At most one `presence` emission per room per interval: a page reload or a burst of people
+ * opening an alert would otherwise fan out N² messages. The last change always goes out (trailing edge).
+ */
+export const PRESENCE_INTERVAL_MS = 250;
+
+const presenceRooms = new Map<Room, Map<string, { userId: string; name: string }>>();
+const presenceTimers = new Map<Room, { lastEmitMs: number; timer: ReturnType<typeof setTimeout> | null }>();
+
+function isWatched(room: string): room is `event:${string}` {
+	return room.startsWith('event:');
+}
+
+function noteWatching(room: Room, socketId: string, user: SessionUser): void {
+	let sockets = presenceRooms.get(room);
+	if (!sockets) presenceRooms.set(room, (sockets = new Map()));
+	const before = sockets.get(socketId);
+	if (before && before.userId === user.id && before.name === user.name) return;
+	sockets.set(socketId, { userId: user.id, name: user.name });
+	schedulePresence(room);
+}
+
+function forgetWatching(room: Room, socketId: string): void {
+	const sockets = presenceRooms.get(room);
+	if (!sockets?.delete(socketId)) return;
+	if (sockets.size === 0) presenceRooms.delete(room);
+	schedulePresence(room);
+}
+
+/** The people watching a room, by name; a person with two tabs open is one entry with count 2. */
+export function watchers(room: Room): Watcher[] {
+	const byUser = new Map<string, Watcher>();
+	for (const { userId, name } of presenceRooms.get(room)?.values() ?? []) {
+		const w = byUser.get(userId);
+		if (w) w.count++;
+		else byUser.set(userId, { userId, name, count: 1 });
+	}
+	return [...byUser.values()].sort((a, b) => a.name.localeCompare(b.name) || a.userId.localeCompare(b.userId));
+}
+
+function emitPresence(room: Room): void {
+	const io = realtimeSlot().io;
+	if (!io) return;
+	const message: PresenceMessage = { room, watchers: watchers(room) };
+	io.of('/live').to(room).emit('presence', message);
+}
+
+function schedulePresence(room: Room): void {
+	// Throttle state for rooms nobody watches any more is dropped once it can no longer matter.
+	const now = Date.now();
+	for (const [r, s] of presenceTimers) {
+		if (r !== room && !s.timer && !presenceRooms.has(r) && now - s.lastEmitMs >= PRESENCE_INTERVAL_MS) presenceTimers.delete(r);
+	}
+	let state = presenceTimers.get(room);
+	if (!state) presenceTimers.set(room, (state = { lastEmitMs: -Infinity, timer: null }));
+	if (state.timer) return;
+	const waitMs = state.lastEmitMs + PRESENCE_INTERVAL_MS - now;
+	const fire = () => {
+		const s = presenceTimers.get(room)!;
+		s.timer = null;
+		s.lastEmitMs = Date.now();
+		emitPresence(room);
+	};
+	if (waitMs <= 0) fire();
+	else {
+		state.timer = setTimeout(fire, waitMs);
+		state.timer.unref?.();
+	}
+}
+
+export function latestSeq(): number {
+	const row = db.$client.prepare('SELECT COALESCE(MAX(seq), 0) AS seq FROM event_log').get() as { seq: number };
+	return row.seq;
+}
+
+/** Install authentication and room handling on the hub; called once from the `init` hook. */
+export function installRealtime(): void {
+	const slot = realtimeSlot();
+	slot.authenticate = authenticate;
+	slot.onConnection = onConnection;
+}

@@ -1,0 +1,137 @@
+/**
+ * What the event page's sky view draws: the current map's display raster and contours, the Sun
+ * and Moon now, the ranked galaxies and survey fields coloured by claim state (from the viewer's
+ * side: their own team's claims stand out), and the completed observations' footprints.
+ */
+import type { SessionUser } from '../people/auth';
+import { skymapDisplay } from '../alerts/events';
+import { eventFields, eventGalaxies } from './rankings';
+import { listClaims } from '../coordination/claims';
+import { listCandidates } from '../candidates/candidates';
+import { listTelescopes } from '../people/telescopes';
+import type { EventCoverage } from '../coordination/event-coverage';
+import { isStoredRaster, packRaster } from '../../sky-view/raster-image.ts';
+import type { DisplayRaster, SkyBody, SkyCandidate, SkyContour, SkyFootprint, SkyTarget, TargetState } from '../../sky-view/types.ts';
+import { moonPhase, moonPosition, sunPosition } from '../../targeting/night.ts';
+import { formatProbability } from '../../alerts/display.ts';
+
+/** Display avoidance radii: the telescope defaults (telescope.min_sun/moon_separation_deg). */
+const SUN_AVOID_DEG = 45;
+const MOON_AVOID_DEG = 20;
+/** Galaxies drawn: the best of the ranking (the table pages through the rest). */
+export const SKY_GALAXIES = 500;
+/** Fields drawn per wide-field telescope, best first. */
+export const SKY_FIELDS_PER_TELESCOPE = 150;
+
+export interface SkyViewData {
+	raster: DisplayRaster | null;
+	contours: SkyContour[];
+	sun: SkyBody;
+	moon: SkyBody;
+	targets: SkyTarget[];
+	footprints: SkyFootprint[];
+	candidates: SkyCandidate[];
+}
+
+const pct = formatProbability;
+
+/**
+ * The sky view for one viewer. Positions of the Sun and Moon are topocentric for a reference
+ * point on the equator at longitude 0; the Moon's parallax (≤ 1°) is below what the overview shows.
+ */
+export function eventSky(
+	eventId: string,
+	skymapId: string | null,
+	viewer: SessionUser | null,
+	covered: EventCoverage | null,
+	now = new Date()
+): SkyViewData {
+	const display = skymapId ? skymapDisplay(skymapId) : null;
+	const site = { latitudeDeg: 0, longitudeDeg: 0, elevationM: 0 };
+	const sun = sunPosition(site, now);
+	const moon = moonPosition(site, now);
+
+	// The claim a target shows: an open one first, else a finished one; released and lapsed claims free it.
+	const live = listClaims(eventId).filter((c) => c.state !== 'released' && c.state !== 'lapsed');
+	const claimOf = new Map<string, (typeof live)[number]>();
+	for (const c of live) {
+		const key = `${c.targetKind}:${c.targetId}`;
+		const held = claimOf.get(key);
+		if (!held || (held.state === 'done' && c.state !== 'done')) claimOf.set(key, c);
+	}
+	const teams = new Set(viewer?.teamIds ?? []);
+	const stateOf = (key: string): { state: TargetState; line: string | null; claimId: string | null } => {
+		const c = claimOf.get(key);
+		if (!c) return { state: 'open', line: null, claimId: null };
+		const who = `${c.teamName} · ${c.telescopeName}`;
+		if (c.state === 'done') return { state: 'done', line: `observed by ${who}`, claimId: c.id };
+		if (c.state === 'observing') return { state: 'observing', line: `being observed by ${who}`, claimId: c.id };
+		return { state: teams.has(c.teamId) ? 'mine' : 'claimed', line: `claimed by ${who}`, claimId: c.id };
+	};
+
+	const targets: SkyTarget[] = [];
+	for (const g of eventGalaxies(eventId, { limit: SKY_GALAXIES }).galaxies) {
+		const s = stateOf(`galaxy:${g.galaxyId}`);
+		targets.push({
+			id: `galaxy:${g.galaxyId}`,
+			kind: 'galaxy',
+			raDeg: g.ra,
+			decDeg: g.dec,
+			state: s.state,
+			label: `#${g.rank} ${g.name}`,
+			details: [`probability ${pct(g.probability)} · ${g.distance.toFixed(0)} ± ${g.distanceErr.toFixed(0)} Mpc`, ...(s.line ? [s.line] : [])]
+		});
+	}
+	const scopes = new Map(listTelescopes().map((t) => [t.id, t]));
+	const perScope = new Map<string, number>();
+	for (const f of eventFields(eventId)) {
+		const n = perScope.get(f.telescopeId) ?? 0;
+		const scope = scopes.get(f.telescopeId);
+		if (n >= SKY_FIELDS_PER_TELESCOPE || !scope) continue;
+		perScope.set(f.telescopeId, n + 1);
+		const s = stateOf(`field:${f.fieldId}`);
+		targets.push({
+			id: `field:${f.fieldId}`,
+			kind: 'field',
+			raDeg: f.ra,
+			decDeg: f.dec,
+			state: s.state,
+			telescopeId: f.telescopeId,
+			footprint: scope.fovShape === 'circle' ? { shape: 'circle', diameterDeg: scope.fovWidthDeg } : { shape: 'rectangle', widthDeg: scope.fovWidthDeg, heightDeg: scope.fovHeightDeg },
+			label: `${f.fieldId} (${scope.name})`,
+			details: [`#${f.rank} for ${scope.name} · probability ${pct(f.probability)}`, ...(s.line ? [s.line] : [])]
+		});
+	}
+
+	const footprints: SkyFootprint[] = (covered?.footprints ?? []).map((f) => ({
+		id: f.id,
+		raDeg: f.raDeg,
+		decDeg: f.decDeg,
+		...f.shape,
+		groupId: `${f.teamName} · ${f.telescopeName} · ${f.filter} to ${f.limitingMag.toFixed(1)} mag · ${f.observedAt.slice(11, 16)} UTC`,
+		label: `Observed: ${pct(f.probability)} of the map inside`
+	}));
+
+	const candidates: SkyCandidate[] = listCandidates(eventId).map((c) => ({
+		id: c.id,
+		raDeg: c.raDeg,
+		decDeg: c.decDeg,
+		label: `Candidate ${c.name}`,
+		details: [
+			`${c.magnitude.toFixed(2)}${c.magnitudeErr != null ? ` ± ${c.magnitudeErr.toFixed(2)}` : ''} mag in ${c.filter}, found ${c.discoveredAt.slice(11, 16)} UTC`,
+			`${c.teamName}${c.telescopeName ? ` · ${c.telescopeName}` : ''}`,
+			...(c.classification ? [`classified: ${c.classification}`] : []),
+			...(c.near.length ? [`within ${c.near[0].separationArcsec.toFixed(1)}″ of ${c.near[0].name}`] : [])
+		]
+	}));
+
+	return {
+		candidates,
+		raster: isStoredRaster(display) ? packRaster(display) : null,
+		contours: Array.isArray(display?.contours) ? (display.contours as SkyContour[]) : [],
+		sun: { raDeg: sun.raDeg, decDeg: sun.decDeg, avoidRadiusDeg: SUN_AVOID_DEG },
+		moon: { raDeg: moon.raDeg, decDeg: moon.decDeg, avoidRadiusDeg: MOON_AVOID_DEG, illumination: moonPhase(now).illumination },
+		targets,
+		footprints
+	};
+}

@@ -1,0 +1,571 @@
+/**
+ * From sky map to targets: when an event's sky map has been analysed, rank the galaxies of the
+ * active catalogue inside its 99% credible region (Singer et al. 2016 galaxy targeting, see
+ * `lib/targeting/galaxies.ts`) and, for each wide-field telescope, the fields of its fixed sky
+ * tiling by enclosed probability (`lib/targeting/fields.ts`). The rankings of an event are kept
+ * for its current map only: a new map replaces them in one transaction.
+ *
+ * Wide or narrow: a telescope whose field of view covers at least WIDE_FIELD_MIN_DEG2 (1 deg²)
+ * tiles the sky; a narrower one points at galaxies. Galaxy targeting pays off when a field holds
+ * about one galaxy of the region, and at ≲ 1 deg² the fields needed to tile a typical 90% region
+ * of tens to hundreds of deg² outnumber what a night allows (common practice).
+ */
+import { and, asc, desc, eq, inArray, notInArray, sql, type SQL } from 'drizzle-orm';
+import type { SQLiteColumn } from 'drizzle-orm/sqlite-core';
+import { db } from '../platform/db';
+import * as table from '../platform/db/schema';
+import { onRecorded, record, SYSTEM, type Actor, type LiveMessage } from '../platform/realtime';
+import { readStoredFile } from '../platform/storage';
+import { activeCatalog, getCatalog } from './catalogs';
+import { SUN_ABS_MAG_B } from '../../targeting/catalog-csv.ts';
+import { buildCatalogIndex, INDEX_ORDER, rankGalaxies, type CatalogIndex, type GalaxyCatalog, type WeightSource } from '../../targeting/galaxies.ts';
+import { rankFields, tileSky, type FieldOfView, type Tiling } from '../../targeting/fields.ts';
+import { readSkyMap } from '../../sky/index.ts';
+
+/** Fields of view at least this large (deg²) get survey fields; smaller ones get galaxies. */
+export const WIDE_FIELD_MIN_DEG2 = 1;
+/** Credible level of the region searched for galaxies and fields. */
+export const TARGET_LEVEL = 0.99;
+/**
+ * Galaxies stored per event (probabilities stay normalised over every candidate). Large enough
+ * for a poorly localised event in a deep catalogue; the read side pages and filters on the server.
+ */
+export const STORED_GALAXIES = 10_000;
+/** Fields stored per telescope: until the union reaches this probability, at most MAX_FIELDS. */
+export const FIELDS_CUMULATIVE = 0.99;
+export const MAX_FIELDS = 300;
+
+/** Area of a telescope's field of view, deg² (a circle's diameter is its width). */
+export function fovAreaDeg2(t: Pick<table.Telescope, 'fovShape' | 'fovWidthDeg' | 'fovHeightDeg'>): number {
+	return t.fovShape === 'circle' ? Math.PI * (t.fovWidthDeg / 2) ** 2 : t.fovWidthDeg * t.fovHeightDeg;
+}
+
+export function isWideField(t: Pick<table.Telescope, 'fovShape' | 'fovWidthDeg' | 'fovHeightDeg'>): boolean {
+	return fovAreaDeg2(t) >= WIDE_FIELD_MIN_DEG2;
+}
+
+function fovOf(t: table.Telescope): FieldOfView {
+	return t.fovShape === 'circle' ? { shape: 'circle', diameterDeg: t.fovWidthDeg } : { shape: 'rectangle', widthDeg: t.fovWidthDeg, heightDeg: t.fovHeightDeg };
+}
+
+// ─── Deliberate caches: a catalogue's index and a field of view's tiling never change once built. ───
+
+interface CachedCatalog {
+	catalogId: string;
+	index: CatalogIndex;
+	/** galaxy.id of each catalogue row. */
+	galaxyIds: Float64Array;
+	builtMs: number;
+}
+
+const catalogCache = new Map<string, CachedCatalog>();
+const tilingCache = new Map<string, Tiling>();
+
+/** Forget cached indexes (tests switch databases; a deleted catalogue must not linger). */
+export function clearTargetCaches(): void {
+	catalogCache.clear();
+	tilingCache.clear();
+}
+
+/**
+ * The in-memory index of a ready catalogue, built from its galaxy rows once and kept. Rows are
+ * read in catalogue order, so index rows are the `row` column.
+ */
+export function catalogIndex(catalogId: string): CachedCatalog {
+	const hit = catalogCache.get(catalogId);
+	if (hit) return hit;
+	const started = performance.now();
+	const meta = getCatalog(catalogId);
+	if (!meta || meta.state !== 'ready') throw new Error(`catalogue ${catalogId} is not ready`);
+	const rows = db.$client
+		.prepare('SELECT id, name, ra_deg, dec_deg, distance_mpc, distance_err_mpc, weight, b_abs_mag FROM galaxy WHERE catalog_id = ? ORDER BY row')
+		.raw()
+		.all(catalogId) as [number, string, number, number, number, number, number, number | null][];
+	const n = rows.length;
+	const cat: GalaxyCatalog = {
+		size: n,
+		id: new Array(n),
+		raDeg: new Float64Array(n),
+		decDeg: new Float64Array(n),
+		distanceMpc: new Float64Array(n),
+		distanceErrMpc: new Float64Array(n),
+		weight: new Float64Array(n),
+		luminosityB10: null,
+		weightSource: meta.weightSource as WeightSource
+	};
+	const lum = new Float64Array(n);
+	let anyB = false;
+	const galaxyIds = new Float64Array(n);
+	rows.forEach((r, k) => {
+		galaxyIds[k] = r[0];
+		cat.id[k] = r[1];
+		cat.raDeg[k] = r[2];
+		cat.decDeg[k] = r[3];
+		cat.distanceMpc[k] = r[4];
+		cat.distanceErrMpc[k] = r[5];
+		cat.weight[k] = r[6];
+		// L_B / 10^10 L_B,⊙ = 10^(−0.4 (M_B − M_B,⊙)) / 10^10, as the parser computed it.
+		lum[k] = r[7] === null ? NaN : 10 ** (-0.4 * (r[7] - SUN_ABS_MAG_B)) / 1e10;
+		if (r[7] !== null) anyB = true;
+	});
+	if (anyB) cat.luminosityB10 = lum;
+	const entry = { catalogId, index: buildCatalogIndex(cat, INDEX_ORDER), galaxyIds, builtMs: performance.now() - started };
+	catalogCache.set(catalogId, entry);
+	return entry;
+}
+
+function tilingFor(t: table.Telescope): Tiling {
+	const fov = fovOf(t);
+	const key = JSON.stringify(fov);
+	let tiling = tilingCache.get(key);
+	if (!tiling) {
+		tiling = tileSky(fov);
+		tilingCache.set(key, tiling);
+	}
+	return tiling;
+}
+
+export interface RankSummary {
+	eventId: string;
+	skymapId: string;
+	catalogId: string | null;
+	galaxies: number;
+	candidates: number;
+	fields: Record<string, number>;
+	computeMs: number;
+}
+
+/**
+ * Rank targets for an event's sky map (default: the map the event shows now) and replace what
+ * was stored for the event. Logs `targets.ranked` to the board and the event's room.
+ */
+export function rankEvent(eventId: string, opts: { skymapId?: string; catalogId?: string | null; actor?: Actor } = {}): RankSummary | null {
+	const started = performance.now();
+	const event = db.select().from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
+	if (!event) return null;
+	const skymapId = opts.skymapId ?? event.latestSkymapId;
+	if (!skymapId) return null;
+	const sky = db.select().from(table.skymap).where(eq(table.skymap.id, skymapId)).get();
+	if (!sky || sky.error || !sky.filePath) return null;
+	const bytes = readStoredFile(sky.filePath);
+	const map = readSkyMap(new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength));
+
+	const catalogId = opts.catalogId === undefined ? (activeCatalog()?.id ?? null) : opts.catalogId;
+	let galaxyRows: (typeof table.eventGalaxy.$inferInsert)[] = [];
+	let meta: Omit<typeof table.eventTargetsMeta.$inferInsert, 'fieldCounts' | 'computedAt' | 'computeMs'> = {
+		eventId,
+		skymapId,
+		catalogId,
+		level: TARGET_LEVEL,
+		mode: null,
+		regionAreaDeg2: null,
+		candidates: 0,
+		galaxiesStored: 0,
+		withoutDistance: 0,
+		completeness: null
+	};
+	if (catalogId) {
+		const { index, galaxyIds } = catalogIndex(catalogId);
+		const ranked = rankGalaxies(map, index, { level: TARGET_LEVEL, limit: STORED_GALAXIES });
+		galaxyRows = ranked.galaxies.map((g) => ({
+			eventId,
+			skymapId,
+			rank: g.rank,
+			galaxyId: galaxyIds[g.row],
+			score: g.score,
+			probability: g.probability,
+			cumulative: g.cumulative
+		}));
+		const c = ranked.completeness;
+		meta = {
+			...meta,
+			mode: ranked.mode,
+			regionAreaDeg2: ranked.regionAreaDeg2,
+			candidates: ranked.candidates,
+			galaxiesStored: galaxyRows.length,
+			withoutDistance: ranked.withoutDistance,
+			completeness: c
+				? { distanceRangeMpc: c.distanceRangeMpc, ratio: c.ratio, catalogLuminosityB10: c.catalogLuminosityB10, expectedLuminosityB10: c.expectedLuminosityB10 }
+				: null
+		};
+	}
+
+	const fieldRows: (typeof table.eventField.$inferInsert)[] = [];
+	const fieldCounts: Record<string, number> = {};
+	for (const t of db.select().from(table.telescope).orderBy(asc(table.telescope.name)).all()) {
+		if (!isWideField(t)) continue;
+		const ranking = rankFields(map, tilingFor(t), { level: TARGET_LEVEL });
+		let n = 0;
+		for (const f of ranking.fields) {
+			if (n >= MAX_FIELDS) break;
+			fieldRows.push({ eventId, skymapId, telescopeId: t.id, fieldId: f.id, raDeg: f.raDeg, decDeg: f.decDeg, probability: f.probability, cumulative: f.cumulative, rank: f.rank });
+			n++;
+			if (f.cumulative >= FIELDS_CUMULATIVE) break;
+		}
+		fieldCounts[t.id] = n;
+	}
+	const computeMs = performance.now() - started;
+
+	db.transaction((tx) => {
+		tx.delete(table.eventGalaxy).where(eq(table.eventGalaxy.eventId, eventId)).run();
+		tx.delete(table.eventField).where(eq(table.eventField.eventId, eventId)).run();
+		tx.delete(table.eventTargetsMeta).where(eq(table.eventTargetsMeta.eventId, eventId)).run();
+		for (let k = 0; k < galaxyRows.length; k += 500) tx.insert(table.eventGalaxy).values(galaxyRows.slice(k, k + 500)).run();
+		for (let k = 0; k < fieldRows.length; k += 500) tx.insert(table.eventField).values(fieldRows.slice(k, k + 500)).run();
+		tx.insert(table.eventTargetsMeta).values({ ...meta, fieldCounts, computeMs, computedAt: new Date() }).run();
+	});
+	const summary: RankSummary = { eventId, skymapId, catalogId, galaxies: galaxyRows.length, candidates: meta.candidates ?? 0, fields: fieldCounts, computeMs };
+	const payload = { eventId, skymapId, galaxies: galaxyRows.length, fields: fieldRows.length, catalogId };
+	const actor = opts.actor ?? SYSTEM;
+	record(actor, 'targets.ranked', 'board', payload);
+	record(actor, 'targets.ranked', `event:${eventId}`, payload);
+	return summary;
+}
+
+// ─── Reacting to the log: one ranking at a time, in arrival order. ───
+
+let queue: Promise<unknown> = Promise.resolve();
+
+function enqueue(job: () => void): void {
+	// Off the recording call stack: ranking reads a file and can take a while.
+	queue = queue.then(
+		() =>
+			new Promise<void>((resolve) =>
+				setImmediate(() => {
+					try {
+						job();
+					} catch (e) {
+						console.error('target ranking failed', e);
+					}
+					resolve();
+				})
+			)
+	);
+}
+
+/** Resolves when every ranking asked for so far has finished (tests, shutdown). */
+export async function targetsIdle(): Promise<void> {
+	// Jobs may queue more jobs (a new catalogue queues one per event): wait until none were added.
+	let seen: Promise<unknown>;
+	do {
+		seen = queue;
+		await seen;
+	} while (seen !== queue);
+}
+
+function react(message: LiveMessage): void {
+	// Both are logged to the board and the event's room: react to the board copy only.
+	if (message.room !== 'board') return;
+	if (message.type === 'skymap.analysed') {
+		const { eventId, skymapId } = message.payload as { eventId?: unknown; skymapId?: unknown };
+		if (typeof eventId !== 'string' || typeof skymapId !== 'string') return;
+		enqueue(() => {
+			// A map that arrived late for an older notice is not the one the event shows: keep the current ranking.
+			const current = db.select({ id: table.gwEvent.latestSkymapId }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
+			if (current?.id !== skymapId) return;
+			rankEvent(eventId, { skymapId });
+		});
+	} else if (message.type === 'catalog.imported') {
+		// A new catalogue becomes the active one: rank the open events again with it, one job per
+		// event so that requests are served between them.
+		enqueue(() => {
+			const open = db
+				.select({ id: table.gwEvent.id })
+				.from(table.gwEvent)
+				.where(and(eq(table.gwEvent.state, 'active'), sql`${table.gwEvent.latestSkymapId} IS NOT NULL`))
+				.all();
+			for (const e of open) {
+				enqueue(() => {
+					try {
+						rankEvent(e.id);
+					} catch (err) {
+						console.error(`re-ranking ${e.id} failed`, err);
+					}
+				});
+			}
+		});
+	}
+}
+
+let uninstall: (() => void) | null = null;
+
+/** Start reacting to analysed sky maps and new catalogues. Installing twice replaces the first. */
+export function installTargets(): () => void {
+	uninstall?.();
+	const off = onRecorded(react);
+	uninstall = () => {
+		off();
+		uninstall = null;
+	};
+	return uninstall;
+}
+
+// ─── Read side ───
+
+export const GALAXY_SORTS = ['rank', 'name', 'distance', 'ra', 'dec'] as const;
+export type GalaxySort = (typeof GALAXY_SORTS)[number];
+
+export interface GalaxyTarget {
+	rank: number;
+	galaxyId: number;
+	name: string;
+	ra: number;
+	dec: number;
+	distance: number;
+	distanceErr: number;
+	score: number;
+	probability: number;
+	cumulative: number;
+}
+
+export function targetsMeta(eventId: string) {
+	const meta = db.select().from(table.eventTargetsMeta).where(eq(table.eventTargetsMeta.eventId, eventId)).get() ?? null;
+	if (!meta) return null;
+	const cat = meta.catalogId ? getCatalog(meta.catalogId) : null;
+	return { ...meta, catalog: cat ? { id: cat.id, name: cat.name, synthetic: cat.synthetic, rowCount: cat.rowCount } : null };
+}
+
+/**
+ * Claim states that make a target "taken" for someone choosing what to observe: open claims and
+ * finished ones. Released and lapsed claims freed the target again.
+ */
+export const HELD_CLAIM_STATES = ['claimed', 'observing', 'done'] as const;
+
+/**
+ * Which targets to keep. `sky` is a vectorised position test (e.g. "observable now"): it gets
+ * the RA/Dec of every row that passed the database filters and returns 1 for the rows to keep,
+ * so the database still does the claim filters and the ordering.
+ */
+export interface TargetFilter {
+	/** No claim in HELD_CLAIM_STATES on the target. */
+	unclaimed?: boolean;
+	/** A claim in HELD_CLAIM_STATES by this team on the target. */
+	teamId?: string | null;
+	sky?: ((raDeg: Float64Array, decDeg: Float64Array) => Uint8Array) | null;
+}
+
+export interface TargetPage<T> {
+	/** Rows that match the filter. */
+	total: number;
+	/** Rows stored, before filtering. */
+	stored: number;
+	rows: T[];
+}
+
+/** Target ids (as the claim table spells them) held by claims of an event. */
+function heldTargets(eventId: string, kind: 'galaxy' | 'field', teamId?: string | null) {
+	const conditions = [eq(table.claim.eventId, eventId), eq(table.claim.targetKind, kind), inArray(table.claim.state, [...HELD_CLAIM_STATES])];
+	if (teamId) conditions.push(eq(table.claim.teamId, teamId));
+	const id = kind === 'galaxy' ? sql<number>`CAST(${table.claim.targetId} AS INTEGER)` : sql<string>`${table.claim.targetId}`;
+	return db.select({ id }).from(table.claim).where(and(...conditions));
+}
+
+function claimConditions(eventId: string, kind: 'galaxy' | 'field', column: SQLiteColumn, f: TargetFilter): SQL[] {
+	// IN / NOT IN over a subquery: SQLite builds the claimed set once, not once per row.
+	const out: SQL[] = [];
+	if (f.unclaimed) out.push(notInArray(column, heldTargets(eventId, kind)));
+	if (f.teamId) out.push(inArray(column, heldTargets(eventId, kind, f.teamId)));
+	return out;
+}
+
+/**
+ * Pages through rows that the database has filtered and ordered, applying the optional sky test
+ * to every such row in one vectorised call: `positions` returns [key, ra, dec] of each filtered row
+ * in order (a light query), `details` the full rows for the keys of the page.
+ */
+function pageWithSky<K, T>(
+	f: TargetFilter,
+	offset: number,
+	limit: number,
+	count: () => number,
+	page: () => T[],
+	positions: () => [K, number, number][],
+	details: (keys: K[]) => T[],
+	keyOf: (row: T) => K
+): { total: number; rows: T[] } {
+	if (!f.sky) return { total: count(), rows: page() };
+	const all = positions();
+	const ra = new Float64Array(all.length);
+	const dec = new Float64Array(all.length);
+	all.forEach((r, k) => {
+		ra[k] = r[1];
+		dec[k] = r[2];
+	});
+	const keep = f.sky(ra, dec);
+	const kept: K[] = [];
+	for (let k = 0; k < all.length; k++) if (keep[k]) kept.push(all[k][0]);
+	const pageKeys = kept.slice(offset, offset + limit);
+	const byKey = new Map(details(pageKeys).map((r) => [keyOf(r), r]));
+	return { total: kept.length, rows: pageKeys.map((key) => byKey.get(key)!).filter(Boolean) };
+}
+
+/**
+ * Ranked galaxies of an event, a page at a time, in a chosen order, optionally filtered by claim
+ * state, claiming team and a sky test. `total` counts the matching rows; `stored` every row.
+ */
+export function eventGalaxies(
+	eventId: string,
+	o: { offset?: number; limit?: number; sort?: GalaxySort; dir?: 'asc' | 'desc'; filter?: TargetFilter } = {}
+): { total: number; stored: number; galaxies: GalaxyTarget[] } {
+	const limit = Math.max(1, Math.min(o.limit ?? 50, STORED_GALAXIES));
+	const offset = Math.max(0, o.offset ?? 0);
+	const f = o.filter ?? {};
+	const column = {
+		rank: table.eventGalaxy.rank,
+		name: table.galaxy.name,
+		distance: table.galaxy.distanceMpc,
+		ra: table.galaxy.raDeg,
+		dec: table.galaxy.decDeg
+	}[o.sort ?? 'rank'];
+	const order = o.dir === 'desc' ? desc(column) : asc(column);
+	const ofEvent = eq(table.eventGalaxy.eventId, eventId);
+	const where = and(ofEvent, ...claimConditions(eventId, 'galaxy', table.eventGalaxy.galaxyId, f));
+	const countWhere = (w: SQL | undefined, join: boolean) => {
+		const q = db.select({ n: sql<number>`count(*)` }).from(table.eventGalaxy);
+		return (join ? q.innerJoin(table.galaxy, eq(table.galaxy.id, table.eventGalaxy.galaxyId)) : q).where(w).get()?.n ?? 0;
+	};
+	const stored = countWhere(ofEvent, false);
+	const select = () =>
+		db
+			.select({
+				rank: table.eventGalaxy.rank,
+				galaxyId: table.eventGalaxy.galaxyId,
+				name: table.galaxy.name,
+				ra: table.galaxy.raDeg,
+				dec: table.galaxy.decDeg,
+				distance: table.galaxy.distanceMpc,
+				distanceErr: table.galaxy.distanceErrMpc,
+				score: table.eventGalaxy.score,
+				probability: table.eventGalaxy.probability,
+				cumulative: table.eventGalaxy.cumulative
+			})
+			.from(table.eventGalaxy)
+			.innerJoin(table.galaxy, eq(table.galaxy.id, table.eventGalaxy.galaxyId));
+	const { total, rows } = pageWithSky<number, GalaxyTarget>(
+		f,
+		offset,
+		limit,
+		() => (f.unclaimed || f.teamId ? countWhere(where, false) : stored),
+		() => select().where(where).orderBy(order, asc(table.eventGalaxy.rank)).limit(limit).offset(offset).all(),
+		() =>
+			db
+				.select({ rank: table.eventGalaxy.rank, ra: table.galaxy.raDeg, dec: table.galaxy.decDeg })
+				.from(table.eventGalaxy)
+				.innerJoin(table.galaxy, eq(table.galaxy.id, table.eventGalaxy.galaxyId))
+				.where(where)
+				.orderBy(order, asc(table.eventGalaxy.rank))
+				.all()
+				.map((r) => [r.rank, r.ra, r.dec] as [number, number, number]),
+		(ranks) => (ranks.length ? select().where(and(ofEvent, inArray(table.eventGalaxy.rank, ranks))).all() : []),
+		(g) => g.rank
+	);
+	return { total, stored, galaxies: rows };
+}
+
+export interface FieldTarget {
+	telescopeId: string;
+	rank: number;
+	fieldId: string;
+	ra: number;
+	dec: number;
+	probability: number;
+	cumulative: number;
+}
+
+const fieldColumns = {
+	telescopeId: table.eventField.telescopeId,
+	rank: table.eventField.rank,
+	fieldId: table.eventField.fieldId,
+	ra: table.eventField.raDeg,
+	dec: table.eventField.decDeg,
+	probability: table.eventField.probability,
+	cumulative: table.eventField.cumulative
+};
+
+/** Ranked fields of an event, for one telescope or all, best first. */
+export function eventFields(eventId: string, telescopeId?: string | null): FieldTarget[] {
+	return db
+		.select(fieldColumns)
+		.from(table.eventField)
+		.where(telescopeId ? and(eq(table.eventField.eventId, eventId), eq(table.eventField.telescopeId, telescopeId)) : eq(table.eventField.eventId, eventId))
+		.orderBy(asc(table.eventField.telescopeId), asc(table.eventField.rank))
+		.all();
+}
+
+export const FIELD_SORTS = ['rank', 'field', 'ra', 'dec'] as const;
+export type FieldSort = (typeof FIELD_SORTS)[number];
+
+/** One telescope's ranked fields a page at a time, sorted and filtered like `eventGalaxies`. */
+export function eventFieldsPage(
+	eventId: string,
+	telescopeId: string,
+	o: { offset?: number; limit?: number; sort?: FieldSort; dir?: 'asc' | 'desc'; filter?: TargetFilter } = {}
+): TargetPage<FieldTarget> {
+	const limit = Math.max(1, Math.min(o.limit ?? 50, MAX_FIELDS));
+	const offset = Math.max(0, o.offset ?? 0);
+	const f = o.filter ?? {};
+	const column = { rank: table.eventField.rank, field: table.eventField.fieldId, ra: table.eventField.raDeg, dec: table.eventField.decDeg }[o.sort ?? 'rank'];
+	const order = o.dir === 'desc' ? desc(column) : asc(column);
+	const ofScope = and(eq(table.eventField.eventId, eventId), eq(table.eventField.telescopeId, telescopeId));
+	const where = and(ofScope, ...claimConditions(eventId, 'field', table.eventField.fieldId, f));
+	const count = (w: SQL | undefined) => db.select({ n: sql<number>`count(*)` }).from(table.eventField).where(w).get()?.n ?? 0;
+	const stored = count(ofScope);
+	const { total, rows } = pageWithSky<number, FieldTarget>(
+		f,
+		offset,
+		limit,
+		() => (f.unclaimed || f.teamId ? count(where) : stored),
+		() => db.select(fieldColumns).from(table.eventField).where(where).orderBy(order, asc(table.eventField.rank)).limit(limit).offset(offset).all(),
+		() =>
+			db
+				.select({ rank: table.eventField.rank, ra: table.eventField.raDeg, dec: table.eventField.decDeg })
+				.from(table.eventField)
+				.where(where)
+				.orderBy(order, asc(table.eventField.rank))
+				.all()
+				.map((r) => [r.rank, r.ra, r.dec] as [number, number, number]),
+		(ranks) => (ranks.length ? db.select(fieldColumns).from(table.eventField).where(and(ofScope, inArray(table.eventField.rank, ranks))).all() : []),
+		(r) => r.rank
+	);
+	return { total, stored, rows };
+}
+
+/** `GET /api/v1/events/{id}/galaxies` body (shape kept stable for programs). */
+export function galaxiesResponse(eventId: string, limit: number) {
+	const meta = targetsMeta(eventId);
+	const { galaxies } = eventGalaxies(eventId, { limit });
+	return {
+		eventId,
+		skymapId: meta?.skymapId ?? null,
+		catalog: meta?.catalog ?? null,
+		galaxies: galaxies.map((g) => ({
+			rank: g.rank,
+			galaxyId: g.galaxyId,
+			name: g.name,
+			ra: g.ra,
+			dec: g.dec,
+			distance: g.distance,
+			score: g.score,
+			probability: g.probability,
+			cumulative: g.cumulative
+		}))
+	};
+}
+
+/** `GET /api/v1/events/{id}/fields?telescope=` body. */
+export function fieldsResponse(eventId: string, telescopeId: string | null) {
+	const meta = targetsMeta(eventId);
+	return {
+		eventId,
+		skymapId: meta?.skymapId ?? null,
+		fields: eventFields(eventId, telescopeId).map((f) => ({
+			telescopeId: f.telescopeId,
+			rank: f.rank,
+			fieldId: f.fieldId,
+			ra: f.ra,
+			dec: f.dec,
+			probability: f.probability,
+			cumulative: f.cumulative
+		}))
+	};
+}
