@@ -1,7 +1,7 @@
 import { readFileSync } from 'node:fs';
 import { gzipSync } from 'node:zlib';
 import { describe, expect, it } from 'vitest';
-import { FITS_BLOCK_BYTES, readBinTable, readFits } from './fits.ts';
+import { FITS_BLOCK_BYTES, readBinTable, readFits, readImage } from './fits.ts';
 import { writeBinTableFits } from './fits-write.ts';
 
 const moc = new Uint8Array(readFileSync(new URL('../../../tests/fixtures/sky/moc_map.fits', import.meta.url)));
@@ -104,5 +104,57 @@ describe('FITS reader (FITS Standard 4.0)', () => {
 		expect.hasAssertions();
 		const gz = gzipSync(moc);
 		expect(() => readFits(gz.subarray(0, gz.length / 2))).toThrow(/gzip data is corrupt/);
+	});
+});
+
+/** A one-HDU FITS file from header cards (key, value text) and big-endian data bytes. */
+function imageFits(cards: [string, string][], data: Uint8Array): Uint8Array {
+	const text = [...cards.map(([k, v]) => `${k.padEnd(8)}= ${v.padStart(20)}`.padEnd(80)), 'END'.padEnd(80)].join('');
+	const headerBytes = Math.ceil(text.length / FITS_BLOCK_BYTES) * FITS_BLOCK_BYTES;
+	const out = new Uint8Array(headerBytes + Math.ceil(data.length / FITS_BLOCK_BYTES) * FITS_BLOCK_BYTES);
+	out.fill(0x20, 0, headerBytes);
+	for (let i = 0; i < text.length; i++) out[i] = text.charCodeAt(i);
+	out.set(data, headerBytes);
+	return out;
+}
+
+describe('FITS image data (FITS Standard 4.0 §5.3)', () => {
+	const spectra = JSON.parse(readFileSync(new URL('../../../tests/fixtures/candidates/spectra.json', import.meta.url), 'utf8'));
+	const fixture = (name: string) => new Uint8Array(readFileSync(new URL(`../../../tests/fixtures/candidates/spectra/${name}`, import.meta.url)));
+
+	it('reads a float32 primary image written by astropy', () => {
+		expect.hasAssertions();
+		const f = readFits(fixture('image.fits'));
+		const img = readImage(f, f.hdus[0]);
+		const ref = spectra.files['image.fits'];
+		expect(img.axes).toEqual([ref.points]);
+		expect(img.data[0]).toBe(ref.first.flux);
+		expect(img.data.reduce((a, b) => a + b, 0)).toBeCloseTo(ref.fluxSum, 6);
+	});
+
+	it('applies BSCALE/BZERO to int16 data in an IMAGE extension (astropy scaled it)', () => {
+		expect.hasAssertions();
+		const f = readFits(fixture('image-cd-scaled.fits'));
+		expect(f.hdus.map((h) => h.kind)).toEqual(['PRIMARY', 'IMAGE']);
+		const img = readImage(f, f.hdus[1]);
+		const ref = spectra.files['image-cd-scaled.fits'];
+		expect(img.data.length).toBe(ref.points);
+		// astropy returns float32 after scaling; we keep float64, so agree to float32 precision.
+		expect(img.data[0]).toBeCloseTo(ref.first.flux, 5);
+		expect(Math.abs(img.data.reduce((a, b) => a + b, 0) - ref.fluxSum) / Math.abs(ref.fluxSum)).toBeLessThan(1e-6);
+		expect(() => readImage(f, { ...f.hdus[1], kind: 'BINTABLE' })).toThrow(/not an image/);
+	});
+
+	it('turns BLANK integer pixels into NaN and scales the rest', () => {
+		expect.hasAssertions();
+		const data = new Uint8Array(8);
+		const view = new DataView(data.buffer);
+		[-32768, 0, 100, 32767].forEach((v, k) => view.setInt16(k * 2, v, false));
+		const bytes = imageFits(
+			[['SIMPLE', 'T'], ['BITPIX', '16'], ['NAXIS', '1'], ['NAXIS1', '4'], ['BSCALE', '0.5'], ['BZERO', '10.0'], ['BLANK', '-32768']],
+			data
+		);
+		const f = readFits(bytes);
+		expect(Array.from(readImage(f, f.hdus[0]).data)).toEqual([NaN, 10, 60, 10 + 0.5 * 32767]);
 	});
 });

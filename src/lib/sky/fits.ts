@@ -497,3 +497,59 @@ export function readBinTable(file: FitsFile, hdu: Hdu, only?: string[]): BinTabl
 export function keyword(file: FitsFile, hdu: Hdu, key: string): HeaderValue | undefined {
 	return hdu.header.values.get(key) ?? file.hdus[0]?.header.values.get(key);
 }
+
+export interface FitsImage {
+	/** NAXIS1, NAXIS2, … (the first axis varies fastest in `data`). */
+	axes: number[];
+	/** Physical values BZERO + BSCALE × stored value (FITS Standard 4.0 §5.3); integer BLANK pixels become NaN. */
+	data: Float64Array;
+	header: FitsHeader;
+}
+
+/**
+ * Decode the data array of a primary HDU or IMAGE extension (FITS Standard 4.0 §5.2–§5.3, §7.1):
+ * big-endian values of type BITPIX, scaled by BSCALE/BZERO, with integer BLANK pixels as NaN.
+ * Always returns float64 so that scaled 16- and 32-bit data keep their precision.
+ */
+export function readImage(file: FitsFile, hdu: Hdu): FitsImage {
+	if (hdu.kind !== 'PRIMARY' && hdu.kind !== 'IMAGE') throw new FitsError(`HDU ${hdu.index} is ${hdu.kind}, not an image`);
+	const h = hdu.header;
+	const i = hdu.index;
+	const bitpix = intKeyword(h, 'BITPIX', i);
+	const naxis = intKeyword(h, 'NAXIS', i);
+	const axes: number[] = [];
+	for (let k = 1; k <= naxis; k++) axes.push(intKeyword(h, `NAXIS${k}`, i));
+	const count = naxis === 0 ? 0 : axes.reduce((a, b) => a * b, 1);
+	const bscale = h.values.get('BSCALE');
+	const bzero = h.values.get('BZERO');
+	const blank = h.values.get('BLANK');
+	const scale = typeof bscale === 'number' ? bscale : 1;
+	const zero = typeof bzero === 'number' ? bzero : typeof bzero === 'bigint' ? Number(bzero) : 0;
+	const blankValue = bitpix > 0 && (typeof blank === 'number' || typeof blank === 'bigint') ? Number(blank) : null;
+	const view = new DataView(file.bytes.buffer, file.bytes.byteOffset + hdu.dataOffset, count * (Math.abs(bitpix) / 8));
+	const data = new Float64Array(count);
+	for (let k = 0; k < count; k++) {
+		let v: number;
+		switch (bitpix) {
+			case 8:
+				v = view.getUint8(k);
+				break;
+			case 16:
+				v = view.getInt16(k * 2, false);
+				break;
+			case 32:
+				v = view.getInt32(k * 4, false);
+				break;
+			case 64:
+				v = Number(view.getBigInt64(k * 8, false));
+				break;
+			case -32:
+				v = view.getFloat32(k * 4, false);
+				break;
+			default:
+				v = view.getFloat64(k * 8, false);
+		}
+		data[k] = blankValue !== null && v === blankValue ? NaN : zero + scale * v;
+	}
+	return { axes, data, header: h };
+}
