@@ -27,7 +27,9 @@ const commands: Record<string, () => Promise<CommandModule>> = {
 	notice: () => import('./commands/notice.ts').then((m) => m.default),
 	night: () => import('./commands/night.ts').then((m) => m.default),
 	altaz: () => import('./commands/altaz.ts').then((m) => m.default),
-	rank: () => import('./commands/rank.ts').then((m) => m.default)
+	rank: () => import('./commands/rank.ts').then((m) => m.default),
+	lightcurve: () => import('./commands/lightcurve.ts').then((m) => m.default),
+	spectrum: () => import('./commands/spectrum.ts').then((m) => m.default)
 };
 
 function help(): string {

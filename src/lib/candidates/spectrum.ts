@@ -78,8 +78,8 @@ const megabytes = (n: number) => `${(n / MIB).toFixed(n < MIB ? 3 : 1).replace(/
  */
 export function readSpectrum(bytes: Uint8Array, options: ReadSpectrumOptions = {}): Spectrum {
 	const maxBytes = options.maxBytes ?? DEFAULT_MAX_SPECTRUM_BYTES;
-	if (bytes.length === 0) throw new SpectrumError('the file is empty (0 bytes)');
-	if (bytes.length > maxBytes) throw new SpectrumError(`the file is ${megabytes(bytes.length)}, over the limit of ${megabytes(maxBytes)}`);
+	const tooBig = fileSizeProblem(bytes.length, maxBytes);
+	if (tooBig) throw new SpectrumError(tooBig);
 	let data = bytes;
 	if (bytes.length >= 2 && bytes[0] === 0x1f && bytes[1] === 0x8b) {
 		try {
@@ -102,6 +102,13 @@ export function readSpectrum(bytes: Uint8Array, options: ReadSpectrumOptions = {
 	}
 	if (text.includes('\u0000')) throw new SpectrumError('not a spectrum file: it is neither FITS nor text');
 	return readAsciiSpectrum(text);
+}
+
+/** Why a file of this size is refused (empty, or over the limit), or null; lets a caller refuse before reading it. */
+export function fileSizeProblem(sizeBytes: number, maxBytes = DEFAULT_MAX_SPECTRUM_BYTES): string | null {
+	if (sizeBytes === 0) return 'the file is empty (0 bytes)';
+	if (sizeBytes > maxBytes) return `the file is ${megabytes(sizeBytes)}, over the limit of ${megabytes(maxBytes)}`;
+	return null;
 }
 
 /** The numbers the CLI prints for a spectrum. */
