@@ -8,9 +8,9 @@
 import { mulberry32 } from '../../fake-alert-broker/prng.ts';
 import { DEMO_TELESCOPES } from '../../seeds/scenario.ts';
 import { nightWindow, observableWindow } from '../../src/lib/targeting/night.ts';
-import { planNetwork, type PlanTarget, type PlanTelescope } from '../../src/lib/targeting/plan.ts';
-import { observableNowMask, skyNow } from '../../src/lib/server/targeting/filters.ts';
-import { tonight } from '../../src/lib/server/targeting/visibility-view.ts';
+import { planNetwork } from '../../src/lib/targeting/plan.ts';
+import type { PlanTarget, PlanTelescope } from '../../src/lib/targeting/plan-types.ts';
+import { observableNowMask, skyNow, tonight } from '../../src/lib/targeting/visibility.ts';
 import { median, timeRuns, type BenchResult } from './run.ts';
 
 const REPEATS = 5;
@@ -72,7 +72,7 @@ export async function run(): Promise<BenchResult[]> {
 	const many = skyTargets(100_000, 12);
 	const now = new Date(Date.parse(night.darkness!.start) + 2 * 3_600_000);
 	const t = { ...site, minAltitudeDeg: 30 };
-	let mask = new Uint8Array(0);
+	let mask: Uint8Array = new Uint8Array(0);
 	const maskMs = time(() => {
 		mask = observableNowMask(skyNow(t, tonight(site, now), now), many.raDeg, many.decDeg);
 	});

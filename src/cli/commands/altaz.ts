@@ -2,23 +2,9 @@
  * `strainline altaz --lat --lon --elevation --time ISO --ra R --dec D [--refraction]`
  * Altitude, azimuth, airmass, hour angle and sidereal time of an ICRS direction at a site.
  */
-import {
-	airmassKastenYoung1989,
-	greenwichApparentSiderealTimeHours,
-	greenwichMeanSiderealTimeHours,
-	localSiderealTimeHours,
-	moonPhase,
-	moonPosition,
-	moonSeparationDeg,
-	parseUtcTime,
-	sunAvoidance,
-	sunPosition,
-	sunSeparationDeg,
-	targetAltAz,
-	validateSite,
-	validateTarget,
-	type Site
-} from '../../lib/targeting/night.ts';
+import { airmassKastenYoung1989, greenwichApparentSiderealTimeHours, greenwichMeanSiderealTimeHours, localSiderealTimeHours, targetAltAz } from '../../lib/targeting/apparent-place.ts';
+import { parseUtcTime, type Site, validateSite, validateTarget } from '../../lib/targeting/observing-inputs.ts';
+import { moonPhase, moonPosition, moonSeparationDeg, sunAvoidance, sunPosition, sunSeparationDeg } from '../../lib/targeting/sun-moon.ts';
 import type { CommandModule } from '../strainline.ts';
 import { formatUtc, optionalNumber, readSite, requireNumber, requireString } from './night.ts';
 

@@ -2,13 +2,8 @@
  * `strainline night --lat --lon --elevation --date YYYY-MM-DD [--ra --dec --min-altitude]`
  * Sun and Moon for the night that begins on the evening of a local date at a site.
  */
-import {
-	nightWindow,
-	observableWindow,
-	parseLocalDate,
-	validateSite,
-	type Site
-} from '../../lib/targeting/night.ts';
+import { nightWindow, observableWindow } from '../../lib/targeting/night.ts';
+import { parseLocalDate, type Site, validateSite } from '../../lib/targeting/observing-inputs.ts';
 import type { CommandModule } from '../strainline.ts';
 
 type Values = Record<string, string | boolean | undefined>;

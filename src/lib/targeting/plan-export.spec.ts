@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { planNetwork, type NetworkPlan, type PlanTarget, type PlanTelescope } from './plan.ts';
+import { planNetwork } from './plan.ts';
+import type { NetworkPlan, PlanTarget, PlanTelescope } from './plan-types.ts';
 import {
 	csvField,
 	formatDecDms,

@@ -4,7 +4,7 @@
  *
  * Pure: plain data in, text out.
  */
-import type { NetworkPlan, PlanAssignment, TelescopePlan } from './plan.ts';
+import type { NetworkPlan, PlanAssignment, TelescopePlan } from './plan-types.ts';
 
 export interface SexagesimalOptions {
 	/** Decimals of the last field (seconds of time for RA, arcseconds for Dec). */

@@ -1,17 +1,11 @@
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
-import {
-	moonPosition,
-	moonSeparationDeg,
-	nightWindow,
-	observableWindow,
-	sunAvoidance,
-	sunPosition,
-	sunSeparationDeg,
-	targetAltAz,
-	type Site
-} from './night.ts';
-import { planNetwork, type NetworkPlan, type PlanClaim, type PlanInput, type PlanTarget, type PlanTelescope } from './plan.ts';
+import { targetAltAz } from './apparent-place.ts';
+import { nightWindow, observableWindow } from './night.ts';
+import { type Site } from './observing-inputs.ts';
+import { moonPosition, moonSeparationDeg, sunAvoidance, sunPosition, sunSeparationDeg } from './sun-moon.ts';
+import { planNetwork } from './plan.ts';
+import type { NetworkPlan, PlanClaim, PlanInput, PlanTarget, PlanTelescope } from './plan-types.ts';
 import { mulberry32 } from '../../../fake-alert-broker/prng.ts';
 
 // Sites and astronomical-twilight crossings from tests/fixtures/night/fixtures.json

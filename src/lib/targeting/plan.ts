@@ -23,432 +23,29 @@
  * culminations (both are monotonic between culminations), and near enough elsewhere for
  * exposures of minutes.
  *
- * Positions: identical in method to night.ts (`targetAltAz`, `sunPosition`, `moonSeparationDeg`,
- * `sunSeparationDeg`): annual aberration, IAU 2006 precession + truncated IAU 2000B nutation
- * and GAST from astronomy-engine, Kasten & Young (1989) airmass on the refracted altitude. For
- * speed the slowly varying parts (Earth's velocity, precession-nutation matrix, Sun and Moon
- * directions, GAST) are tabulated every 10 min and interpolated (linearly; the Moon's direction,
- * which curves faster, by three-point Lagrange); the Earth's rotation enters exactly through the
- * interpolated GAST. plan.spec.ts measures the agreement with night.ts (≤ 1e-6° for altitudes and
- * elongation, ≤ 1e-5° for the Moon) and every limit is applied with a 1e-4° margin on the safe side.
+ * Positions: the tabulated form of the astronomy core (apparent-place.ts `ephemerisTables`,
+ * `siteEphemeris`, `instantAt`): the same method as `targetAltAz`, `sunPosition`,
+ * `moonSeparationDeg` and `sunSeparationDeg`, with the slowly varying parts interpolated from
+ * 10-min tables. The constraints and their safety margins are in plan-constraints.ts; input and
+ * output types in plan-types.ts.
  */
-import {
-	BaryState,
-	Body,
-	Equator,
-	GeoVector,
-	MakeTime,
-	Observer,
-	Rotation_EQJ_EQD,
-	SiderealTime
-} from 'astronomy-engine';
-import {
-	airmassKastenYoung1989,
-	ASTRONOMICAL_TWILIGHT_ALTITUDE_DEG,
-	NAUTICAL_TWILIGHT_ALTITUDE_DEG,
-	standardRefractionDeg,
-	validateSite,
-	validateTarget
-} from './night.ts';
-
-// ---------------------------------------------------------------------------------------------
-// Input and output types
-
-export type PlanTargetKind = 'galaxy' | 'field';
-
-/** One requested observation of a target. Omitted filter: the telescope's default filter. */
-export interface PlanVisit {
-	filter?: string;
-	/** Epochs are ordered: epoch n waits until every lower epoch of the target has ended ≥ minEpochGapS earlier. */
-	epoch?: number;
-}
-
-export interface PlanTarget {
-	id: string;
-	kind: PlanTargetKind;
-	raDeg: number;
-	decDeg: number;
-	/** Probability the target holds (galaxy: its share of the ranked candidates; field: enclosed probability). */
-	probability: number;
-	/** Field targets: the telescope id(s) whose field of view made the tiling. Absent: any telescope. */
-	fieldFor?: string | readonly string[];
-	name?: string;
-	/** Absent: one visit in the telescope's default filter. */
-	visits?: readonly PlanVisit[];
-}
-
-/** A telescope as stored in the `telescope` table (same field names). */
-export interface PlanTelescope {
-	id: string;
-	name: string;
-	latitudeDeg: number;
-	longitudeDeg: number;
-	elevationM: number;
-	fovShape: 'circle' | 'rectangle';
-	fovWidthDeg: number;
-	fovHeightDeg: number;
-	filters: readonly string[];
-	limitingMag: number;
-	limitingMagExposureS: number;
-	minAltitudeDeg: number;
-	maxAirmass: number;
-	minSunSeparationDeg: number;
-	minMoonSeparationDeg: number;
-	slewOverheadS: number;
-}
-
-/**
- * A live claim: telescope `telescopeId` has taken this target (in this filter / epoch; absent =
- * any). A claimed visit is never planned for another telescope; it stays in the claimant's
- * plan, scheduled like any other visit (and the kind/field-of-view rule is waived for it).
- */
-export interface PlanClaim {
-	targetId: string;
-	filter?: string | null;
-	epoch?: number | null;
-	telescopeId: string;
-}
-
-export interface PlanInput {
-	targets: readonly PlanTarget[];
-	telescopes: readonly PlanTelescope[];
-	claims?: readonly PlanClaim[];
-	start: Date;
-	/** Length of the plan, hours (default 24). */
-	horizonH?: number;
-	/** Waiting step when nothing is observable, and the grid for darkness and drop reasons, s (default 300). */
-	stepS?: number;
-	/** Exposure per telescope (number: all telescopes), s. Default: the telescope's limitingMagExposureS. */
-	exposureS?: number | Readonly<Record<string, number>>;
-	/** Filter for visits that name none, per telescope id. Default: the telescope's first filter. */
-	defaultFilter?: Readonly<Record<string, string>>;
-	/** 'astronomical' (Sun ≤ −18°, default) or 'nautical' (Sun ≤ −12°). */
-	darkness?: 'astronomical' | 'nautical';
-	/** Let wide-field telescopes take galaxies too (default false). */
-	galaxiesOnWideField?: boolean;
-	/** A telescope with a field of view at least this large is wide-field (default 1 deg²). */
-	wideFieldMinAreaDeg2?: number;
-	/** 'last-chance' (default) or 'none' (pure highest-probability-first). */
-	urgency?: 'last-chance' | 'none';
-	/** A last-chance visit needs at least this fraction of the best visit's probability (default 0.5). */
-	lastChanceRatio?: number;
-	/** Priority multiplier for visits of a target that is already covered (default 1: same priority). */
-	repeatPriority?: number;
-	/** Minimum time from the end of one epoch of a target to the start of the next, s (default 3600). */
-	minEpochGapS?: number;
-}
-
-export interface PlanAssignment {
-	/** 1-based position in the telescope's list. */
-	order: number;
-	telescopeId: string;
-	targetId: string;
-	kind: PlanTargetKind;
-	name: string | null;
-	raDeg: number;
-	decDeg: number;
-	/** Exposure start and end, ISO-8601 UTC. The slew takes the slewOverheadS before `start`. */
-	start: string;
-	end: string;
-	exposureS: number;
-	filter: string | null;
-	epoch: number | null;
-	/** Geometric altitude at the exposure's start and end. */
-	altitudeDeg: number;
-	altitudeEndDeg: number;
-	/** Airmass at the exposure's start (Kasten & Young 1989) and the worst of start/middle/end. */
-	airmass: number;
-	maxAirmass: number;
-	/** Smallest Moon distance over start/middle/end (topocentric). */
-	moonSepDeg: number;
-	/** Solar elongation at the start (geocentric). */
-	sunSepDeg: number;
-	sunAltitudeDeg: number;
-	probability: number;
-	/** Probability this exposure adds to the network's coverage (0 for a repeat visit). */
-	newProbability: number;
-	/** Running sum of newProbability over this telescope's list. */
-	cumulativeProbability: number;
-	/** Chosen ahead of a more probable visit because it would be gone in the next slot. */
-	lastChance: boolean;
-}
-
-export interface CoveragePoint {
-	/** Hours since the plan's start. */
-	timeH: number;
-	time: string;
-	probability: number;
-}
-
-export interface DarkInterval {
-	start: string;
-	end: string;
-}
-
-export interface TelescopePlan {
-	telescopeId: string;
-	name: string;
-	exposureS: number;
-	slewOverheadS: number;
-	defaultFilter: string | null;
-	darkness: DarkInterval[];
-	assignments: PlanAssignment[];
-	/** Step curve of the probability this telescope added first (network-wide first coverage). */
-	coverage: CoveragePoint[];
-}
-
-export type DropReason =
-	| 'claimed'
-	| 'no-telescope'
-	| 'sun'
-	| 'no-darkness'
-	| 'below-altitude'
-	| 'airmass'
-	| 'moon'
-	| 'epoch-order'
-	| 'no-time';
-
-export interface DroppedVisit {
-	targetId: string;
-	filter: string | null;
-	epoch: number | null;
-	probability: number;
-	reason: DropReason;
-	detail: string;
-}
-
-export interface NetworkPlan {
-	start: string;
-	end: string;
-	horizonH: number;
-	stepS: number;
-	sunAltitudeLimitDeg: number;
-	telescopes: TelescopePlan[];
-	dropped: DroppedVisit[];
-	/** Step curve: probability of the distinct targets whose first exposure has ended, vs time. */
-	coverage: CoveragePoint[];
-	/** Sum of the probabilities of the distinct targets planned. */
-	coveredProbability: number;
-	/** Sum of the probabilities of all distinct targets given. */
-	offeredProbability: number;
-}
-
-// ---------------------------------------------------------------------------------------------
-// Ephemeris tables (per plan) and instants
-
-const DEG = Math.PI / 180;
-/** Speed of light in AU per day (IAU 2012 au), as in night.ts. */
-const C_AU_PER_DAY = 173.144632674;
-/** Spacing of the tabulated slowly varying quantities. */
-const TABLE_STEP_MS = 600_000;
-/**
- * Every limit is applied this much on the safe side, so that the tabulated positions (measured in
- * plan.spec.ts to agree with night.ts within 1e-6° for altitudes and 1e-5° for the Moon) never let
- * an exposure through that night.ts itself would refuse.
- */
-const MARGIN_DEG = 1e-4;
-const AIRMASS_MARGIN = 1e-5;
-/** Darkness edges are refined to this. */
-const EDGE_PRECISION_MS = 1000;
-
-type Vec3 = [number, number, number];
-
-interface SiteTables {
-	sinLat: number;
-	cosLat: number;
-	longitudeDeg: number;
-	sunTopo: Float64Array;
-	moonTopo: Float64Array;
-}
-
-interface GlobalTables {
-	t0: number;
-	count: number;
-	gastDeg: Float64Array; // unwrapped
-	beta: Float64Array; // v/c, J2000 axes
-	sunGeo: Float64Array;
-	/** Rotation_EQJ_EQD matrices, 9 per node, astronomy-engine's rot[i][j] order. */
-	precNut: Float64Array;
-}
-
-/** What a target needs to know about one instant at one site. */
-interface Instant {
-	ms: number;
-	/** Zenith direction on J2000 axes (of-date zenith rotated back through precession-nutation). */
-	zenith: Vec3;
-	beta: Vec3;
-	sunGeo: Vec3;
-	moonTopo: Vec3;
-	sunAltitudeDeg: number;
-}
-
-function unit(x: number, y: number, z: number): Vec3 {
-	const r = Math.hypot(x, y, z);
-	return [x / r, y / r, z / r];
-}
-
-function radecVector(raDeg: number, decDeg: number): Vec3 {
-	const ra = raDeg * DEG;
-	const dec = decDeg * DEG;
-	return [Math.cos(dec) * Math.cos(ra), Math.cos(dec) * Math.sin(ra), Math.sin(dec)];
-}
-
-function observerOf(site: { latitudeDeg: number; longitudeDeg: number; elevationM: number }): Observer {
-	const lon = site.longitudeDeg > 180 ? site.longitudeDeg - 360 : site.longitudeDeg;
-	return new Observer(site.latitudeDeg, lon, site.elevationM);
-}
-
-function buildGlobalTables(t0: number, t1: number): GlobalTables {
-	const count = Math.ceil((t1 - t0) / TABLE_STEP_MS) + 3;
-	const gastDeg = new Float64Array(count);
-	const beta = new Float64Array(count * 3);
-	const sunGeo = new Float64Array(count * 3);
-	const precNut = new Float64Array(count * 9);
-	let previous = 0;
-	for (let k = 0; k < count; k++) {
-		const time = MakeTime(new Date(t0 + k * TABLE_STEP_MS));
-		let g = SiderealTime(time) * 15;
-		if (k > 0) while (g < previous) g += 360;
-		gastDeg[k] = previous = g;
-		const earth = BaryState(Body.Earth, time);
-		beta.set([earth.vx / C_AU_PER_DAY, earth.vy / C_AU_PER_DAY, earth.vz / C_AU_PER_DAY], k * 3);
-		const s = GeoVector(Body.Sun, time, true);
-		sunGeo.set(unit(s.x, s.y, s.z), k * 3);
-		const rot = Rotation_EQJ_EQD(time).rot;
-		for (let i = 0; i < 3; i++) for (let j = 0; j < 3; j++) precNut[k * 9 + i * 3 + j] = rot[i][j];
-	}
-	return { t0, count, gastDeg, beta, sunGeo, precNut };
-}
-
-function buildSiteTables(g: GlobalTables, site: { latitudeDeg: number; longitudeDeg: number; elevationM: number }): SiteTables {
-	const observer = observerOf(site);
-	const sunTopo = new Float64Array(g.count * 3);
-	const moonTopo = new Float64Array(g.count * 3);
-	for (let k = 0; k < g.count; k++) {
-		const time = MakeTime(new Date(g.t0 + k * TABLE_STEP_MS));
-		const s = Equator(Body.Sun, time, observer, false, true).vec;
-		sunTopo.set(unit(s.x, s.y, s.z), k * 3);
-		const m = Equator(Body.Moon, time, observer, false, true).vec;
-		moonTopo.set(unit(m.x, m.y, m.z), k * 3);
-	}
-	return {
-		sinLat: Math.sin(observer.latitude * DEG),
-		cosLat: Math.cos(observer.latitude * DEG),
-		longitudeDeg: observer.longitude,
-		sunTopo,
-		moonTopo
-	};
-}
-
-function lerpVec(table: Float64Array, k: number, f: number): Vec3 {
-	const a = k * 3;
-	const b = a + 3;
-	return unit(
-		table[a] + (table[b] - table[a]) * f,
-		table[a + 1] + (table[b + 1] - table[a + 1]) * f,
-		table[a + 2] + (table[b + 2] - table[a + 2]) * f
-	);
-}
-
-/** Three-point Lagrange interpolation about the nearest node: the Moon's topocentric direction curves too much for a chord. */
-function quadVec(table: Float64Array, count: number, x: number): Vec3 {
-	const c = Math.min(Math.max(Math.round(x), 1), count - 2);
-	const t = x - c;
-	const [wm, w0, wp] = [(t * (t - 1)) / 2, 1 - t * t, (t * (t + 1)) / 2];
-	const [a, b, d] = [(c - 1) * 3, c * 3, (c + 1) * 3];
-	return unit(
-		wm * table[a] + w0 * table[b] + wp * table[d],
-		wm * table[a + 1] + w0 * table[b + 1] + wp * table[d + 1],
-		wm * table[a + 2] + w0 * table[b + 2] + wp * table[d + 2]
-	);
-}
-
-function instantAt(g: GlobalTables, s: SiteTables, ms: number): Instant {
-	const x = (ms - g.t0) / TABLE_STEP_MS;
-	const k = Math.min(Math.max(Math.floor(x), 0), g.count - 2);
-	const f = x - k;
-	const lstRad = (g.gastDeg[k] + (g.gastDeg[k + 1] - g.gastDeg[k]) * f + s.longitudeDeg) * DEG;
-	// Zenith of date (astronomy-engine's Rotation_EQD_HOR z axis), then back to J2000 axes by the
-	// transpose of the nearest precession-nutation matrix (it changes by < 0.01″ in 10 min).
-	const zd: Vec3 = [s.cosLat * Math.cos(lstRad), s.cosLat * Math.sin(lstRad), s.sinLat];
-	const p = (f < 0.5 ? k : k + 1) * 9;
-	const pn = g.precNut;
-	const zenith: Vec3 = [
-		pn[p] * zd[0] + pn[p + 1] * zd[1] + pn[p + 2] * zd[2],
-		pn[p + 3] * zd[0] + pn[p + 4] * zd[1] + pn[p + 5] * zd[2],
-		pn[p + 6] * zd[0] + pn[p + 7] * zd[1] + pn[p + 8] * zd[2]
-	];
-	const beta: Vec3 = [
-		g.beta[k * 3] + (g.beta[k * 3 + 3] - g.beta[k * 3]) * f,
-		g.beta[k * 3 + 1] + (g.beta[k * 3 + 4] - g.beta[k * 3 + 1]) * f,
-		g.beta[k * 3 + 2] + (g.beta[k * 3 + 5] - g.beta[k * 3 + 2]) * f
-	];
-	const sunTopo = lerpVec(s.sunTopo, k, f);
-	const sunAltitudeDeg = Math.asin(clampUnit(dot(sunTopo, zenith))) / DEG;
-	return { ms, zenith, beta, sunGeo: lerpVec(g.sunGeo, k, f), moonTopo: quadVec(s.moonTopo, g.count, x), sunAltitudeDeg };
-}
-
-function dot(a: Vec3, b: Vec3): number {
-	return a[0] * b[0] + a[1] * b[1] + a[2] * b[2];
-}
-
-function clampUnit(x: number): number {
-	return x > 1 ? 1 : x < -1 ? -1 : x;
-}
-
-function angleDeg(a: Vec3, b: Vec3): number {
-	const cx = a[1] * b[2] - a[2] * b[1];
-	const cy = a[2] * b[0] - a[0] * b[2];
-	const cz = a[0] * b[1] - a[1] * b[0];
-	return Math.atan2(Math.hypot(cx, cy, cz), dot(a, b)) / DEG;
-}
-
-/** Apparent direction: u' = u + β − (u·β) u, renormalized (first-order annual aberration, as night.ts). */
-function apparent(u: Vec3, beta: Vec3): Vec3 {
-	const d = dot(u, beta);
-	return unit(u[0] + beta[0] - d * u[0], u[1] + beta[1] - d * u[1], u[2] + beta[2] - d * u[2]);
-}
-
-/** How far a target gets through the constraints at an instant (for drop reasons). */
-const Stage = { Daylight: 0, Dark: 1, AboveAltitude: 2, WithinAirmass: 3, ClearOfSun: 4, Observable: 5 } as const;
-type Stage = (typeof Stage)[keyof typeof Stage];
-
-interface Sample {
-	stage: Stage;
-	altitudeDeg: number;
-	airmass: number;
-	sunSepDeg: number;
-	moonSepDeg: number;
-}
-
-interface Limits {
-	sunAltitudeLimitDeg: number;
-	minAltitudeDeg: number;
-	maxAirmass: number;
-	minSunSeparationDeg: number;
-	minMoonSeparationDeg: number;
-}
-
-function sampleAt(u: Vec3, at: Instant, limits: Limits): Sample {
-	const out: Sample = { stage: Stage.Daylight, altitudeDeg: NaN, airmass: NaN, sunSepDeg: NaN, moonSepDeg: NaN };
-	const a = apparent(u, at.beta);
-	out.altitudeDeg = Math.asin(clampUnit(dot(a, at.zenith))) / DEG;
-	if (at.sunAltitudeDeg > limits.sunAltitudeLimitDeg) return out;
-	out.stage = Stage.Dark;
-	if (out.altitudeDeg < limits.minAltitudeDeg) return out;
-	out.stage = Stage.AboveAltitude;
-	const x = airmassKastenYoung1989(out.altitudeDeg + standardRefractionDeg(out.altitudeDeg));
-	out.airmass = x ?? Infinity;
-	if (x === null || x > limits.maxAirmass) return out;
-	out.stage = Stage.WithinAirmass;
-	out.sunSepDeg = angleDeg(a, at.sunGeo);
-	if (out.sunSepDeg < limits.minSunSeparationDeg) return out;
-	out.stage = Stage.ClearOfSun;
-	out.moonSepDeg = angleDeg(a, at.moonTopo);
-	if (out.moonSepDeg < limits.minMoonSeparationDeg) return out;
-	out.stage = Stage.Observable;
-	return out;
-}
+import { ephemerisTables, instantAt, siteEphemeris, type ApparentInstant, type SiteEphemeris } from './apparent-place.ts';
+import { ASTRONOMICAL_TWILIGHT_ALTITUDE_DEG, NAUTICAL_TWILIGHT_ALTITUDE_DEG } from './night.ts';
+import { validateSite, validateTarget } from './observing-inputs.ts';
+import { AIRMASS_MARGIN, darkIntervals, MARGIN_DEG, sampleAt, Stage, sunElongationDeg, type Limits, type Sample } from './plan-constraints.ts';
+import type {
+	CoveragePoint,
+	DropReason,
+	DroppedVisit,
+	NetworkPlan,
+	PlanAssignment,
+	PlanClaim,
+	PlanInput,
+	PlanTarget,
+	PlanTelescope
+} from './plan-types.ts';
+import { unitVector, type Vec3 } from './sky-geometry.ts';
+import { fovAreaDeg2, WIDE_FIELD_MIN_DEG2 } from './telescope.ts';
 
 // ---------------------------------------------------------------------------------------------
 // Planning
@@ -471,7 +68,7 @@ interface VisitState {
 interface TelescopeState {
 	index: number;
 	telescope: PlanTelescope;
-	site: SiteTables;
+	site: SiteEphemeris;
 	exposureMs: number;
 	slewMs: number;
 	defaultFilter: string | null;
@@ -481,11 +78,7 @@ interface TelescopeState {
 	free: number;
 	assignments: PlanAssignment[];
 	cumulative: number;
-	instants: Map<number, Instant>;
-}
-
-function fovAreaDeg2(t: PlanTelescope): number {
-	return t.fovShape === 'circle' ? (Math.PI / 4) * t.fovWidthDeg * t.fovWidthDeg : t.fovWidthDeg * t.fovHeightDeg;
+	instants: Map<number, ApparentInstant>;
 }
 
 function positive(name: string, value: number): void {
@@ -520,7 +113,7 @@ export function planNetwork(input: PlanInput): NetworkPlan {
 	const stepMs = stepS * 1000;
 	const endMs = startMs + horizonH * 3_600_000;
 	const sunAltitudeLimitDeg = input.darkness === 'nautical' ? NAUTICAL_TWILIGHT_ALTITUDE_DEG : ASTRONOMICAL_TWILIGHT_ALTITUDE_DEG;
-	const wideFieldMinAreaDeg2 = input.wideFieldMinAreaDeg2 ?? 1;
+	const wideFieldMinAreaDeg2 = input.wideFieldMinAreaDeg2 ?? WIDE_FIELD_MIN_DEG2;
 	const lastChanceRatio = input.lastChanceRatio ?? 0.5;
 	const repeatPriority = input.repeatPriority ?? 1;
 	const minEpochGapMs = (input.minEpochGapS ?? 3600) * 1000;
@@ -554,13 +147,13 @@ export function planNetwork(input: PlanInput): NetworkPlan {
 	for (const t of input.telescopes) maxSlotMs = Math.max(maxSlotMs, (exposureOf(t) + t.slewOverheadS) * 1000);
 
 	// Tables reach one slot past the end: the last-chance test looks one slot ahead.
-	const global = buildGlobalTables(startMs, endMs + 2 * maxSlotMs + stepMs);
-	const sites = new Map<string, SiteTables>();
+	const global = ephemerisTables(startMs, endMs + 2 * maxSlotMs + stepMs);
+	const sites = new Map<string, SiteEphemeris>();
 
 	const telescopes: TelescopeState[] = input.telescopes.map((t, index) => {
 		const key = `${t.latitudeDeg}|${t.longitudeDeg}|${t.elevationM}`;
 		let site = sites.get(key);
-		if (!site) sites.set(key, (site = buildSiteTables(global, t)));
+		if (!site) sites.set(key, (site = siteEphemeris(global, t)));
 		const defaultFilter = input.defaultFilter?.[t.id] ?? t.filters[0] ?? null;
 		return {
 			index,
@@ -585,7 +178,7 @@ export function planNetwork(input: PlanInput): NetworkPlan {
 		};
 	});
 
-	const at = (ts: TelescopeState, ms: number): Instant => {
+	const at = (ts: TelescopeState, ms: number): ApparentInstant => {
 		let i = ts.instants.get(ms);
 		if (!i) ts.instants.set(ms, (i = instantAt(global, ts.site, ms)));
 		return i;
@@ -596,7 +189,7 @@ export function planNetwork(input: PlanInput): NetworkPlan {
 	// Visits, eligibility and claims.
 	const claims = input.claims ?? [];
 	const visits: VisitState[] = [];
-	const unitVectors: Vec3[] = input.targets.map((t) => radecVector(t.raDeg, t.decDeg));
+	const unitVectors: Vec3[] = input.targets.map((t) => unitVector(t.raDeg, t.decDeg));
 	input.targets.forEach((target, targetIndex) => {
 		const requested = target.visits && target.visits.length > 0 ? target.visits : [{}];
 		const seen = new Set<string>();
@@ -778,7 +371,7 @@ export function planNetwork(input: PlanInput): NetworkPlan {
 		for (const ts of eligible) {
 			for (let ms = startMs; ms <= endMs; ms += stepMs) {
 				const i = at(ts, ms);
-				const el = angleDeg(apparent(u, i.beta), i.sunGeo);
+				const el = sunElongationDeg(u, i);
 				maxElongation = Math.max(maxElongation, el);
 				if (el >= ts.limits.minSunSeparationDeg) sunAlwaysClose = false;
 			}
@@ -878,43 +471,4 @@ function ineligibility(v: VisitState, ts: TelescopeState, galaxiesOnWideField: b
 	if (v.filter !== null && !t.filters.includes(v.filter)) return `filter ${v.filter} not on ${t.name}`;
 	if (v.filter === null && ts.defaultFilter === null) return `${t.name} lists no filter`;
 	return null;
-}
-
-/**
- * Intervals inside [t0, t1] with the Sun at or below the limit: the `stepMs` grid, each
- * crossing refined by bisection to 1 s, both ends on the dark side. An interval shorter than
- * one step between two light samples can be missed.
- */
-function darkIntervals(
-	t0: number,
-	t1: number,
-	stepMs: number,
-	limitDeg: number,
-	sunAltitudeDeg: (ms: number) => number
-): [number, number][] {
-	const isDark = (ms: number) => sunAltitudeDeg(ms) <= limitDeg;
-	const edge = (lo: number, hi: number): [number, number] => {
-		const darkAtLo = isDark(lo);
-		while (hi - lo > EDGE_PRECISION_MS) {
-			const m = Math.round((lo + hi) / 2);
-			if (isDark(m) === darkAtLo) lo = m;
-			else hi = m;
-		}
-		return [lo, hi];
-	};
-	const out: [number, number][] = [];
-	let openAt: number | null = isDark(t0) ? t0 : null;
-	let previous = t0;
-	for (let ms = Math.min(t0 + stepMs, t1); ; ms = Math.min(ms + stepMs, t1)) {
-		const dark = isDark(ms);
-		if (dark && openAt === null) openAt = edge(previous, ms)[1];
-		else if (!dark && openAt !== null) {
-			out.push([openAt, edge(previous, ms)[0]]);
-			openAt = null;
-		}
-		previous = ms;
-		if (ms >= t1) break;
-	}
-	if (openAt !== null) out.push([openAt, t1]);
-	return out;
 }

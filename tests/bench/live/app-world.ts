@@ -63,7 +63,7 @@ export async function prepareAppWorld(root: string, dbFile: string, storageDir: 
 		// A compact map of our own opposite the Sun today: claims inside a telescope's Sun limit are
 		// refused, and a fixed sky position drifts into the Sun's zone as the year turns.
 		const { generateSkymap, skymapToFits } = await import('../../../fake-alert-broker/skymap.ts');
-		const { sunPosition } = await import('../../../src/lib/targeting/night.ts');
+		const { sunPosition } = await import('../../../src/lib/targeting/sun-moon.ts');
 		const antiSunRaDeg = (sunPosition({ latitudeDeg: 0, longitudeDeg: 0, elevationM: 0 }, new Date()).raDeg + 180) % 360;
 		const map = skymapToFits(generateSkymap({ components: [{ raDeg: antiSunRaDeg, decDeg: -20, widthDeg: 2 }], distance: { meanMpc: 118, stdMpc: 24 } }), {
 			object: SOURCE_ID,

@@ -4,7 +4,7 @@ import { readFileSync } from 'node:fs';
 import Database from 'better-sqlite3';
 import { io, type Socket } from 'socket.io-client';
 import { BASE_URL } from '../../../playwright.config';
-import { sunSeparationDeg } from '../../../src/lib/targeting/night';
+import { sunSeparationDeg } from '../../../src/lib/targeting/sun-moon';
 
 /**
  * The app's database file (WAL mode): the test creates people and tokens in it directly, as an

@@ -2,7 +2,7 @@
 import { expect, type Page } from '@playwright/test';
 import { mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { generateSkymap, skymapToFits } from '../../../fake-alert-broker/skymap';
-import { sunPosition } from '../../../src/lib/targeting/night';
+import { sunPosition } from '../../../src/lib/targeting/sun-moon';
 
 const WORK = 'test-results/e2e-events';
 

@@ -2,7 +2,7 @@ import { test, expect, type Page } from '@playwright/test';
 import { mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { signInAs } from '../support/people';
 import { generateSkymap, skymapToFits } from '../../../fake-alert-broker/skymap';
-import { sunPosition } from '../../../src/lib/targeting/night';
+import { sunPosition } from '../../../src/lib/targeting/sun-moon';
 
 const SCREENS = 'test-results/screens';
 mkdirSync(SCREENS, { recursive: true });

@@ -11,7 +11,7 @@ import { onRecorded, SYSTEM, type LiveMessage } from '../platform/realtime';
 import { receivedMail, stopFakeSmtp } from '../platform/fake-smtp';
 import { cancelOpenClaims as ingestCancelOpenClaims } from '../alerts/ingest';
 import * as claims from './claims';
-import { sunPosition, sunSeparationDeg } from '../../targeting/night.ts';
+import { sunPosition, sunSeparationDeg } from '../../targeting/sun-moon.ts';
 
 const MIN = 60_000;
 let n = 0;

@@ -13,7 +13,7 @@ import * as table from '../platform/db/schema';
 import { randomId, type SessionUser } from '../people/auth';
 import { actorOf, record, SYSTEM, type Actor } from '../platform/realtime';
 import { sendMail } from '../platform/mail';
-import { sunAvoidance } from '../../targeting/night.ts';
+import { sunAvoidance } from '../../targeting/sun-moon.ts';
 
 export const DEFAULT_LAPSE_MINUTES = 60;
 export const LAPSE_CHECK_MS = 30_000;

@@ -15,6 +15,7 @@ import { readStoredFile } from '../platform/storage';
 import { readSkyMap, type SkyMap } from '../../sky/index.ts';
 import { coverage, galaxyCoverage, type ObservedFootprint } from '../../targeting/coverage.ts';
 import type { FootprintShape } from '../../targeting/sky-geometry.ts';
+import { footprintOf } from '../../targeting/telescope.ts';
 
 /**
  * Edge resolution: pixel side ≤ the footprint's smallest side / 32 (coverage.ts's default). The
@@ -82,10 +83,6 @@ function loadMap(skymapId: string, filePath: string): SkyMap {
 	return map;
 }
 
-function shapeOf(t: { fovShape: 'rectangle' | 'circle'; fovWidthDeg: number; fovHeightDeg: number }): FootprintShape {
-	return t.fovShape === 'circle' ? { shape: 'circle', diameterDeg: t.fovWidthDeg } : { shape: 'rectangle', widthDeg: t.fovWidthDeg, heightDeg: t.fovHeightDeg };
-}
-
 /** Coverage of an event's completed observations on its current map; null without a usable map. */
 export function eventCoverage(eventId: string): EventCoverage | null {
 	const event = db.select({ skymapId: table.gwEvent.latestSkymapId, eventTime: table.gwEvent.eventTime }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
@@ -136,7 +133,7 @@ export function eventCoverage(eventId: string): EventCoverage | null {
 	const map = loadMap(sky.id, sky.filePath);
 	const mergerMs = event.eventTime ? event.eventTime.getTime() : null;
 	const hours = (ms: number) => (mergerMs === null ? ms / 3_600_000 : (ms - mergerMs) / 3_600_000);
-	const footprints: ObservedFootprint[] = rows.map((r) => ({ id: r.id, groupId: r.teamId, timeMs: r.observedAt.getTime(), raDeg: r.raDeg, decDeg: r.decDeg, ...shapeOf(r) }));
+	const footprints: ObservedFootprint[] = rows.map((r) => ({ id: r.id, groupId: r.teamId, timeMs: r.observedAt.getTime(), raDeg: r.raDeg, decDeg: r.decDeg, ...footprintOf(r) }));
 	const union = coverage(map, footprints, { pixelsAcross: PIXELS_ACROSS, mergerTimeMs: mergerMs ?? undefined });
 
 	let galaxies: EventCoverage['galaxies'] = null;
@@ -194,7 +191,7 @@ export function eventCoverage(eventId: string): EventCoverage | null {
 			id: r.id,
 			raDeg: r.raDeg,
 			decDeg: r.decDeg,
-			shape: shapeOf(r),
+			shape: footprintOf(r),
 			teamId: r.teamId,
 			teamName: r.teamName,
 			telescopeName: r.telescopeName,

@@ -10,7 +10,8 @@ import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { randomId, type SessionUser } from '../people/auth';
 import { actorOf, record, type Actor } from '../platform/realtime';
-import { footprintContains, footprintGeometry, type FootprintShape } from '../../targeting/sky-geometry.ts';
+import { footprintContains, footprintGeometry } from '../../targeting/sky-geometry.ts';
+import { footprintOf } from '../../targeting/telescope.ts';
 import { splitCsvLine } from '../../csv';
 import { DomainError } from '../platform/errors';
 
@@ -41,10 +42,6 @@ export type ObservationInput = z.infer<typeof observationInput>;
 
 /** Who reports: a person (observer of the telescope's team, or a coordinator) or a telescope token. */
 export type Reporter = { user: SessionUser; telescopeId?: null; tokenId?: null } | { user: null; telescopeId: string; tokenId: string | null };
-
-function fovOf(t: table.Telescope): FootprintShape {
-	return t.fovShape === 'circle' ? { shape: 'circle', diameterDeg: t.fovWidthDeg } : { shape: 'rectangle', widthDeg: t.fovWidthDeg, heightDeg: t.fovHeightDeg };
-}
 
 export interface ReportResult {
 	observation: table.Observation;
@@ -143,7 +140,7 @@ function prepare(reporter: Reporter, raw: ObservationInput, now: Date): Prepared
 
 function store(reporter: Reporter, p: Prepared, source: table.Observation['source'], now: Date): ReportResult {
 	const { input, scope, event, raDeg, decDeg, observedAt } = p;
-	const footprint = footprintGeometry({ raDeg, decDeg, ...fovOf(scope) });
+	const footprint = footprintGeometry({ raDeg, decDeg, ...footprintOf(scope) });
 	const open = db
 		.select()
 		.from(table.claim)

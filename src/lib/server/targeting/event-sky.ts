@@ -12,7 +12,8 @@ import { listTelescopes } from '../people/telescopes';
 import type { EventCoverage } from '../coordination/event-coverage';
 import { isStoredRaster, packRaster } from '../../sky-view/raster-image.ts';
 import type { DisplayRaster, SkyBody, SkyCandidate, SkyContour, SkyFootprint, SkyTarget, TargetState } from '../../sky-view/types.ts';
-import { moonPhase, moonPosition, sunPosition } from '../../targeting/night.ts';
+import { moonPhase, moonPosition, sunPosition } from '../../targeting/sun-moon.ts';
+import { footprintOf } from '../../targeting/telescope.ts';
 import { formatProbability } from '../../alerts/display.ts';
 
 /** Display avoidance radii: the telescope defaults (telescope.min_sun/moon_separation_deg). */
@@ -97,7 +98,7 @@ export function eventSky(
 			decDeg: f.dec,
 			state: s.state,
 			telescopeId: f.telescopeId,
-			footprint: scope.fovShape === 'circle' ? { shape: 'circle', diameterDeg: scope.fovWidthDeg } : { shape: 'rectangle', widthDeg: scope.fovWidthDeg, heightDeg: scope.fovHeightDeg },
+			footprint: footprintOf(scope),
 			label: `${f.fieldId} (${scope.name})`,
 			details: [`#${f.rank} for ${scope.name} · probability ${pct(f.probability)}`, ...(s.line ? [s.line] : [])]
 		});

@@ -15,9 +15,12 @@ import { createTeam } from '../people/teams';
 import { createTelescope, listTelescopes } from '../people/telescopes';
 import * as claims from '../coordination/claims';
 import { clearTargetCaches, eventGalaxies, HELD_CLAIM_STATES, installTargets, STORED_GALAXIES, targetsIdle } from './rankings';
-import { effectiveMinAltitudeDeg, tonight, tonightFor, visibility, type TelescopeRow } from './visibility-view';
-import { altitudesNow, observableNowMask, parseTargetQuery, skyNow, targetsPageData, type TargetQuery } from './filters';
-import { sunSeparationDeg, targetAltAz } from '../../targeting/night.ts';
+import type { TelescopeRow } from './visibility-view';
+import { parseTargetQuery, targetsPageData, type TargetQuery } from './filters';
+import { altitudesNow, targetAltAz } from '../../targeting/apparent-place.ts';
+import { effectiveMinAltitudeDeg } from '../../targeting/telescope.ts';
+import { observableNowMask, skyNow, tonight, tonightFor, visibility } from '../../targeting/visibility.ts';
+import { sunSeparationDeg } from '../../targeting/sun-moon.ts';
 import { DEMO_TEAMS, DEMO_TELESCOPES } from '../../../../seeds/scenario';
 import { mulberry32 } from '../../../../fake-alert-broker/prng.ts';
 

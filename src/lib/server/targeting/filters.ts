@@ -1,131 +1,20 @@
 /**
  * Filters of the ranked target tables ("observable now", unclaimed, by team) and the data of the
  * targets page, built so that 10⁴ stored galaxies filter, sort and page within a request.
- *
- * "Observable now" over every stored row cannot afford the per-target rise/set search of
- * `visibility()` (an observable window is a few dozen altitude evaluations per target). It is
- * the same test evaluated at one instant only: darkness now (once per request), then per target
- * the geometric altitude from the hour-angle formula
- *   sin h = sin φ sin δ + cos φ cos δ cos H,   H = LAST − α   (Meeus, Astronomical Algorithms, 2nd ed., eq. 13.6)
- * on the apparent place of date (annual aberration, then precession–nutation as one matrix, both
- * computed once per request with astronomy-engine, as `targetAltAz` in night.ts does per target),
- * and the solar elongation from one dot product with the Sun's direction. The full `visibility()`
- * then runs for the rows of the page only.
+ * "Observable now" is the one-instant test of `lib/targeting/visibility.ts` (`observableNowMask`)
+ * over every stored row; the full `visibility()` runs for the rows of the page only.
  */
-import { BaryState, Body, GeoVector, MakeTime, Rotation_EQJ_EQD } from 'astronomy-engine';
 import type { SessionUser } from '../people/auth';
 import { can } from '../people/permissions';
 import * as claims from '../coordination/claims';
 import { getEvent } from '../alerts/events';
 import { listTelescopes } from '../people/telescopes';
 import { eventFieldsPage, eventGalaxies, FIELD_SORTS, GALAXY_SORTS, targetsMeta, type FieldSort, type GalaxySort, type TargetFilter } from './rankings';
-import { effectiveMinAltitudeDeg, telescopeViews, tonightFor, visibility, type TelescopeRow } from './visibility-view';
-import { localSiderealTimeHours, type NightInfo } from '../../targeting/night.ts';
-
-const DEG = Math.PI / 180;
-/** Speed of light in AU per day (IAU 2012 au, c = 299 792.458 km/s), as night.ts uses it. */
-const C_AU_PER_DAY = 173.144632674;
+import { telescopeViews } from './visibility-view';
+import { observableNowMask, skyNow, tonightFor, visibility } from '../../targeting/visibility.ts';
 
 /** Rows per page in both tables. */
 export const PAGE_SIZE = 25;
-
-// ─── The sky at one instant, for many targets ───
-
-export interface SkyNow {
-	latitudeDeg: number;
-	/** Local apparent sidereal time, degrees. */
-	lastDeg: number;
-	/** Earth's barycentric velocity / c on J2000 axes (annual aberration). */
-	beta: [number, number, number];
-	/** J2000 → equator and equinox of date (precession + nutation), astronomy-engine's layout rot[i][j]. */
-	rot: number[][];
-	/** Geocentric apparent unit vector of the Sun on J2000 axes. */
-	sun: [number, number, number];
-	/** Astronomical darkness at this instant (per the telescope's night). */
-	dark: boolean;
-	minAltitudeDeg: number;
-	minSunSeparationDeg: number;
-}
-
-/** Everything the per-target test needs that does not depend on the target: computed once. */
-export function skyNow(t: Pick<TelescopeRow, 'latitudeDeg' | 'longitudeDeg' | 'minAltitudeDeg' | 'maxAirmass' | 'minSunSeparationDeg'>, night: NightInfo | null, now: Date): SkyNow {
-	const time = MakeTime(now);
-	const earth = BaryState(Body.Earth, time);
-	const s = GeoVector(Body.Sun, time, true);
-	const r = Math.hypot(s.x, s.y, s.z);
-	const lon = t.longitudeDeg > 180 ? t.longitudeDeg - 360 : t.longitudeDeg;
-	const darkness = night?.darkness ?? null;
-	const nowMs = now.getTime();
-	return {
-		latitudeDeg: t.latitudeDeg,
-		lastDeg: localSiderealTimeHours(now, lon, 'apparent') * 15,
-		beta: [earth.vx / C_AU_PER_DAY, earth.vy / C_AU_PER_DAY, earth.vz / C_AU_PER_DAY],
-		rot: Rotation_EQJ_EQD(time).rot,
-		sun: [s.x / r, s.y / r, s.z / r],
-		dark: Boolean(darkness && Date.parse(darkness.start) <= nowMs && nowMs < Date.parse(darkness.end)),
-		minAltitudeDeg: effectiveMinAltitudeDeg(t),
-		minSunSeparationDeg: t.minSunSeparationDeg
-	};
-}
-
-/**
- * Geometric topocentric altitude (degrees) and solar elongation (degrees) of many fixed ICRS
- * directions at the instant of `sky`: the hour-angle formula above on the apparent place of date.
- * A distant source has no parallax, so geocentric and topocentric directions agree.
- */
-export function altitudesNow(sky: SkyNow, raDeg: Float64Array, decDeg: Float64Array): { altitudeDeg: Float64Array; sunSeparationDeg: Float64Array } {
-	const n = raDeg.length;
-	const altitudeDeg = new Float64Array(n);
-	const sunSeparationDeg = new Float64Array(n);
-	const [bx, by, bz] = sky.beta;
-	const m = sky.rot;
-	const sinLat = Math.sin(sky.latitudeDeg * DEG);
-	const cosLat = Math.cos(sky.latitudeDeg * DEG);
-	const last = sky.lastDeg * DEG;
-	const [sx, sy, sz] = sky.sun;
-	for (let k = 0; k < n; k++) {
-		const ra = raDeg[k] * DEG;
-		const dec = decDeg[k] * DEG;
-		const cd = Math.cos(dec);
-		const ux = cd * Math.cos(ra);
-		const uy = cd * Math.sin(ra);
-		const uz = Math.sin(dec);
-		// Annual aberration to first order in v/c, u' = u + β − (u·β) u, renormalised (as night.ts).
-		const dot = ux * bx + uy * by + uz * bz;
-		let x = ux + bx - dot * ux;
-		let y = uy + by - dot * uy;
-		let z = uz + bz - dot * uz;
-		const r = Math.hypot(x, y, z);
-		x /= r;
-		y /= r;
-		z /= r;
-		const cosSun = Math.min(1, Math.max(-1, x * sx + y * sy + z * sz));
-		sunSeparationDeg[k] = Math.acos(cosSun) / DEG;
-		// Of date: v = rotᵀ u (astronomy-engine's RotateVector convention).
-		const vx = m[0][0] * x + m[1][0] * y + m[2][0] * z;
-		const vy = m[0][1] * x + m[1][1] * y + m[2][1] * z;
-		const vz = m[0][2] * x + m[1][2] * y + m[2][2] * z;
-		const sinDec = Math.min(1, Math.max(-1, vz));
-		const cosDec = Math.hypot(vx, vy);
-		const hourAngle = last - Math.atan2(vy, vx);
-		const sinAlt = sinLat * sinDec + cosLat * cosDec * Math.cos(hourAngle);
-		altitudeDeg[k] = Math.asin(Math.min(1, Math.max(-1, sinAlt))) / DEG;
-	}
-	return { altitudeDeg, sunSeparationDeg };
-}
-
-/**
- * 1 where the telescope can observe the target at this instant: dark now, geometric altitude at or
- * above the telescope's effective limit (altitude limit or the airmass limit's altitude, the test
- * behind the row's "up now"), and not refused by Sun avoidance.
- */
-export function observableNowMask(sky: SkyNow, raDeg: Float64Array, decDeg: Float64Array): Uint8Array {
-	const out = new Uint8Array(raDeg.length);
-	if (!sky.dark) return out;
-	const { altitudeDeg, sunSeparationDeg } = altitudesNow(sky, raDeg, decDeg);
-	for (let k = 0; k < out.length; k++) out[k] = altitudeDeg[k] >= sky.minAltitudeDeg && sunSeparationDeg[k] >= sky.minSunSeparationDeg ? 1 : 0;
-	return out;
-}
 
 // ─── The query string ───
 

@@ -12,8 +12,9 @@ import { commitNotice, processInbox } from '../alerts/ingest';
 import { importCatalog } from './catalogs';
 import { createTeam } from '../people/teams';
 import { createTelescope } from '../people/telescopes';
-import { clearTargetCaches, eventFields, eventFieldsPage, eventGalaxies, fieldsResponse, galaxiesResponse, installTargets, isWideField, rankEvent, targetsIdle, targetsMeta } from './rankings';
+import { clearTargetCaches, eventFields, eventFieldsPage, eventGalaxies, fieldsResponse, galaxiesResponse, installTargets, rankEvent, targetsIdle, targetsMeta } from './rankings';
 import { DEMO_TELESCOPES } from '../../../../seeds/scenario';
+import { isWideField } from '../../targeting/telescope.ts';
 import { credibleRegions, readSkyMap } from '../../sky/index';
 import type { DB } from '../platform/db';
 

@@ -5,10 +5,9 @@
  * tiling by enclosed probability (`lib/targeting/fields.ts`). The rankings of an event are kept
  * for its current map only: a new map replaces them in one transaction.
  *
- * Wide or narrow: a telescope whose field of view covers at least WIDE_FIELD_MIN_DEG2 (1 deg²)
- * tiles the sky; a narrower one points at galaxies. Galaxy targeting pays off when a field holds
- * about one galaxy of the region, and at ≲ 1 deg² the fields needed to tile a typical 90% region
- * of tens to hundreds of deg² outnumber what a night allows (common practice).
+ * Wide or narrow: a telescope whose field of view covers at least WIDE_FIELD_MIN_DEG2 (1 deg²,
+ * `lib/targeting/telescope.ts`, where the reason is given) tiles the sky; a narrower one points
+ * at galaxies.
  */
 import { and, asc, desc, eq, inArray, notInArray, sql, type SQL } from 'drizzle-orm';
 import type { SQLiteColumn } from 'drizzle-orm/sqlite-core';
@@ -19,11 +18,10 @@ import { readStoredFile } from '../platform/storage';
 import { activeCatalog, getCatalog } from './catalogs';
 import { SUN_ABS_MAG_B } from '../../targeting/catalog-csv.ts';
 import { buildCatalogIndex, INDEX_ORDER, rankGalaxies, type CatalogIndex, type GalaxyCatalog, type WeightSource } from '../../targeting/galaxies.ts';
-import { rankFields, tileSky, type FieldOfView, type Tiling } from '../../targeting/fields.ts';
+import { rankFields, tileSky, type Tiling } from '../../targeting/fields.ts';
+import { footprintOf, isWideField } from '../../targeting/telescope.ts';
 import { readSkyMap } from '../../sky/index.ts';
 
-/** Fields of view at least this large (deg²) get survey fields; smaller ones get galaxies. */
-export const WIDE_FIELD_MIN_DEG2 = 1;
 /** Credible level of the region searched for galaxies and fields. */
 export const TARGET_LEVEL = 0.99;
 /**
@@ -34,19 +32,6 @@ export const STORED_GALAXIES = 10_000;
 /** Fields stored per telescope: until the union reaches this probability, at most MAX_FIELDS. */
 export const FIELDS_CUMULATIVE = 0.99;
 export const MAX_FIELDS = 300;
-
-/** Area of a telescope's field of view, deg² (a circle's diameter is its width). */
-export function fovAreaDeg2(t: Pick<table.Telescope, 'fovShape' | 'fovWidthDeg' | 'fovHeightDeg'>): number {
-	return t.fovShape === 'circle' ? Math.PI * (t.fovWidthDeg / 2) ** 2 : t.fovWidthDeg * t.fovHeightDeg;
-}
-
-export function isWideField(t: Pick<table.Telescope, 'fovShape' | 'fovWidthDeg' | 'fovHeightDeg'>): boolean {
-	return fovAreaDeg2(t) >= WIDE_FIELD_MIN_DEG2;
-}
-
-function fovOf(t: table.Telescope): FieldOfView {
-	return t.fovShape === 'circle' ? { shape: 'circle', diameterDeg: t.fovWidthDeg } : { shape: 'rectangle', widthDeg: t.fovWidthDeg, heightDeg: t.fovHeightDeg };
-}
 
 // ─── Deliberate caches: a catalogue's index and a field of view's tiling never change once built. ───
 
@@ -115,7 +100,7 @@ export function catalogIndex(catalogId: string): CachedCatalog {
 }
 
 function tilingFor(t: table.Telescope): Tiling {
-	const fov = fovOf(t);
+	const fov = footprintOf(t);
 	const key = JSON.stringify(fov);
 	let tiling = tilingCache.get(key);
 	if (!tiling) {

@@ -1,104 +1,25 @@
 /**
- * What the targets and plan pages show beside the rankings: each telescope's night, its depth
- * check against the event's distance, per-target visibility now and tonight, and the network
- * plan for the next 24 h. Computed on request from the stored rankings (cheap: a page of targets).
+ * What the targets and plan pages show beside the rankings: each telescope's night and its depth
+ * check against the event's distance, and the network plan for the next 24 h with what it is
+ * expected to cover. Computed on request from the stored rankings; the astronomy is in
+ * `lib/targeting` (visibility.ts, night.ts, plan.ts).
  */
 import { eq } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { listTelescopes } from '../people/telescopes';
-import { eventFields, eventGalaxies, isWideField, fovAreaDeg2, STORED_GALAXIES } from './rankings';
-import {
-	moonSeparationDeg,
-	nightWindow,
-	observableWindow,
-	sunAvoidance,
-	targetAltAz,
-	type NightInfo,
-	type Site
-} from '../../targeting/night.ts';
+import { eventFields, eventGalaxies, STORED_GALAXIES } from './rankings';
 import { depthCheck, type DepthCheck } from '../../targeting/depth.ts';
-import { planNetwork, type NetworkPlan, type PlanClaim, type PlanTarget } from '../../targeting/plan.ts';
+import { planNetwork } from '../../targeting/plan.ts';
+import type { NetworkPlan, PlanClaim, PlanTarget } from '../../targeting/plan-types.ts';
+import { footprintOf, fovAreaDeg2, isWideField, siteOf } from '../../targeting/telescope.ts';
+import { tonight } from '../../targeting/visibility.ts';
 import { listClaims } from '../coordination/claims';
 import { coverage, type ObservedFootprint } from '../../targeting/coverage.ts';
 import { readSkyMap } from '../../sky/index.ts';
 import { readStoredFile } from '../platform/storage';
 
 export type TelescopeRow = ReturnType<typeof listTelescopes>[number];
-
-export function siteOf(t: Pick<table.Telescope, 'latitudeDeg' | 'longitudeDeg' | 'elevationM'>): Site {
-	return { latitudeDeg: t.latitudeDeg, longitudeDeg: t.longitudeDeg, elevationM: t.elevationM };
-}
-
-function ymd(ms: number): string {
-	return new Date(ms).toISOString().slice(0, 10);
-}
-
-/**
- * Tonight at a site: the night of the local mean-solar date 12 h before now (so that after
- * midnight it is still the night in progress), or the next one once that night's darkness (or,
- * without darkness, its sunrise) has passed.
- */
-export function tonight(site: Site, now: Date): NightInfo {
-	const localMs = now.getTime() + (site.longitudeDeg / 15) * 3_600_000;
-	const night = nightWindow(site, ymd(localMs - 12 * 3_600_000));
-	const over = night.darkness?.end ?? night.sunset.morning ?? night.windowEnd;
-	return Date.parse(over) < now.getTime() ? nightWindow(site, ymd(localMs + 12 * 3_600_000)) : night;
-}
-
-/**
- * Lowest altitude a telescope may point at: its altitude limit, or the altitude of its airmass
- * limit by the plane-parallel secant law X = 1 / sin(alt) when that is higher (common practice).
- */
-export function effectiveMinAltitudeDeg(t: Pick<table.Telescope, 'minAltitudeDeg' | 'maxAirmass'>): number {
-	const fromAirmass = t.maxAirmass > 1 ? (Math.asin(1 / t.maxAirmass) * 180) / Math.PI : 90;
-	return Math.max(t.minAltitudeDeg, fromAirmass);
-}
-
-export interface Visibility {
-	altitudeDeg: number;
-	airmass: number | null;
-	/** Above the limit at this moment (and dark). */
-	upNow: boolean;
-	/** When it is next above the limit in darkness tonight (the start of the first interval not yet over). */
-	from: string | null;
-	until: string | null;
-	fromBy: 'darkness' | 'rise' | null;
-	/** Why it is not observable tonight. */
-	reason: string | null;
-	moonSepDeg: number;
-	sunElongationDeg: number;
-	/** Refused by the Sun-avoidance limit, with the reason. */
-	sunDropped: string | null;
-}
-
-export function visibility(t: TelescopeRow, night: NightInfo, target: { raDeg: number; decDeg: number }, now: Date): Visibility {
-	const site = siteOf(t);
-	const here = targetAltAz(site, target, now);
-	const minAlt = effectiveMinAltitudeDeg(t);
-	const sun = sunAvoidance(target, now, t.minSunSeparationDeg);
-	const win = observableWindow(site, target, night, minAlt);
-	const next = win.intervals.find((i) => Date.parse(i.end) > now.getTime()) ?? null;
-	const upNow = next !== null && Date.parse(next.start) <= now.getTime();
-	return {
-		altitudeDeg: here.geometricAltitudeDeg,
-		airmass: here.airmass,
-		upNow,
-		from: next?.start ?? null,
-		until: next?.end ?? null,
-		fromBy: next?.startsBy ?? null,
-		reason: next
-			? null
-			: !night.darkness
-				? 'no darkness tonight'
-				: win.intervals.length
-					? `set below ${minAlt.toFixed(0)}° for tonight`
-					: `below ${minAlt.toFixed(0)}° all night (highest ${win.maxAltitudeDeg?.toFixed(0)}°)`,
-		moonSepDeg: moonSeparationDeg(site, target, now),
-		sunElongationDeg: sun.elongationDeg,
-		sunDropped: sun.ok ? null : `dropped for Sun avoidance: ${sun.reason}`
-	};
-}
 
 export interface TelescopeView {
 	id: string;
@@ -160,10 +81,6 @@ export function telescopeViews(
 			fieldCount: fieldCounts[t.id] ?? 0
 		};
 	});
-}
-
-export function tonightFor(t: TelescopeRow, now: Date): NightInfo {
-	return tonight(siteOf(t), now);
 }
 
 /** Galaxies offered to the plan at most (the best ones; the rest add little probability). */
@@ -248,11 +165,7 @@ export function planCoverage(eventId: string, plan: NetworkPlan, telescopes: Tel
 	for (const a of assignments) {
 		const scope = scopes.get(a.telescopeId);
 		if (!scope) continue;
-		const shape =
-			scope.fovShape === 'circle'
-				? ({ shape: 'circle', diameterDeg: scope.fovWidthDeg } as const)
-				: ({ shape: 'rectangle', widthDeg: scope.fovWidthDeg, heightDeg: scope.fovHeightDeg } as const);
-		footprints.push({ id: `${a.telescopeId}:${a.targetId}:${a.start}`, groupId: a.telescopeId, timeMs: Date.parse(a.start), raDeg: a.raDeg, decDeg: a.decDeg, ...shape });
+		footprints.push({ id: `${a.telescopeId}:${a.targetId}:${a.start}`, groupId: a.telescopeId, timeMs: Date.parse(a.start), raDeg: a.raDeg, decDeg: a.decDeg, ...footprintOf(scope) });
 		if (a.kind === 'galaxy' && !seenGalaxies.has(a.targetId)) {
 			seenGalaxies.add(a.targetId);
 			galaxyTotal += a.probability;

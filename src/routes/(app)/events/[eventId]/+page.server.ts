@@ -9,7 +9,7 @@ import * as duty from '$lib/server/duty/paging';
 import { eventCoverage } from '$lib/server/coordination/event-coverage';
 import { eventSky } from '$lib/server/targeting/event-sky';
 import { listTelescopes } from '$lib/server/people/telescopes';
-import { isWideField } from '$lib/server/targeting/rankings';
+import { isWideField } from '$lib/targeting/telescope';
 
 export const load: PageServerLoad = ({ params, locals, depends }) => {
 	requirePermission('events.view');
