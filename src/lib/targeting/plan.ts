@@ -100,7 +100,7 @@ function claimMatches(c: PlanClaim, targetId: string, filter: string | null, epo
  * Plans the network's next `horizonH` hours: per telescope an ordered observing list, the visits
  * left out with a reason, and the expected covered probability over time. See the module comment
  * and docs/plan.md for the rules; constraints follow the telescope row (geometric altitude, Kasten
- * & Young 1989 airmass, geocentric solar elongation, topocentric Moon distance, as in night.ts).
+ * & Young 1989 airmass, geocentric solar elongation, topocentric Moon distance, as in apparent-place.ts and sun-moon.ts).
  */
 export function planNetwork(input: PlanInput): NetworkPlan {
 	const startMs = input.start instanceof Date ? input.start.getTime() : NaN;

@@ -93,7 +93,7 @@ function checkTarget(eventId: string, kind: table.Claim['targetKind'], targetId:
 
 /**
  * A telescope may not promise a target inside its own Sun-avoidance limit (the telescope's
- * min_sun_separation_deg; solar elongation now, from night.ts). The observatory's own rules
+ * min_sun_separation_deg; solar elongation now, from sun-moon.ts). The observatory's own rules
  * still decide at the telescope: this only stops the network from planning on such a target.
  */
 function checkSun(target: { raDeg: number; decDeg: number; name: string }, scope: table.Telescope, now: Date): void {
