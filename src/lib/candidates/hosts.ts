@@ -2,7 +2,7 @@
  * Which catalogue galaxies could host a candidate: those within an angular radius, with the
  * angular separation and the projected separation at each galaxy's distance. Pure.
  */
-import { angularSeparationDeg } from '../targeting/night.ts';
+import { angularSeparationDeg } from '../targeting/sky-geometry.ts';
 
 export interface CatalogueGalaxy {
 	id: string;

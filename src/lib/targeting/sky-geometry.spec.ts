@@ -2,8 +2,8 @@ import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { mulberry32 } from '../../../fake-alert-broker/prng.ts';
 import { fieldAt, inFootprint, tileSky, type FieldOfView } from './fields.ts';
-import { angularSeparationDeg } from './sun-moon.ts';
 import {
+	angularSeparationDeg,
 	containsVector,
 	DISC_INSIDE,
 	DISC_OUTSIDE,

@@ -36,6 +36,15 @@ export function unitVector(raDeg: number, decDeg: number): Vec3 {
 	return [cd * Math.cos(a), cd * Math.sin(a), Math.sin(d)];
 }
 
+/** Great-circle distance (degrees) between two RA/Dec directions (Vincenty form, stable at 0 and 180°). */
+export function angularSeparationDeg(a: { raDeg: number; decDeg: number }, b: { raDeg: number; decDeg: number }): number {
+	const [ra1, d1, ra2, d2] = [a.raDeg * DEG, a.decDeg * DEG, b.raDeg * DEG, b.decDeg * DEG];
+	const dra = ra2 - ra1;
+	const y = Math.hypot(Math.cos(d2) * Math.sin(dra), Math.cos(d1) * Math.sin(d2) - Math.sin(d1) * Math.cos(d2) * Math.cos(dra));
+	const x = Math.sin(d1) * Math.sin(d2) + Math.cos(d1) * Math.cos(d2) * Math.cos(dra);
+	return Math.atan2(y, x) / DEG;
+}
+
 /** RA in [0, 360) and Dec of a (not necessarily unit) vector, degrees. */
 export function vectorToRadec(v: Vec3): { raDeg: number; decDeg: number } {
 	const r = Math.hypot(v[0], v[1], v[2]);

@@ -7,7 +7,7 @@
  * Pure: no I/O, no framework.
  */
 import { AngleBetween, Body, Equator, GeoVector, Horizon, Illumination, MakeTime, MoonPhase } from 'astronomy-engine';
-import { apparentVectorJ2000, DEG, normalizeDeg, observerOf } from './apparent-place.ts';
+import { apparentVectorJ2000, normalizeDeg, observerOf } from './apparent-place.ts';
 import { requireFinite, validateTarget, type EquatorialTarget, type Site } from './observing-inputs.ts';
 
 export interface BodyPosition {
@@ -66,15 +66,6 @@ export function moonPhase(time: Date): MoonPhaseInfo {
 		phaseLongitudeDeg: lon,
 		waxing: lon < 180
 	};
-}
-
-/** Great-circle distance (degrees) between two RA/Dec directions (Vincenty form, stable at 0 and 180°). */
-export function angularSeparationDeg(a: EquatorialTarget, b: EquatorialTarget): number {
-	const [ra1, d1, ra2, d2] = [a.raDeg * DEG, a.decDeg * DEG, b.raDeg * DEG, b.decDeg * DEG];
-	const dra = ra2 - ra1;
-	const y = Math.hypot(Math.cos(d2) * Math.sin(dra), Math.cos(d1) * Math.sin(d2) - Math.sin(d1) * Math.cos(d2) * Math.cos(dra));
-	const x = Math.sin(d1) * Math.sin(d2) + Math.cos(d1) * Math.cos(d2) * Math.cos(dra);
-	return Math.atan2(y, x) / DEG;
 }
 
 function separationFromBodyDeg(body: Body, target: EquatorialTarget, time: Date, site?: Site): number {
