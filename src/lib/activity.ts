@@ -1,4 +1,7 @@
-const PHRASES: Record<string, string> = {
+import type { LiveAction } from './live-messages.ts';
+
+/** A phrase for every action (checked: a new action without one does not compile). */
+const PHRASES: { readonly [A in LiveAction]: string } = {
 	'targets.ranked': 'Targets ranked',
 	'catalog.started': 'Catalogue import started',
 	'catalog.imported': 'Catalogue imported',
@@ -36,13 +39,20 @@ const PHRASES: Record<string, string> = {
 	'shift.added': 'Shift added to the roster',
 	'shift.removed': 'Shift removed from the roster',
 	'shift.handover-written': 'Hand-over note written',
-	'event.created': 'New event', 'notice.processed': 'Notice processed', 'notice.rejected': 'Malformed notice kept in the inbox', 'skymap.analysed': 'Sky map analysed', 'skymap.failed': 'Sky map could not be used', 'event.retracted': 'Event retracted by the source', 'triage.policy-changed': 'Triage policy changed'
+	'event.created': 'New event',
+	'notice.processed': 'Notice processed',
+	'notice.rejected': 'Malformed notice kept in the inbox',
+	'skymap.analysed': 'Sky map analysed',
+	'skymap.failed': 'Sky map could not be used',
+	'event.retracted': 'Event retracted by the source',
+	'triage.policy-changed': 'Triage policy changed',
+	'catalog.progress': 'Catalogue import under way'
 };
 
-/** A short sentence for an event-log action, for the board's activity list. */
+/** A short sentence for an event-log action, for the board's activity list (an unknown action as it is). */
 export function describeAction(action: string): string {
-	return PHRASES[action] ?? action;
+	return (PHRASES as Readonly<Record<string, string | undefined>>)[action] ?? action;
 }
 
 /** Actions logged for live clients only (progress ticks), left out of the activity list. */
-export const QUIET_ACTIONS: readonly string[] = ['catalog.progress'];
+export const QUIET_ACTIONS: readonly LiveAction[] = ['catalog.progress'];

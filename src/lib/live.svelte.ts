@@ -1,15 +1,9 @@
 import { io, type ManagerOptions, type Socket, type SocketOptions } from 'socket.io-client';
+import type { LiveMessage } from './live-messages.ts';
+
+export type { LiveMessage };
 
 export type LiveStatus = 'connecting' | 'live' | 'offline' | 'refused';
-
-export interface LiveMessage {
-	seq: number;
-	room: string;
-	type: string;
-	actor: string;
-	payload: Record<string, unknown>;
-	at: string;
-}
 
 /** One person watching a room; `count` is how many tabs or devices they have open on it. */
 export interface Watcher {

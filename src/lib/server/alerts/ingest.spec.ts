@@ -207,7 +207,7 @@ describe('ingest: history, supersede chain and retraction', () => {
 		const history = database.select().from(table.notice).orderBy(table.notice.authoredAt).all();
 		expect(history.map((n) => n.kind)).toEqual(['preliminary', 'initial', 'update']);
 		expect(history[2].supersedesIvorn).toBe('ivo://strainline.example/fake-broker#SX30041207-2-initial');
-		const latestFlags = log.filter((m) => m.type === 'notice.processed' && m.room === 'board').map((m) => m.payload.latest);
+		const latestFlags = log.filter((m): m is LiveMessage<'notice.processed'> => m.type === 'notice.processed' && m.room === 'board').map((m) => m.payload.latest);
 		expect(latestFlags).toEqual([true, false, false]);
 	});
 

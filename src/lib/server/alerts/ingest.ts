@@ -14,11 +14,12 @@ import * as table from '../platform/db/schema';
 import { randomId } from '../people/auth';
 import { record, SYSTEM, type Actor } from '../platform/realtime';
 import { fetchSkymap, SkymapFetchError, type SkymapFetchOptions } from './skymap-fetch';
+import { keepSkyMap } from './skymap-cache';
 import { readStoredFile, saveSkymapFile } from '../platform/storage';
 import { policyInput, factsOf } from './triage-policy';
 import { parseVoevent, sniffIvorn, type Notice as ParsedNotice } from '../../alerts/voevent.ts';
 import { evaluateTriage } from '../../alerts/triage.ts';
-import { analyseSkymap, skyRaster } from '../../sky/index.ts';
+import { analyseSkymap, skyRaster, type SkyMap } from '../../sky/index.ts';
 import { cancelOpenClaims as releaseOpenClaims } from '../coordination/claims';
 
 export type InboxVia = table.NoticeInboxRow['via'];
@@ -199,7 +200,8 @@ async function runProcess(inboxId: number, opts: IngestOptions): Promise<IngestO
 	if (sky) {
 		for (const room of rooms(stored.eventId)) {
 			if (sky.error) record(actor, 'skymap.failed', room, { eventId: stored.eventId, noticeId: stored.noticeId, error: sky.error });
-			else record(actor, 'skymap.analysed', room, { eventId: stored.eventId, skymapId: sky.skymapId, noticeId: stored.noticeId, summary: sky.summary });
+			// A row without an error always has its summary (`analyse`).
+			else if (sky.summary) record(actor, 'skymap.analysed', room, { eventId: stored.eventId, skymapId: sky.skymapId, noticeId: stored.noticeId, summary: sky.summary });
 		}
 	}
 	const triage = event.triage ?? { verdict: 'skip' as const, reasons: [] };
@@ -348,21 +350,29 @@ async function attachSkymap(
 		const retry = !uploadedPath && isTransient(e) ? { fetchAttempts: 1, retryAt: retryTime(1, new Date()) } : { fetchAttempts: uploadedPath ? 0 : 1 };
 		return insertSkymap({ eventId, noticeId, sourceUrl, error: retry.retryAt ? `${error} (will try again)` : error, ...retry });
 	}
-	return insertSkymap({ eventId, noticeId, sourceUrl, fetchAttempts: uploadedPath ? 0 : 1, ...analysedColumns(eventId, noticeId, bytes) });
+	const analysis = analyse(eventId, noticeId, bytes);
+	const result = insertSkymap({ eventId, noticeId, sourceUrl, fetchAttempts: uploadedPath ? 0 : 1, ...analysis.columns });
+	if (analysis.map) keepSkyMap(result.skymapId, analysis.map);
+	return result;
 }
 
-/** Analyse fetched bytes into the sky-map row's columns (or the reason they could not be). */
-function analysedColumns(eventId: string, noticeId: string, bytes: Buffer): Partial<typeof table.skymap.$inferInsert> {
+type Analysis =
+	| { map: SkyMap; summary: table.SkymapSummary; columns: Partial<typeof table.skymap.$inferInsert> }
+	| { map: null; error: string; columns: Partial<typeof table.skymap.$inferInsert> };
+
+/** Analyse fetched bytes into the sky-map row's columns (or the reason they could not be), keeping the parsed map. */
+function analyse(eventId: string, noticeId: string, bytes: Buffer): Analysis {
 	let analysed: ReturnType<typeof analyseSkymap>;
 	try {
 		analysed = analyseSkymap(new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength));
 	} catch (e) {
-		return { error: `the sky map could not be analysed: ${(e as Error).message}`, retryAt: null };
+		const error = `the sky map could not be analysed: ${(e as Error).message}`;
+		return { map: null, error, columns: { error, retryAt: null } };
 	}
 	const { map, ...summary } = analysed;
 	const display = skyRaster(map, { width: 360, height: 180 }) as unknown as Record<string, unknown>;
 	const file = saveSkymapFile(eventId, noticeId, bytes);
-	return { summary, display, filePath: file.path, bytes: file.bytes, sha256: file.sha256, error: null, retryAt: null };
+	return { map, summary, columns: { summary, display, filePath: file.path, bytes: file.bytes, sha256: file.sha256, error: null, retryAt: null } };
 }
 
 // ── Sky maps whose download failed for a passing reason ──
@@ -410,14 +420,15 @@ export async function retrySkymaps(opts: IngestOptions = {}): Promise<string[]> 
 				.run();
 			continue;
 		}
-		const columns = analysedColumns(row.eventId, row.noticeId, bytes);
+		const analysis = analyse(row.eventId, row.noticeId, bytes);
 		db.transaction((tx) => {
-			tx.update(table.skymap).set({ ...columns, fetchAttempts: attempts }).where(eq(table.skymap.id, row.id)).run();
+			tx.update(table.skymap).set({ ...analysis.columns, fetchAttempts: attempts }).where(eq(table.skymap.id, row.id)).run();
 			refreshEvent(tx, row.eventId);
 		});
+		if (analysis.map) keepSkyMap(row.id, analysis.map);
 		for (const room of rooms(row.eventId)) {
-			if (columns.error) record(actor, 'skymap.failed', room, { eventId: row.eventId, noticeId: row.noticeId, error: columns.error });
-			else record(actor, 'skymap.analysed', room, { eventId: row.eventId, skymapId: row.id, noticeId: row.noticeId, summary: columns.summary, retried: attempts });
+			if (analysis.map === null) record(actor, 'skymap.failed', room, { eventId: row.eventId, noticeId: row.noticeId, error: analysis.error });
+			else record(actor, 'skymap.analysed', room, { eventId: row.eventId, skymapId: row.id, noticeId: row.noticeId, summary: analysis.summary, retried: attempts });
 		}
 	}
 	return tried;

@@ -72,7 +72,7 @@ function service(b: FakeBroker): AlertsService {
 }
 
 const processedIvorns = () =>
-	log.filter((m) => m.type === 'notice.processed' && m.room === 'board').map((m) => String(m.payload.ivorn));
+	log.filter((m): m is LiveMessage<'notice.processed'> => m.type === 'notice.processed' && m.room === 'board').map((m) => String(m.payload.ivorn));
 
 describe('archive URL', () => {
 	it('is taken as given, derived as VTP port − 1 for "auto", or off', () => {

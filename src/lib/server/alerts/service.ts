@@ -7,6 +7,7 @@ import { desc, inArray } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { config } from '../platform/config';
+import { runningService, service, stopService } from '../platform/services';
 import { SYSTEM, type Actor } from '../platform/realtime';
 import type { SkymapFetchOptions } from './skymap-fetch';
 import { backfillFromArchive, parseBrokerAddress, VtpListener, type ListenerOptions, type ListenerStatus } from './listener';
@@ -158,32 +159,23 @@ export class AlertsService {
 	}
 }
 
-const SLOT = Symbol.for('strainline.alerts');
-type Slot = { service: AlertsService | null };
-function slot(): Slot {
-	const g = globalThis as unknown as Record<symbol, Slot | undefined>;
-	return (g[SLOT] ??= { service: null });
-}
-
 /** Start the process's alert service once (from the `init` hook). */
 export async function startAlerts(opts: AlertsServiceOptions = {}): Promise<AlertsService> {
-	const s = slot();
-	if (s.service) return s.service;
-	const service = new AlertsService(opts);
-	s.service = service;
-	await service.start();
-	return service;
+	let created = false;
+	const alerts = service('alerts', () => {
+		created = true;
+		return new AlertsService(opts);
+	});
+	if (created) await alerts.start();
+	return alerts;
 }
 
 export async function stopAlerts(): Promise<void> {
-	const s = slot();
-	const service = s.service;
-	s.service = null;
-	await service?.stop();
+	await stopService('alerts');
 }
 
 export function alertsService(): AlertsService | null {
-	return slot().service;
+	return runningService<AlertsService>('alerts');
 }
 
 export interface SubmitResult {

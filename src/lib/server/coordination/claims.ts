@@ -6,12 +6,14 @@
  * makes the second of two simultaneous inserts fail, whatever the number of server processes.
  * States: claimed → observing → done, or released, or lapsed (not started in time).
  */
-import { every } from '../platform/periodic';
 import { and, asc, eq, inArray, lt } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { randomId, type SessionUser } from '../people/auth';
 import { actorOf, record, SYSTEM, type Actor } from '../platform/realtime';
+import { every } from '../platform/periodic';
+import { restartService } from '../platform/services';
+import type { ClaimFields } from '../../live-messages.ts';
 import { sendMail } from '../platform/mail';
 import { sunAvoidance } from '../../targeting/sun-moon.ts';
 
@@ -125,7 +127,7 @@ function holderOf(input: { eventId: string; targetKind: string; targetId: string
 		.get();
 }
 
-function payloadOf(c: table.Claim, extra: Record<string, unknown> = {}): Record<string, unknown> {
+function payloadOf(c: table.Claim): ClaimFields {
 	return {
 		claimId: c.id,
 		eventId: c.eventId,
@@ -136,8 +138,7 @@ function payloadOf(c: table.Claim, extra: Record<string, unknown> = {}): Record<
 		telescopeId: c.telescopeId,
 		teamId: c.teamId,
 		userId: c.userId,
-		state: c.state,
-		...extra
+		state: c.state
 	};
 }
 
@@ -195,9 +196,9 @@ function transition(
 	actor: Actor,
 	c: table.Claim,
 	from: readonly table.ClaimState[],
-	to: table.ClaimState,
+	to: 'observing' | 'done' | 'released',
 	set: Partial<table.Claim>,
-	extra: Record<string, unknown> = {}
+	extra: { reason?: string } = {}
 ): table.Claim {
 	if (!from.includes(c.state)) throw new ClaimError(409, 'bad_state', `The claim is ${c.state}; it cannot become ${to}.`);
 	const updated = db
@@ -207,7 +208,7 @@ function transition(
 		.returning()
 		.get();
 	if (!updated) throw new ClaimError(409, 'bad_state', 'The claim changed meanwhile; reload and try again.');
-	record(actor, `claim.${to}`, `event:${c.eventId}`, payloadOf(updated, { from: c.state, ...extra }));
+	record(actor, `claim.${to}` as const, `event:${c.eventId}`, { ...payloadOf(updated), from: c.state, ...extra });
 	return updated;
 }
 
@@ -241,7 +242,7 @@ export function reassign(user: SessionUser, claimId: string, telescopeId: string
 		.returning()
 		.get();
 	if (!updated) throw new ClaimError(409, 'bad_state', 'The claim changed meanwhile; reload and try again.');
-	record(actorOf(user), 'claim.reassigned', `event:${c.eventId}`, payloadOf(updated, { fromTelescopeId: c.telescopeId, fromTeamId: c.teamId }));
+	record(actorOf(user), 'claim.reassigned', `event:${c.eventId}`, { ...payloadOf(updated), fromTelescopeId: c.telescopeId, fromTeamId: c.teamId });
 	return updated;
 }
 
@@ -291,7 +292,7 @@ export async function lapseOverdue(now = new Date()): Promise<table.Claim[]> {
 			.get();
 		if (!updated) continue;
 		lapsed.push(updated);
-		record(SYSTEM, 'claim.lapsed', `event:${c.eventId}`, payloadOf(updated, { from: 'claimed', lapseMinutes: minutes }));
+		record(SYSTEM, 'claim.lapsed', `event:${c.eventId}`, { ...payloadOf(updated), from: 'claimed', lapseMinutes: minutes });
 		await tellTeam(updated, minutes);
 	}
 	return lapsed;
@@ -335,7 +336,7 @@ export function cancelOpenClaims(eventId: string, actor: Actor = SYSTEM, now = n
 		.where(and(eq(table.claim.eventId, eventId), inArray(table.claim.state, [...table.OPEN_CLAIM_STATES])))
 		.returning()
 		.all();
-	for (const c of released) record(actor, 'claim.released', `event:${eventId}`, payloadOf(c, { reason }));
+	for (const c of released) record(actor, 'claim.released', `event:${eventId}`, { ...payloadOf(c), reason });
 	return released.length;
 }
 
@@ -358,21 +359,11 @@ export function listClaims(eventId: string, o: { openOnly?: boolean } = {}): Cla
 	return rows.map((r) => ({ ...r.c, teamName: r.teamName, telescopeName: r.telescopeName, userName: r.userName }));
 }
 
-const slot = (): { uninstall: (() => void) | null } => {
-	const g = globalThis as unknown as { __strainlineClaims?: { uninstall: (() => void) | null } };
-	return (g.__strainlineClaims ??= { uninstall: null });
-};
-
 /** Start the periodic lapse check (null: none). Installing twice replaces the first. */
 export function installClaims(o: { everyMs?: number | null } = {}): () => void {
-	const s = slot();
-	s.uninstall?.();
 	const everyMs = o.everyMs === undefined ? LAPSE_CHECK_MS : o.everyMs;
-	const stop = everyMs === null ? null : every(everyMs, () => lapseOverdue(), 'claim lapse check');
-	const uninstall = () => {
-		stop?.();
-		if (s.uninstall === uninstall) s.uninstall = null;
-	};
-	s.uninstall = uninstall;
-	return uninstall;
+	return restartService('claim-lapse', () => {
+		const stop = everyMs === null ? null : every(everyMs, () => lapseOverdue(), 'claim lapse check');
+		return { stop: () => stop?.() };
+	});
 }

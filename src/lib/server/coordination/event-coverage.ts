@@ -11,8 +11,7 @@
 import { and, asc, eq, sql } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
-import { readStoredFile } from '../platform/storage';
-import { readSkyMap, type SkyMap } from '../../sky/index.ts';
+import { clearSkyMapCache, skyMapById } from '../alerts/skymap-cache';
 import { coverage, galaxyCoverage, type ObservedFootprint } from '../../targeting/coverage.ts';
 import type { FootprintShape } from '../../targeting/sky-geometry.ts';
 import { footprintOf } from '../../targeting/telescope.ts';
@@ -71,17 +70,7 @@ export interface EventCoverage {
 	computeMs: number;
 }
 
-// One parsed map is kept: every viewer of the busy event asks for the same one.
-let mapCache: { skymapId: string; map: SkyMap } | null = null;
 let resultCache: { key: string; value: EventCoverage } | null = null;
-
-function loadMap(skymapId: string, filePath: string): SkyMap {
-	if (mapCache?.skymapId === skymapId) return mapCache.map;
-	const bytes = readStoredFile(filePath);
-	const map = readSkyMap(new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength));
-	mapCache = { skymapId, map };
-	return map;
-}
 
 /** Coverage of an event's completed observations on its current map; null without a usable map. */
 export function eventCoverage(eventId: string): EventCoverage | null {
@@ -130,7 +119,8 @@ export function eventCoverage(eventId: string): EventCoverage | null {
 		.all();
 
 	const t0 = performance.now();
-	const map = loadMap(sky.id, sky.filePath);
+	const map = skyMapById(sky.id);
+	if (!map) return null;
 	const mergerMs = event.eventTime ? event.eventTime.getTime() : null;
 	const hours = (ms: number) => (mergerMs === null ? ms / 3_600_000 : (ms - mergerMs) / 3_600_000);
 	const footprints: ObservedFootprint[] = rows.map((r) => ({ id: r.id, groupId: r.teamId, timeMs: r.observedAt.getTime(), raDeg: r.raDeg, decDeg: r.decDeg, ...footprintOf(r) }));
@@ -209,6 +199,6 @@ export function eventCoverage(eventId: string): EventCoverage | null {
 
 /** Forget cached maps and results (tests that rewrite the database in place). */
 export function clearCoverageCache(): void {
-	mapCache = null;
+	clearSkyMapCache();
 	resultCache = null;
 }

@@ -5,7 +5,7 @@ import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { createUser } from '../people/people';
 import { receivedMail, stopFakeSmtp, type ReceivedMail } from '../platform/fake-smtp';
-import { record, SYSTEM } from '../platform/realtime';
+import { record, SYSTEM, type LivePayloads } from '../platform/realtime';
 import { config } from '../platform/config';
 import * as duty from './paging';
 
@@ -79,7 +79,7 @@ function insertEvent(o: { receivedAt: Date; kind?: table.Notice['kind']; farHz?:
 }
 
 function processed(eventId: string, noticeId: string, significant: boolean) {
-	const payload = { eventId, noticeId, ivorn: 'x', kind: 'initial', role: 'observation', significant, triage: { verdict: significant ? 'follow' : 'skip', reasons: [] }, latest: true };
+	const payload: LivePayloads['notice.processed'] = { eventId, noticeId, ivorn: 'x', kind: 'initial', role: 'observation', significant, triage: { verdict: significant ? 'follow' : 'skip', reasons: [] }, latest: true };
 	// Logged in both rooms, as ingestion does; paging must happen once.
 	record(SYSTEM, 'notice.processed', 'board', payload);
 	record(SYSTEM, 'notice.processed', `event:${eventId}`, payload);

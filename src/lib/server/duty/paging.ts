@@ -10,7 +10,8 @@ import { config } from '../platform/config';
 import { loadSessionUser, randomId, type SessionUser } from '../people/auth';
 import { sendMail, type OutgoingMail } from '../platform/mail';
 import { every } from '../platform/periodic';
-import { onRecorded, record, SYSTEM, type Actor, type LiveMessage } from '../platform/realtime';
+import { restartService } from '../platform/services';
+import { onRecorded, record, SYSTEM, type Actor, type LivePayloads } from '../platform/realtime';
 import { can, rolesFor } from '../people/permissions';
 import {
 	dominantClass,
@@ -180,7 +181,12 @@ export function escalateAfterMin(): number {
 }
 
 /** An entry logged in the board room and in the event's own room. */
-function announce(actor: Actor, action: string, eventId: string, payload: Record<string, unknown>): void {
+function announce<A extends 'duty.paged' | 'duty.escalated' | 'duty.escalation-exhausted' | 'duty.nobody-to-page' | 'event.acknowledged'>(
+	actor: Actor,
+	action: A,
+	eventId: string,
+	payload: LivePayloads[A]
+): void {
 	record(actor, action, 'board', payload);
 	record(actor, action, `event:${eventId}`, payload);
 }
@@ -491,17 +497,6 @@ export function ackState(pages: PageView[]): {
 
 // ───────────────────────────── Wiring ─────────────────────────────
 
-interface DutySlot {
-	uninstall: (() => void) | null;
-}
-const SLOT = Symbol.for('strainline.duty');
-
-function slot(): DutySlot {
-	const g = globalThis as unknown as Record<symbol, DutySlot | undefined>;
-	g[SLOT] ??= { uninstall: null };
-	return g[SLOT]!;
-}
-
 /**
  * Tell everyone who was paged for an event that it was retracted, so nobody keeps observing on
  * the strength of the e-mail they got. Each person is told once per event.
@@ -535,36 +530,28 @@ export async function standDown(eventId: string): Promise<number> {
 	return paged.length;
 }
 
-function react(message: LiveMessage): void {
-	if (message.room === 'board' && message.type === 'event.retracted') {
-		const { eventId } = message.payload as { eventId?: unknown };
-		if (typeof eventId === 'string') standDown(eventId).catch((e) => console.error(`stand-down for ${eventId} failed`, e));
-		return;
-	}
-	// notice.processed is logged in the board room and the event's room: react to one of them.
-	if (message.room !== 'board' || message.type !== 'notice.processed') return;
-	const { eventId, noticeId, significant } = message.payload as { eventId?: unknown; noticeId?: unknown; significant?: unknown };
-	if (significant !== true || typeof eventId !== 'string' || typeof noticeId !== 'string') return;
-	pageForNotice(eventId, noticeId).catch((e) => console.error(`paging for notice ${noticeId} failed`, e));
-}
-
 /**
- * Start paging: listen for processed notices and check for overdue pages every
- * `escalateEveryMs` (null: no timer, for tests that call `escalate` themselves). Installing
- * twice replaces the first installation. Returns the function that stops both.
+ * Start paging: listen for processed notices (and retractions, to stand people down) and check
+ * for overdue pages every `escalateEveryMs` (null: no timer, for tests that call `escalate`
+ * themselves). Installing twice replaces the first installation. Returns the function that stops both.
  */
 export function installDuty(o: { escalateEveryMs?: number | null } = {}): () => void {
-	const s = slot();
-	s.uninstall?.();
-	const off = onRecorded(react);
 	const everyMs = o.escalateEveryMs === undefined ? ESCALATION_CHECK_MS : o.escalateEveryMs;
-	const stop = everyMs === null ? null : every(everyMs, () => escalate(), 'duty escalation');
-	const uninstall = () => {
-		off();
-		stop?.();
-		if (s.uninstall === uninstall) s.uninstall = null;
-	};
-	s.uninstall = uninstall;
-	return uninstall;
+	return restartService('duty', () => {
+		// Both are logged in the board room and the event's room: react to the board copy only.
+		const offRetracted = onRecorded('event.retracted', ({ eventId }, m) => {
+			if (m.room === 'board') standDown(eventId).catch((e) => console.error(`stand-down for ${eventId} failed`, e));
+		});
+		const offProcessed = onRecorded('notice.processed', ({ eventId, noticeId, significant }, m) => {
+			if (m.room === 'board' && significant) pageForNotice(eventId, noticeId).catch((e) => console.error(`paging for notice ${noticeId} failed`, e));
+		});
+		const stopEscalation = everyMs === null ? null : every(everyMs, () => escalate(), 'duty escalation');
+		return {
+			stop() {
+				offRetracted();
+				offProcessed();
+				stopEscalation?.();
+			}
+		};
+	});
 }
-

@@ -4,21 +4,12 @@ import { parse as parseCookie } from 'cookie';
 import { db } from './db';
 import * as table from './db/schema';
 import { realtimeSlot } from './socket-host.js';
+import { restartService, service, type Running } from './services';
 import { SESSION_COOKIE, validateSessionToken, validateApiToken, type SessionUser } from '../people/auth';
 import { can } from '../people/permissions';
+import type { LiveAction, LiveMessage, LivePayloads, Room } from '../../live-messages.ts';
 
-/** Rooms: the board (everything of interest to every signed-in client) or one event. */
-export type Room = 'board' | `event:${string}`;
-
-/** Every live message is an event-log entry; `seq` lets a client catch up after reconnecting. */
-export interface LiveMessage<T extends Record<string, unknown> = Record<string, unknown>> {
-	seq: number;
-	room: Room;
-	type: string;
-	actor: string;
-	payload: T;
-	at: string;
-}
+export type { LiveAction, LiveMessage, LivePayloads, Room };
 
 export interface Actor {
 	userId: string | null;
@@ -33,6 +24,7 @@ export function actorOf(user: SessionUser | null, fallback = 'system'): Actor {
 
 const CATCH_UP_LIMIT = 2000;
 
+/** An event-log row as the message it was broadcast as (the row holds what `record()` was given). */
 function toMessage(row: table.EventLogEntry): LiveMessage {
 	return {
 		seq: row.seq,
@@ -41,7 +33,7 @@ function toMessage(row: table.EventLogEntry): LiveMessage {
 		actor: row.actorLabel,
 		payload: row.payload,
 		at: row.createdAt.toISOString()
-	};
+	} as LiveMessage;
 }
 
 /** Emit a message already written to the event log to every client in its room. */
@@ -51,24 +43,56 @@ export function publish(message: LiveMessage): void {
 	io.of('/live').to(message.room).emit('live', message);
 }
 
-type RecordedListener = (message: LiveMessage) => void;
-const recordedListeners = new Set<RecordedListener>();
+type Listener = (message: LiveMessage) => void;
+
+interface PresenceThrottle {
+	lastEmitMs: number;
+	timer: ReturnType<typeof setTimeout> | null;
+}
+
+/** The hub's process-wide state: server-side reactions and who watches which room. */
+class HubState implements Running {
+	/** In registration order; `action` null hears every action. */
+	readonly reactions = new Set<{ action: LiveAction | null; listener: Listener }>();
+	readonly presence = new Map<Room, Map<string, { userId: string; name: string }>>();
+	readonly presenceThrottles = new Map<Room, PresenceThrottle>();
+
+	stop(): void {
+		for (const t of this.presenceThrottles.values()) if (t.timer) clearTimeout(t.timer);
+		this.presenceThrottles.clear();
+		this.presence.clear();
+		this.reactions.clear();
+	}
+}
+
+const hub = (): HubState => service('live-hub', () => new HubState());
 
 /**
  * Server-side reaction to logged actions (e.g. paging the duty scientist when a significant
- * notice has been processed). Listeners run after the broadcast; an exception in one is logged
- * and does not stop the others. Returns the function that removes the listener.
+ * notice has been processed). Listeners run after the broadcast, in the order they were
+ * registered; an exception in one is logged and does not stop the others. Returns the function
+ * that removes the listener. Without an action the listener hears every action (tests, logs).
  */
-export function onRecorded(listener: RecordedListener): () => void {
-	recordedListeners.add(listener);
-	return () => recordedListeners.delete(listener);
+export function onRecorded<A extends LiveAction>(action: A, react: (payload: LivePayloads[A], message: LiveMessage<A>) => void): () => void;
+export function onRecorded(listener: (message: LiveMessage) => void): () => void;
+export function onRecorded(
+	actionOrListener: LiveAction | Listener,
+	react?: (payload: LivePayloads[LiveAction], message: LiveMessage) => void
+): () => void {
+	const entry =
+		typeof actionOrListener === 'string'
+			? { action: actionOrListener, listener: (m: LiveMessage) => react!(m.payload, m) }
+			: { action: null, listener: actionOrListener };
+	const { reactions } = hub();
+	reactions.add(entry);
+	return () => void reactions.delete(entry);
 }
 
 /**
  * Write an action to the event log and broadcast it. Call after the change itself has been
  * committed so that no client hears of something the database does not hold.
  */
-export function record(actor: Actor, action: string, room: Room, payload: Record<string, unknown>): LiveMessage {
+export function record<A extends LiveAction>(actor: Actor, action: A, room: Room, payload: LivePayloads[A]): LiveMessage<A> {
 	const row = db
 		.insert(table.eventLog)
 		.values({ actorUserId: actor.userId, actorLabel: actor.label, action, room, payload })
@@ -76,14 +100,15 @@ export function record(actor: Actor, action: string, room: Room, payload: Record
 		.get();
 	const message = toMessage(row);
 	publish(message);
-	for (const listener of recordedListeners) {
+	for (const { action: wanted, listener } of hub().reactions) {
+		if (wanted !== null && wanted !== action) continue;
 		try {
 			listener(message);
 		} catch (e) {
 			console.error(`listener for ${action} failed`, e);
 		}
 	}
-	return message;
+	return message as LiveMessage<A>;
 }
 
 /** What a client missed in its rooms since `sinceSeq`, oldest first. */
@@ -169,7 +194,7 @@ function onConnection(socket: Socket): void {
 		}
 	});
 	socket.on('disconnect', () => {
-		for (const [room, sockets] of presenceRooms) if (sockets.has(socket.id)) forgetWatching(room, socket.id);
+		for (const [room, sockets] of hub().presence) if (sockets.has(socket.id)) forgetWatching(room, socket.id);
 	});
 }
 
@@ -192,16 +217,15 @@ export interface PresenceMessage {
  */
 export const PRESENCE_INTERVAL_MS = 250;
 
-const presenceRooms = new Map<Room, Map<string, { userId: string; name: string }>>();
-const presenceTimers = new Map<Room, { lastEmitMs: number; timer: ReturnType<typeof setTimeout> | null }>();
 
 function isWatched(room: string): room is `event:${string}` {
 	return room.startsWith('event:');
 }
 
 function noteWatching(room: Room, socketId: string, user: SessionUser): void {
-	let sockets = presenceRooms.get(room);
-	if (!sockets) presenceRooms.set(room, (sockets = new Map()));
+	const { presence } = hub();
+	let sockets = presence.get(room);
+	if (!sockets) presence.set(room, (sockets = new Map()));
 	const before = sockets.get(socketId);
 	if (before && before.userId === user.id && before.name === user.name) return;
 	sockets.set(socketId, { userId: user.id, name: user.name });
@@ -209,16 +233,17 @@ function noteWatching(room: Room, socketId: string, user: SessionUser): void {
 }
 
 function forgetWatching(room: Room, socketId: string): void {
-	const sockets = presenceRooms.get(room);
+	const { presence } = hub();
+	const sockets = presence.get(room);
 	if (!sockets?.delete(socketId)) return;
-	if (sockets.size === 0) presenceRooms.delete(room);
+	if (sockets.size === 0) presence.delete(room);
 	schedulePresence(room);
 }
 
 /** The people watching a room, by name; a person with two tabs open is one entry with count 2. */
 export function watchers(room: Room): Watcher[] {
 	const byUser = new Map<string, Watcher>();
-	for (const { userId, name } of presenceRooms.get(room)?.values() ?? []) {
+	for (const { userId, name } of hub().presence.get(room)?.values() ?? []) {
 		const w = byUser.get(userId);
 		if (w) w.count++;
 		else byUser.set(userId, { userId, name, count: 1 });
@@ -235,16 +260,17 @@ function emitPresence(room: Room): void {
 
 function schedulePresence(room: Room): void {
 	// Throttle state for rooms nobody watches any more is dropped once it can no longer matter.
+	const { presence, presenceThrottles } = hub();
 	const now = Date.now();
-	for (const [r, s] of presenceTimers) {
-		if (r !== room && !s.timer && !presenceRooms.has(r) && now - s.lastEmitMs >= PRESENCE_INTERVAL_MS) presenceTimers.delete(r);
+	for (const [r, s] of presenceThrottles) {
+		if (r !== room && !s.timer && !presence.has(r) && now - s.lastEmitMs >= PRESENCE_INTERVAL_MS) presenceThrottles.delete(r);
 	}
-	let state = presenceTimers.get(room);
-	if (!state) presenceTimers.set(room, (state = { lastEmitMs: -Infinity, timer: null }));
+	let state = presenceThrottles.get(room);
+	if (!state) presenceThrottles.set(room, (state = { lastEmitMs: -Infinity, timer: null }));
 	if (state.timer) return;
 	const waitMs = state.lastEmitMs + PRESENCE_INTERVAL_MS - now;
 	const fire = () => {
-		const s = presenceTimers.get(room)!;
+		const s = presenceThrottles.get(room)!;
 		s.timer = null;
 		s.lastEmitMs = Date.now();
 		emitPresence(room);
@@ -261,9 +287,20 @@ export function latestSeq(): number {
 	return row.seq;
 }
 
-/** Install authentication and room handling on the hub; called once from the `init` hook. */
-export function installRealtime(): void {
-	const slot = realtimeSlot();
-	slot.authenticate = authenticate;
-	slot.onConnection = onConnection;
+/**
+ * Install authentication and room handling on the socket server (created outside SvelteKit by
+ * socket-host.js); called from the `init` hook. Returns the function that takes them off again.
+ */
+export function installRealtime(): () => void {
+	return restartService('live-socket', () => {
+		const slot = realtimeSlot();
+		slot.authenticate = authenticate;
+		slot.onConnection = onConnection;
+		return {
+			stop() {
+				if (slot.authenticate === authenticate) slot.authenticate = null;
+				if (slot.onConnection === onConnection) slot.onConnection = null;
+			}
+		};
+	});
 }

@@ -13,14 +13,15 @@ import { and, asc, desc, eq, inArray, notInArray, sql, type SQL } from 'drizzle-
 import type { SQLiteColumn } from 'drizzle-orm/sqlite-core';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
-import { onRecorded, record, SYSTEM, type Actor, type LiveMessage } from '../platform/realtime';
-import { readStoredFile } from '../platform/storage';
+import { onRecorded, record, SYSTEM, type Actor } from '../platform/realtime';
+import { JobQueue } from '../platform/periodic';
+import { restartService, service } from '../platform/services';
+import { skyMapById } from '../alerts/skymap-cache';
 import { activeCatalog, getCatalog } from './catalogs';
 import { SUN_ABS_MAG_B } from '../../targeting/catalog-csv.ts';
 import { buildCatalogIndex, INDEX_ORDER, rankGalaxies, type CatalogIndex, type GalaxyCatalog, type WeightSource } from '../../targeting/galaxies.ts';
 import { rankFields, tileSky, type Tiling } from '../../targeting/fields.ts';
 import { footprintOf, isWideField } from '../../targeting/telescope.ts';
-import { readSkyMap } from '../../sky/index.ts';
 
 /** Credible level of the region searched for galaxies and fields. */
 export const TARGET_LEVEL = 0.99;
@@ -130,10 +131,8 @@ export function rankEvent(eventId: string, opts: { skymapId?: string; catalogId?
 	if (!event) return null;
 	const skymapId = opts.skymapId ?? event.latestSkymapId;
 	if (!skymapId) return null;
-	const sky = db.select().from(table.skymap).where(eq(table.skymap.id, skymapId)).get();
-	if (!sky || sky.error || !sky.filePath) return null;
-	const bytes = readStoredFile(sky.filePath);
-	const map = readSkyMap(new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength));
+	const map = skyMapById(skymapId);
+	if (!map) return null;
 
 	const catalogId = opts.catalogId === undefined ? (activeCatalog()?.id ?? null) : opts.catalogId;
 	let galaxyRows: (typeof table.eventGalaxy.$inferInsert)[] = [];
@@ -209,80 +208,54 @@ export function rankEvent(eventId: string, opts: { skymapId?: string; catalogId?
 
 // ─── Reacting to the log: one ranking at a time, in arrival order. ───
 
-let queue: Promise<unknown> = Promise.resolve();
-
-function enqueue(job: () => void): void {
-	// Off the recording call stack: ranking reads a file and can take a while.
-	queue = queue.then(
-		() =>
-			new Promise<void>((resolve) =>
-				setImmediate(() => {
-					try {
-						job();
-					} catch (e) {
-						console.error('target ranking failed', e);
-					}
-					resolve();
-				})
-			)
-	);
-}
+/** Rankings read a file and can take a while: they run off the recording call stack, one at a time. */
+const rankingJobs = (): JobQueue => service('ranking-jobs', () => new JobQueue('target ranking'));
 
 /** Resolves when every ranking asked for so far has finished (tests, shutdown). */
 export async function targetsIdle(): Promise<void> {
-	// Jobs may queue more jobs (a new catalogue queues one per event): wait until none were added.
-	let seen: Promise<unknown>;
-	do {
-		seen = queue;
-		await seen;
-	} while (seen !== queue);
+	await rankingJobs().idle();
 }
 
-function react(message: LiveMessage): void {
-	// Both are logged to the board and the event's room: react to the board copy only.
-	if (message.room !== 'board') return;
-	if (message.type === 'skymap.analysed') {
-		const { eventId, skymapId } = message.payload as { eventId?: unknown; skymapId?: unknown };
-		if (typeof eventId !== 'string' || typeof skymapId !== 'string') return;
-		enqueue(() => {
-			// A map that arrived late for an older notice is not the one the event shows: keep the current ranking.
-			const current = db.select({ id: table.gwEvent.latestSkymapId }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
-			if (current?.id !== skymapId) return;
-			rankEvent(eventId, { skymapId });
-		});
-	} else if (message.type === 'catalog.imported') {
-		// A new catalogue becomes the active one: rank the open events again with it, one job per
-		// event so that requests are served between them.
-		enqueue(() => {
-			const open = db
-				.select({ id: table.gwEvent.id })
-				.from(table.gwEvent)
-				.where(and(eq(table.gwEvent.state, 'active'), sql`${table.gwEvent.latestSkymapId} IS NOT NULL`))
-				.all();
-			for (const e of open) {
-				enqueue(() => {
-					try {
-						rankEvent(e.id);
-					} catch (err) {
-						console.error(`re-ranking ${e.id} failed`, err);
-					}
-				});
+function rankNewMap(eventId: string, skymapId: string): void {
+	// A map that arrived late for an older notice is not the one the event shows: keep the current ranking.
+	const current = db.select({ id: table.gwEvent.latestSkymapId }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
+	if (current?.id !== skymapId) return;
+	rankEvent(eventId, { skymapId });
+}
+
+/** A new catalogue becomes the active one: rank the open events again with it, one job per event so that requests are served between them. */
+function rankOpenEvents(): void {
+	const open = db
+		.select({ id: table.gwEvent.id })
+		.from(table.gwEvent)
+		.where(and(eq(table.gwEvent.state, 'active'), sql`${table.gwEvent.latestSkymapId} IS NOT NULL`))
+		.all();
+	for (const e of open) {
+		rankingJobs().enqueue(() => {
+			try {
+				rankEvent(e.id);
+			} catch (err) {
+				console.error(`re-ranking ${e.id} failed`, err);
 			}
 		});
 	}
 }
 
-let uninstall: (() => void) | null = null;
-
 /** Start reacting to analysed sky maps and new catalogues. Installing twice replaces the first. */
 export function installTargets(): () => void {
-	uninstall?.();
-	const off = onRecorded(react);
-	uninstall = () => {
-		off();
-		uninstall = null;
-	};
-	return uninstall;
+	return restartService('targets', () => {
+		// Logged to the board and the event's room: react to the board copy only.
+		const offAnalysed = onRecorded('skymap.analysed', ({ eventId, skymapId }, m) => {
+			if (m.room === 'board') rankingJobs().enqueue(() => rankNewMap(eventId, skymapId));
+		});
+		const offImported = onRecorded('catalog.imported', () => rankingJobs().enqueue(rankOpenEvents));
+		return {
+			stop() {
+				offAnalysed();
+				offImported();
+			}
+		};
+	});
 }
 
 // ─── Read side ───

@@ -16,8 +16,7 @@ import { footprintOf, fovAreaDeg2, isWideField, siteOf } from '../../targeting/t
 import { tonight } from '../../targeting/visibility.ts';
 import { listClaims } from '../coordination/claims';
 import { coverage, type ObservedFootprint } from '../../targeting/coverage.ts';
-import { readSkyMap } from '../../sky/index.ts';
-import { readStoredFile } from '../platform/storage';
+import { currentSkyMap } from '../alerts/skymap-cache';
 
 export type TelescopeRow = ReturnType<typeof listTelescopes>[number];
 
@@ -149,11 +148,8 @@ export interface PlanCoverage {
  * their probabilities cannot be added), and separately the ranked galaxy probability observed.
  */
 export function planCoverage(eventId: string, plan: NetworkPlan, telescopes: TelescopeRow[]): PlanCoverage | null {
-	const event = db.select({ skymapId: table.gwEvent.latestSkymapId, eventTime: table.gwEvent.eventTime }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
-	const sky = event?.skymapId ? db.select().from(table.skymap).where(eq(table.skymap.id, event.skymapId)).get() : null;
-	if (!sky?.filePath || sky.error) return null;
-	const bytes = readStoredFile(sky.filePath);
-	const map = readSkyMap(new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength));
+	const map = currentSkyMap(eventId)?.map;
+	if (!map) return null;
 	const startMs = Date.parse(plan.start);
 	const hoursOf = (ms: number) => (ms - startMs) / 3_600_000;
 	const scopes = new Map(telescopes.map((t) => [t.id, t]));

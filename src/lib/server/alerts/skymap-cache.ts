@@ -1,0 +1,91 @@
+/**
+ * Parsed sky maps, read from their stored files once. After a new map arrives, the ranking job,
+ * the event's coverage and the network plan's coverage all need it: each asking by sky-map id
+ * gets the same parsed map. Ingestion hands over the map it has just analysed, so even the first
+ * of them reads nothing.
+ *
+ * A sky-map row never changes its file once analysed, so the id (with the file's checksum, which
+ * guards against a test database reusing an id) identifies the content: no invalidation is needed.
+ * A few maps are kept (the events being followed now), the least recently used dropped first; a
+ * multi-order map with distance layers is a few MB.
+ */
+import { eq } from 'drizzle-orm';
+import { db } from '../platform/db';
+import * as table from '../platform/db/schema';
+import { readStoredFile } from '../platform/storage';
+import { readSkyMap, type SkyMap } from '../../sky/index.ts';
+
+export const CACHED_SKY_MAPS = 4;
+
+interface Entry {
+	/** sha256 of the file, or its path for rows stored without one. */
+	content: string;
+	map: SkyMap;
+}
+
+const cache = new Map<string, Entry>();
+
+interface StoredRow {
+	filePath: string | null;
+	sha256: string | null;
+	error: string | null;
+}
+
+function storedRow(skymapId: string): StoredRow | undefined {
+	return db
+		.select({ filePath: table.skymap.filePath, sha256: table.skymap.sha256, error: table.skymap.error })
+		.from(table.skymap)
+		.where(eq(table.skymap.id, skymapId))
+		.get();
+}
+
+function contentKey(row: StoredRow): string {
+	return row.sha256 ?? `path:${row.filePath}`;
+}
+
+function remember(skymapId: string, entry: Entry): void {
+	cache.delete(skymapId);
+	cache.set(skymapId, entry);
+	while (cache.size > CACHED_SKY_MAPS) cache.delete(cache.keys().next().value!);
+}
+
+/**
+ * The parsed sky map of row `skymapId`; null when there is no such row or it holds no usable map
+ * (its download or analysis failed).
+ */
+export function skyMapById(skymapId: string): SkyMap | null {
+	const row = storedRow(skymapId);
+	if (!row || row.error || !row.filePath) return null;
+	const content = contentKey(row);
+	const hit = cache.get(skymapId);
+	if (hit && hit.content === content) {
+		remember(skymapId, hit);
+		return hit.map;
+	}
+	const bytes = readStoredFile(row.filePath);
+	const map = readSkyMap(new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength));
+	remember(skymapId, { content, map });
+	return map;
+}
+
+/** The map an event shows now (its latest analysed one) with its id; null when it has none. */
+export function currentSkyMap(eventId: string): { skymapId: string; map: SkyMap } | null {
+	const event = db.select({ skymapId: table.gwEvent.latestSkymapId }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
+	if (!event?.skymapId) return null;
+	const map = skyMapById(event.skymapId);
+	return map ? { skymapId: event.skymapId, map } : null;
+}
+
+/**
+ * Keep a map just parsed from the bytes stored as row `skymapId` (ingestion, once the row is
+ * written), so that nobody reads the file again. `map` must come from `readSkyMap(bytes)` with
+ * the default options, as `skyMapById` would make it.
+ */
+export function keepSkyMap(skymapId: string, map: SkyMap): void {
+	const row = storedRow(skymapId);
+	if (row && !row.error && row.filePath) remember(skymapId, { content: contentKey(row), map });
+}
+
+export function clearSkyMapCache(): void {
+	cache.clear();
+}
