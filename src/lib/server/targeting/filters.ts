@@ -15,6 +15,7 @@
 import { BaryState, Body, GeoVector, MakeTime, Rotation_EQJ_EQD } from 'astronomy-engine';
 import type { SessionUser } from '../people/auth';
 import { can } from '../people/permissions';
+import { usableTelescopes } from '../people/scope';
 import * as claims from '../coordination/claims';
 import { getEvent } from '../alerts/events';
 import { listTelescopes } from '../people/telescopes';
@@ -27,7 +28,7 @@ const DEG = Math.PI / 180;
 const C_AU_PER_DAY = 173.144632674;
 
 /** Rows per page in both tables. */
-export const PAGE_SIZE = 25;
+import { TARGETS_PAGE_SIZE as PAGE_SIZE } from '../../limits.ts';
 
 // ─── The sky at one instant, for many targets ───
 
@@ -211,7 +212,7 @@ export function targetsPageData(eventId: string, query: TargetQuery, user: Sessi
 	const mayClaim = Boolean(user && can({ user, telescopeId: null }, 'claims.create'));
 	const coordinator = Boolean(user?.roles.includes('coordinator'));
 	const manages = Boolean(user && can({ user, telescopeId: null }, 'claims.manage'));
-	const ownTelescopes = user ? telescopes.filter((t) => coordinator || user.teamIds.includes(t.teamId)).map((t) => ({ id: t.id, name: t.name, teamName: t.teamName })) : [];
+	const ownTelescopes = usableTelescopes(user, telescopes).map((t) => ({ id: t.id, name: t.name, teamName: t.teamName }));
 
 	return {
 		claiming: { allowed: mayClaim, coordinator, teamIds: user?.teamIds ?? [], telescopes: ownTelescopes, telescopeId: ownTelescopes.find((t) => t.id === chosen?.id)?.id ?? ownTelescopes[0]?.id ?? null },
