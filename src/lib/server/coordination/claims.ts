@@ -15,7 +15,7 @@ import { actorOf, record, SYSTEM, type Actor } from '../platform/realtime';
 import { sendMail } from '../platform/mail';
 import { sunAvoidance } from '../../targeting/night.ts';
 import { DomainError } from '../platform/errors';
-import { mayUseTeam, mayUseTelescope } from '../people/scope';
+import { actsForEveryTeam, mayUseTeam, mayUseTelescope } from '../people/scope';
 import { LAPSE_MINUTES_MAX, LAPSE_MINUTES_MIN } from '../../limits.ts';
 
 export const DEFAULT_LAPSE_MINUTES = 60;
@@ -43,7 +43,7 @@ export interface ClaimInput {
 	note?: string;
 }
 
-const isCoordinator = (user: SessionUser) => user.roles.includes('coordinator');
+const isCoordinator = (user: SessionUser) => actsForEveryTeam(user);
 
 function uniqueViolation(e: unknown): boolean {
 	for (let c: unknown = e; c && typeof c === 'object'; c = (c as { cause?: unknown }).cause) {

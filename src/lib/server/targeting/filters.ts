@@ -15,7 +15,7 @@
 import { BaryState, Body, GeoVector, MakeTime, Rotation_EQJ_EQD } from 'astronomy-engine';
 import type { SessionUser } from '../people/auth';
 import { can } from '../people/permissions';
-import { usableTelescopes } from '../people/scope';
+import { actsForEveryTeam, usableTelescopes } from '../people/scope';
 import * as claims from '../coordination/claims';
 import { getEvent } from '../alerts/events';
 import { listTelescopes } from '../people/telescopes';
@@ -210,7 +210,7 @@ export function targetsPageData(eventId: string, query: TargetQuery, user: Sessi
 		return c ? { id: c.id, state: c.state, teamId: c.teamId, teamName: c.teamName, telescopeId: c.telescopeId, telescopeName: c.telescopeName, filter: c.filter, epoch: c.epoch } : null;
 	};
 	const mayClaim = Boolean(user && can({ user, telescopeId: null }, 'claims.create'));
-	const coordinator = Boolean(user?.roles.includes('coordinator'));
+	const coordinator = Boolean(user && actsForEveryTeam(user));
 	const manages = Boolean(user && can({ user, telescopeId: null }, 'claims.manage'));
 	const ownTelescopes = usableTelescopes(user, telescopes).map((t) => ({ id: t.id, name: t.name, teamName: t.teamName }));
 
