@@ -1,28 +1,17 @@
 import { redirect } from '@sveltejs/kit';
-import { and, desc, eq, notInArray } from 'drizzle-orm';
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
-import { db } from '$lib/server/platform/db';
-import * as table from '$lib/server/platform/db/schema';
 import { requirePermission, requireUser } from '$lib/server/people/guard';
 import { can } from '$lib/server/people/permissions';
-import { validateForm, failWith } from '$lib/server/platform/forms';
-import { boardEvents } from '$lib/server/alerts/board';
-import { QUIET_ACTIONS } from '$lib/activity';
+import { validateForm, failFromError } from '$lib/server/platform/forms';
+import { boardActivity, boardEvents } from '$lib/server/alerts/board';
 import * as duty from '$lib/server/duty/paging';
 
 export const load: PageServerLoad = ({ locals, depends }) => {
 	if (!locals.user) return { board: null };
 	requirePermission('board.view');
 	depends('app:board');
-	const activity = db
-		.select({ seq: table.eventLog.seq, action: table.eventLog.action, actor: table.eventLog.actorLabel, at: table.eventLog.createdAt })
-		.from(table.eventLog)
-		.where(and(eq(table.eventLog.room, 'board'), notInArray(table.eventLog.action, [...QUIET_ACTIONS])))
-		.orderBy(desc(table.eventLog.seq))
-		.limit(15)
-		.all()
-		.map((r) => ({ ...r, at: r.at.toISOString() }));
+	const activity = boardActivity();
 	const onShift = duty.onShift().map((s) => ({ name: s.name, rank: s.rank, endsAt: s.endsAt.toISOString(), you: s.userId === locals.user!.id }));
 	return {
 		board: {
@@ -47,8 +36,7 @@ export const actions: Actions = {
 			const { latencyS } = duty.acknowledge(user, data.eventId);
 			return { done: `Acknowledged ${Math.round(latencyS)} s after the notice arrived.`, eventId: data.eventId };
 		} catch (e) {
-			if (e instanceof duty.DutyError) return failWith(form, {}, 400, e.message);
-			throw e;
+			return failFromError(form, e);
 		}
 	}
 };

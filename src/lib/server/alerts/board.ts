@@ -2,16 +2,29 @@
  * What the board and the event page show of an event: its latest state, sky-map summary,
  * notice history and acknowledgement, shaped for the page (plain, serialisable values).
  */
-import { and, asc, desc, eq, gt, inArray, or, sql } from 'drizzle-orm';
+import { and, asc, desc, eq, gt, inArray, notInArray, or, sql } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { ackState, escalateAfterMin, pagesFor, type PageView } from '../duty/paging';
 import type { AckView, EventDetail, EventView, PageRow, SkymapView } from '../../event-view';
+import { QUIET_ACTIONS } from '../../activity';
 
 export type { AckView, EventView, NoticeView, PageRow, SkymapView } from '../../event-view';
 
 /** Retracted events stay on the board this long, so that everyone sees the retraction. */
 export const RETRACTED_VISIBLE_MS = 24 * 3600_000;
+
+/** The board's latest messages, newest first, without the quiet ones (progress ticks). */
+export function boardActivity(limit = 15) {
+	return db
+		.select({ seq: table.eventLog.seq, action: table.eventLog.action, actor: table.eventLog.actorLabel, at: table.eventLog.createdAt })
+		.from(table.eventLog)
+		.where(and(eq(table.eventLog.room, 'board'), notInArray(table.eventLog.action, [...QUIET_ACTIONS])))
+		.orderBy(desc(table.eventLog.seq))
+		.limit(limit)
+		.all()
+		.map((r) => ({ ...r, at: r.at.toISOString() }));
+}
 
 const iso = (d: Date | null | undefined) => (d ? d.toISOString() : null);
 

@@ -108,6 +108,10 @@ export interface EventDetail extends EventListItem {
 	notices: NoticeItem[];
 }
 
+export function eventExists(eventId: string): boolean {
+	return Boolean(db.select({ id: table.gwEvent.id }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get());
+}
+
 /** One event with its notice history (by authored time, oldest first), sky maps and triage. */
 export function getEvent(eventId: string): EventDetail | null {
 	const e = db.select().from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();

@@ -10,6 +10,7 @@ import http from 'node:http';
 import https from 'node:https';
 import net from 'node:net';
 import { config } from '../platform/config';
+import { DomainError } from '../platform/errors';
 
 export type SkymapFetchErrorCode =
 	| 'bad_url'
@@ -22,13 +23,14 @@ export type SkymapFetchErrorCode =
 	| 'http_status'
 	| 'network';
 
-export class SkymapFetchError extends Error {
+/** A sky map that could not be fetched: 502, since the fault lies upstream (the notice's URL, the sky-map server or the way to it), never with whoever asked. */
+export class SkymapFetchError extends DomainError {
 	override name = 'SkymapFetchError';
 	constructor(
-		readonly code: SkymapFetchErrorCode,
+		override readonly code: SkymapFetchErrorCode,
 		message: string
 	) {
-		super(message);
+		super(502, code, message);
 	}
 }
 

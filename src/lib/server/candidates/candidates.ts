@@ -14,6 +14,8 @@ import { randomId, type SessionUser } from '../people/auth';
 import { actorOf, record, type Actor } from '../platform/realtime';
 import { can } from '../people/permissions';
 import { DomainError } from '../platform/errors';
+import { actsForEveryTeam, mayUseTeam, mayUseTelescope } from '../people/scope';
+import { getTelescope } from '../people/telescopes';
 
 const MIN = 60_000;
 const DAY = 24 * 60 * MIN;
@@ -171,11 +173,11 @@ function resolveScope(reporter: CandidateReporter, input: z.output<typeof candid
 	const telescopeId = reporter.user ? input.telescopeId : reporter.telescopeId;
 	if (!reporter.user && input.telescopeId && input.telescopeId !== reporter.telescopeId)
 		throw new CandidateError(403, 'forbidden', 'A telescope token reports for its own telescope only.');
-	const coordinator = reporter.user?.roles.includes('coordinator') ?? false;
+	const coordinator = reporter.user ? actsForEveryTeam(reporter.user) : false;
 	if (telescopeId) {
-		const scope = db.select().from(table.telescope).where(eq(table.telescope.id, telescopeId)).get();
+		const scope = getTelescope(telescopeId);
 		if (!scope) throw new CandidateError(404, 'not_found', `No telescope ${telescopeId}.`, { telescopeId: 'unknown telescope' });
-		if (reporter.user && !coordinator && !reporter.user.teamIds.includes(scope.teamId))
+		if (reporter.user && !mayUseTelescope(reporter.user, scope))
 			throw new CandidateError(403, 'forbidden', `Telescope ${scope.name} belongs to a team you are not a member of.`, { telescopeId: 'not one of your teams’ telescopes' });
 		if (input.teamId && input.teamId !== scope.teamId)
 			throw new CandidateError(422, 'invalid', `teamId: ${scope.name} belongs to another team; leave teamId out or give the telescope's team`, {
@@ -185,7 +187,7 @@ function resolveScope(reporter: CandidateReporter, input: z.output<typeof candid
 	}
 	const user = reporter.user!;
 	if (input.teamId) {
-		if (!coordinator && !user.teamIds.includes(input.teamId))
+		if (!mayUseTeam(user, input.teamId))
 			throw new CandidateError(403, 'forbidden', 'You may report only for a team you are a member of.', { teamId: 'not one of your teams' });
 		if (!db.select({ id: table.team.id }).from(table.team).where(eq(table.team.id, input.teamId)).get())
 			throw new CandidateError(404, 'not_found', `No team ${input.teamId}.`, { teamId: 'unknown team' });

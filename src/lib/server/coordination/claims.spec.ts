@@ -258,6 +258,13 @@ describe('lapse', () => {
 		expect(claims.lapseMinutesFor(s.eventId)).toBe(15);
 		expect(() => claims.setLapseMinutes(person('Ann', ['observer']), 'global', 5)).toThrow(/coordinator/);
 	});
+
+	it('takes lapse times of whole minutes from 5 to 1440 only, the range the page states', () => {
+		const coord = person('Cora', ['coordinator']);
+		for (const bad of [4, 1441, 30.5, Number.NaN]) expect(() => claims.setLapseMinutes(coord, 'global', bad)).toThrow(/from 5 to 1440/);
+		claims.setLapseMinutes(coord, 'global', 1440);
+		expect(claims.lapseMinutesFor('no-such-event')).toBe(1440);
+	});
 });
 
 describe('retraction', () => {

@@ -16,19 +16,14 @@ import { restartService } from '../platform/services';
 import type { ClaimFields } from '../../live-messages.ts';
 import { sendMail } from '../platform/mail';
 import { sunAvoidance } from '../../targeting/sun-moon.ts';
+import { DomainError } from '../platform/errors';
+import { actsForEveryTeam, mayUseTeam, mayUseTelescope } from '../people/scope';
+import { LAPSE_MINUTES_MAX, LAPSE_MINUTES_MIN } from '../../limits.ts';
 
 export const DEFAULT_LAPSE_MINUTES = 60;
 export const LAPSE_CHECK_MS = 30_000;
 
-export class ClaimError extends Error {
-	constructor(
-		readonly status: number,
-		readonly code: string,
-		message: string
-	) {
-		super(message);
-	}
-}
+export class ClaimError extends DomainError {}
 
 /** The target is held by someone else; names the holder so the loser knows whom to talk to. */
 export class ClaimTaken extends ClaimError {
@@ -50,7 +45,7 @@ export interface ClaimInput {
 	note?: string;
 }
 
-const isCoordinator = (user: SessionUser) => user.roles.includes('coordinator');
+const isCoordinator = (user: SessionUser) => actsForEveryTeam(user);
 
 function uniqueViolation(e: unknown): boolean {
 	for (let c: unknown = e; c && typeof c === 'object'; c = (c as { cause?: unknown }).cause) {
@@ -151,7 +146,7 @@ export function claim(user: SessionUser, input: ClaimInput, now = new Date()): t
 	const epoch = input.epoch ?? 1;
 	if (!Number.isInteger(epoch) || epoch < 1) throw new ClaimError(422, 'invalid', 'epoch must be an integer ≥ 1.');
 	const scope = telescopeOf(input.telescopeId);
-	if (!isCoordinator(user) && !user.teamIds.includes(scope.teamId))
+	if (!mayUseTelescope(user, scope))
 		throw new ClaimError(403, 'forbidden', `Telescope ${scope.name} belongs to a team you are not a member of.`);
 	if (filter !== '' && !scope.filters.includes(filter))
 		throw new ClaimError(422, 'invalid', `Telescope ${scope.name} has no filter "${filter}" (filters are case-sensitive: ${scope.filters.join(', ')}).`);
@@ -187,7 +182,7 @@ export function getClaim(claimId: string): table.Claim | undefined {
 function loadFor(user: SessionUser, claimId: string): table.Claim {
 	const c = getClaim(claimId);
 	if (!c) throw new ClaimError(404, 'not_found', `No claim ${claimId}.`);
-	if (!isCoordinator(user) && !user.teamIds.includes(c.teamId)) throw new ClaimError(403, 'forbidden', 'Only the claiming team or a coordinator may change this claim.');
+	if (!mayUseTeam(user, c.teamId)) throw new ClaimError(403, 'forbidden', 'Only the claiming team or a coordinator may change this claim.');
 	return c;
 }
 
@@ -259,7 +254,8 @@ export function lapseMinutesFor(eventId: string): number {
 /** Coordinators set the lapse time globally (`scope` = 'global') or for one event. */
 export function setLapseMinutes(user: SessionUser, scope: string, minutes: number, now = new Date()): void {
 	if (!isCoordinator(user)) throw new ClaimError(403, 'forbidden', 'Only a coordinator may set the lapse time.');
-	if (!(Number.isFinite(minutes) && minutes > 0 && minutes <= 7 * 24 * 60)) throw new ClaimError(422, 'invalid', 'Lapse minutes must be between 0 and one week.');
+	if (!(Number.isInteger(minutes) && minutes >= LAPSE_MINUTES_MIN && minutes <= LAPSE_MINUTES_MAX))
+		throw new ClaimError(422, 'invalid', `Enter whole minutes from ${LAPSE_MINUTES_MIN} to ${LAPSE_MINUTES_MAX} (24 h).`);
 	db.insert(table.claimSetting)
 		.values({ scope, lapseMinutes: minutes, updatedBy: user.id, updatedAt: now })
 		.onConflictDoUpdate({ target: table.claimSetting.scope, set: { lapseMinutes: minutes, updatedBy: user.id, updatedAt: now } })

@@ -14,6 +14,8 @@ import { footprintContains, footprintGeometry } from '../../targeting/sky-geomet
 import { footprintOf } from '../../targeting/telescope.ts';
 import { splitCsvLine } from '../../csv';
 import { DomainError } from '../platform/errors';
+import { mayUseTelescope } from '../people/scope';
+import { getTelescope } from '../people/telescopes';
 
 const MIN = 60_000;
 const DAY = 24 * 60 * MIN;
@@ -75,8 +77,7 @@ export function reportMany(
 		try {
 			prepared.push(prepare(reporter, raw, now));
 		} catch (e) {
-			const message = e instanceof z.ZodError ? Object.entries(fieldErrors(e)).map(([k, v]) => `${k}: ${v}`).join('; ') : (e as Error).message;
-			errors.push({ line: o.lines?.[i] ?? i + 1, message });
+			errors.push({ line: o.lines?.[i] ?? i + 1, message: (e as Error).message });
 		}
 	});
 	if (errors.length) return { results: [], errors };
@@ -92,16 +93,30 @@ interface Prepared {
 	observedAt: Date;
 }
 
+/** The refusal of a pointing whose fields break the rules: each field's message, and all of them joined. */
+function invalidPointing(fields: Record<string, string>): ObservationError {
+	return new ObservationError(
+		422,
+		'invalid',
+		Object.entries(fields)
+			.map(([k, v]) => `${k}: ${v}`)
+			.join('; '),
+		fields
+	);
+}
+
 /** Validate one pointing against its telescope and event; throws ObservationError. */
 function prepare(reporter: Reporter, raw: ObservationInput, now: Date): Prepared {
-	const input = observationInput.parse(raw);
+	const parsed = observationInput.safeParse(raw);
+	if (!parsed.success) throw invalidPointing(fieldErrors(parsed.error));
+	const input = parsed.data;
 	const telescopeId = reporter.user ? input.telescopeId : reporter.telescopeId;
 	if (!telescopeId) throw new ObservationError(422, 'invalid', 'telescopeId: required when a person reports', { telescopeId: 'required' });
 	if (!reporter.user && input.telescopeId && input.telescopeId !== reporter.telescopeId)
 		throw new ObservationError(403, 'forbidden', "A telescope token reports for its own telescope only.");
-	const scope = db.select().from(table.telescope).where(eq(table.telescope.id, telescopeId)).get();
+	const scope = getTelescope(telescopeId);
 	if (!scope) throw new ObservationError(404, 'not_found', `No telescope ${telescopeId}.`);
-	if (reporter.user && !reporter.user.roles.includes('coordinator') && !reporter.user.teamIds.includes(scope.teamId))
+	if (reporter.user && !mayUseTelescope(reporter.user, scope))
 		throw new ObservationError(403, 'forbidden', `Telescope ${scope.name} belongs to a team you are not a member of.`);
 	const event = db.select().from(table.gwEvent).where(eq(table.gwEvent.id, input.eventId)).get();
 	if (!event) throw new ObservationError(404, 'not_found', `No event ${input.eventId}.`);
@@ -125,15 +140,7 @@ function prepare(reporter: Reporter, raw: ObservationInput, now: Date): Prepared
 		if (!f) fields.fieldId = `field ${input.fieldId} is not among this event's fields for ${scope.name}; give raDeg/decDeg`;
 		else ({ raDeg, decDeg } = f);
 	}
-	if (Object.keys(fields).length)
-		throw new ObservationError(
-			422,
-			'invalid',
-			Object.entries(fields)
-				.map(([k, v]) => `${k}: ${v}`)
-				.join('; '),
-			fields
-		);
+	if (Object.keys(fields).length) throw invalidPointing(fields);
 
 	return { input, scope, event, raDeg: raDeg!, decDeg: decDeg!, observedAt };
 }

@@ -13,6 +13,7 @@ import { every } from '../platform/periodic';
 import { restartService } from '../platform/services';
 import { onRecorded, record, SYSTEM, type Actor, type LivePayloads } from '../platform/realtime';
 import { can, rolesFor } from '../people/permissions';
+import { InputError } from '../platform/errors';
 import {
 	dominantClass,
 	formatArea,
@@ -27,14 +28,7 @@ import {
 export const DEFAULT_ESCALATE_AFTER_MIN = 10;
 export const ESCALATION_CHECK_MS = 15_000;
 
-export class DutyError extends Error {
-	constructor(
-		message: string,
-		readonly field?: string
-	) {
-		super(message);
-	}
-}
+export class DutyError extends InputError {}
 
 export interface Person {
 	userId: string;

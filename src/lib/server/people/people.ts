@@ -6,15 +6,9 @@ import { config } from '../platform/config';
 import { hashPassword, hashToken, randomId, randomToken, invalidateUserSessions, verifyPassword } from './auth';
 import { sendMail } from '../platform/mail';
 import { record, type Actor } from '../platform/realtime';
+import { InputError } from '../platform/errors';
 
-export class PeopleError extends Error {
-	constructor(
-		message: string,
-		readonly field?: string
-	) {
-		super(message);
-	}
-}
+export class PeopleError extends InputError {}
 
 export function findUserByEmail(email: string) {
 	return db.select().from(table.user).where(eq(table.user.email, email.trim().toLowerCase())).get();
@@ -197,7 +191,7 @@ export async function acceptInvitation(token: string, input: { name: string; pas
 		for (const teamId of inv.teamIds) tx.insert(table.teamMember).values({ teamId, userId }).run();
 		return inv;
 	});
-	if (!accepted) throw new PeopleError('This invitation link is no longer valid. Ask for a new one.');
+	if (!accepted) throw new PeopleError('This invitation link is no longer valid. Ask for a new one.', undefined, 410, 'gone');
 	record({ userId, label: input.name }, 'person.joined', 'board', { userId, name: input.name, roles: accepted.roles });
 	return { userId, email: accepted.email };
 }
@@ -274,7 +268,7 @@ export async function resetPassword(token: string, password: string, now = new D
 		tx.update(table.user).set({ passwordHash }).where(eq(table.user.id, reset.userId)).run();
 		return reset.userId;
 	});
-	if (!userId) throw new PeopleError('This reset link is no longer valid. Ask for a new one.');
+	if (!userId) throw new PeopleError('This reset link is no longer valid. Ask for a new one.', undefined, 410, 'gone');
 	invalidateUserSessions(userId);
 	return userId;
 }

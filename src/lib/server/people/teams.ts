@@ -3,15 +3,9 @@ import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { randomId } from './auth';
 import { record, type Actor } from '../platform/realtime';
+import { InputError } from '../platform/errors';
 
-export class TeamError extends Error {
-	constructor(
-		message: string,
-		readonly field?: string
-	) {
-		super(message);
-	}
-}
+export class TeamError extends InputError {}
 
 export function listTeams() {
 	const teams = db.select().from(table.team).orderBy(asc(table.team.name)).all();

@@ -1,7 +1,7 @@
 import { redirect } from '@sveltejs/kit';
 import type { RequestEvent } from '@sveltejs/kit';
 import { requireUser } from './guard';
-import { validateForm, failWith } from '../platform/forms';
+import { validateForm, failFromError } from '../platform/forms';
 import { actorOf } from '../platform/realtime';
 import * as telescopes from './telescopes';
 
@@ -14,8 +14,7 @@ export async function saveTelescope(event: RequestEvent, id: string | null) {
 		if (id) telescopes.updateTelescope(actorOf(user), id, data);
 		else telescopes.createTelescope(actorOf(user), data);
 	} catch (e) {
-		if (e instanceof telescopes.TelescopeError) return failWith(form, e.field ? { [e.field]: e.message } : {}, 400, e.field ? undefined : e.message);
-		throw e;
+		return failFromError(form, e);
 	}
 	redirect(303, '/telescopes');
 }

@@ -5,6 +5,7 @@ import * as table from '../platform/db/schema';
 import { randomId } from './auth';
 import { record, type Actor } from '../platform/realtime';
 import { numberField } from '../../validation';
+import { InputError } from '../platform/errors';
 
 /** Form schema: what a telescope needs for planning. Limits are physical, not preferences. */
 export const telescopeInput = z
@@ -55,14 +56,7 @@ export const telescopeInput = z
 
 export type TelescopeInput = z.infer<typeof telescopeInput>;
 
-export class TelescopeError extends Error {
-	constructor(
-		message: string,
-		readonly field?: string
-	) {
-		super(message);
-	}
-}
+export class TelescopeError extends InputError {}
 
 export function listTelescopes() {
 	return db

@@ -3,17 +3,11 @@ import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { hashToken, randomId, randomToken } from './auth';
 import { record, type Actor } from '../platform/realtime';
+import { InputError } from '../platform/errors';
 
 export const TOKEN_PREFIX = 'stl_';
 
-export class TokenError extends Error {
-	constructor(
-		message: string,
-		readonly field?: string
-	) {
-		super(message);
-	}
-}
+export class TokenError extends InputError {}
 
 /** Issue a token for a person or a telescope. Returns the secret: shown once, stored hashed. */
 export function issueToken(

@@ -4,6 +4,8 @@ import { and, eq, isNull } from 'drizzle-orm';
 import { db } from './db';
 import * as table from './db/schema';
 import { hashToken, type SessionUser } from '../people/auth';
+import { DomainError } from './errors';
+import { API_JSON_MAX_BYTES } from '../../limits.ts';
 
 /** The API's error body: `{ error: { code, message } }`. */
 export function apiError(status: number, code: string, message: string, details?: unknown) {
@@ -21,20 +23,30 @@ const CODES: Record<number, string> = {
 	422: 'invalid'
 };
 
-/** Wrap a `+server.ts` handler so expected failures come out in the API's error shape. */
+/**
+ * The API's answer to a refusal from a domain module: `{ error: { code, message, details? } }` with
+ * its status, `details` being the message per field when there are any. Anything that is not a
+ * DomainError is rethrown, so an unexpected failure still reaches `handleError`.
+ */
+export function apiErrorFrom(e: unknown): Response {
+	if (!(e instanceof DomainError)) throw e;
+	return apiError(e.status, e.code, e.message, Object.keys(e.fields).length ? e.fields : undefined);
+}
+
+/** Wrap a `+server.ts` handler so expected failures (`error(...)`, a DomainError) come out in the API's error shape. */
 export function apiRoute(handler: (event: RequestEvent) => Promise<Response> | Response): RequestHandler {
 	return async (event) => {
 		try {
 			return await handler(event);
 		} catch (e) {
 			if (isHttpError(e)) return apiError(e.status, CODES[e.status] ?? 'error', e.body.message);
-			throw e;
+			return apiErrorFrom(e);
 		}
 	};
 }
 
 /** Parse a JSON body against a schema, or answer 400/422 with the field problems. */
-export async function readJson<S extends z.ZodType>(request: Request, schema: S, maxBytes = 256 * 1024) {
+export async function readJson<S extends z.ZodType>(request: Request, schema: S, maxBytes = API_JSON_MAX_BYTES) {
 	const text = await request.text();
 	if (text.length > maxBytes) return { response: apiError(413, 'too_large', `Body over ${maxBytes} bytes.`) };
 	let body: unknown;

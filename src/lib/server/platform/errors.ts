@@ -9,3 +9,18 @@ export class DomainError extends Error {
 		super(message);
 	}
 }
+
+/**
+ * A refusal of what someone typed or chose: 400 'invalid' unless told otherwise, with the
+ * message shown beside `field` when the refusal is about one field.
+ */
+export class InputError extends DomainError {
+	constructor(
+		message: string,
+		readonly field?: string,
+		status = 400,
+		code = 'invalid'
+	) {
+		super(status, code, message, field ? { [field]: message } : {});
+	}
+}

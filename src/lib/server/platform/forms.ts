@@ -1,5 +1,6 @@
 import { fail, type ActionFailure } from '@sveltejs/kit';
 import { z } from 'zod';
+import { DomainError } from './errors';
 
 export type FieldErrors = Record<string, string>;
 
@@ -66,6 +67,31 @@ export async function validateForm<S extends z.ZodType>(
 
 export function failWith(form: FormData, errors: FieldErrors, status = 400, message?: string) {
 	return fail(status, { values: echoValues(form), errors, message } satisfies FormFailure);
+}
+
+/**
+ * The form action's answer to a refusal from a domain module: `fail(status, { values, errors, message })`
+ * with what the person typed (never a password or token). Anything that is not a DomainError is
+ * rethrown, so an unexpected failure still reaches `handleError`.
+ * - A 422 (the input broke a rule) answers 400, as a form the schema refused does.
+ * - The per-field messages go beside their fields; a refusal about no field goes beside `o.field`
+ *   when given, otherwise at the top.
+ * - The sentence at the top is left out when the field messages already say it (an input error
+ *   with fields, or a refusal placed beside `o.field`).
+ * - `o.extra` adds what the page needs besides (the target a claim was for).
+ */
+export function failFromError<Extra extends Record<string, unknown> = Record<never, never>>(
+	form: FormData,
+	e: unknown,
+	o: { field?: string; extra?: Extra } = {}
+): ActionFailure<FormFailure & Extra> {
+	if (!(e instanceof DomainError)) throw e;
+	const status = e.status === 422 ? 400 : e.status >= 400 && e.status < 500 ? e.status : 400;
+	const hasFields = Object.keys(e.fields).length > 0;
+	const errors: FieldErrors = hasFields ? { ...e.fields } : o.field ? { [o.field]: e.message } : {};
+	const saidByFields = hasFields ? status === 400 : Boolean(o.field);
+	const body = { ...(o.extra as Extra), values: echoValues(form), errors, message: saidByFields ? undefined : e.message };
+	return fail(status, body as FormFailure & Extra);
 }
 
 /** An empty input is absent; a number stays a string when it does not parse, so the schema names the field. */

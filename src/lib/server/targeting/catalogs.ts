@@ -17,13 +17,13 @@ import { record, type Actor } from '../platform/realtime';
 import { CATALOG_FIELDS, CatalogCsvParser, SUN_ABS_MAG_B, type CatalogCsvResult, type CatalogField } from '../../targeting/catalog-csv.ts';
 import { INDEX_ORDER } from '../../targeting/galaxies.ts';
 import { radecToNest } from '../../sky/index.ts';
+import { InputError } from '../platform/errors';
+import { CATALOG_MAX_BYTES } from '../../limits.ts';
 
 /** Luminosity proxies a column can be mapped to ('none': every galaxy weighs the same). */
 export const PROXY_FIELDS = ['weight', 'b_abs', 'b_app', 'k_abs', 'k_app', 'mass'] as const;
 export type ProxyField = (typeof PROXY_FIELDS)[number];
 
-/** Largest catalogue file accepted, bytes (the node server's body limit is set in server.js). */
-export const MAX_CATALOG_BYTES = 200 * 1024 * 1024;
 /** Rejected rows listed in a report (all are counted). */
 export const REPORTED_REJECTS = 50;
 /** Rows per multi-row INSERT (11 columns each, well under SQLite's bound-parameter limit). */
@@ -31,14 +31,7 @@ const INSERT_BATCH = 200;
 /** Least time between two `catalog.progress` messages. */
 const PROGRESS_EVERY_MS = 500;
 
-export class CatalogError extends Error {
-	constructor(
-		message: string,
-		readonly field?: string
-	) {
-		super(message);
-	}
-}
+export class CatalogError extends InputError {}
 
 export interface ImportInput {
 	name: string;
@@ -190,7 +183,7 @@ function countNewlines(s: string): number {
  */
 export async function importCatalog(actor: Actor, input: ImportInput, source: ChunkSource, options: ImportOptions = {}): Promise<ImportOutcome> {
 	checkInput(input);
-	const maxBytes = input.maxBytes ?? MAX_CATALOG_BYTES;
+	const maxBytes = input.maxBytes ?? CATALOG_MAX_BYTES;
 	const catalogId = randomId();
 	const columns = input.columns ? Object.fromEntries(Object.entries(input.columns).map(([k, v]) => [k, v!.trim()])) : {};
 	db.insert(table.catalog)

@@ -6,6 +6,7 @@
  */
 import type { SessionUser } from '../people/auth';
 import { can } from '../people/permissions';
+import { actsForEveryTeam, usableTelescopes } from '../people/scope';
 import * as claims from '../coordination/claims';
 import { getEvent } from '../alerts/events';
 import { listTelescopes } from '../people/telescopes';
@@ -14,7 +15,7 @@ import { telescopeViews } from './visibility-view';
 import { observableNowMask, skyNow, tonightFor, visibility } from '../../targeting/visibility.ts';
 
 /** Rows per page in both tables. */
-export const PAGE_SIZE = 25;
+import { TARGETS_PAGE_SIZE as PAGE_SIZE } from '../../limits.ts';
 
 // ─── The query string ───
 
@@ -98,9 +99,9 @@ export function targetsPageData(eventId: string, query: TargetQuery, user: Sessi
 		return c ? { id: c.id, state: c.state, teamId: c.teamId, teamName: c.teamName, telescopeId: c.telescopeId, telescopeName: c.telescopeName, filter: c.filter, epoch: c.epoch } : null;
 	};
 	const mayClaim = Boolean(user && can({ user, telescopeId: null }, 'claims.create'));
-	const coordinator = Boolean(user?.roles.includes('coordinator'));
+	const coordinator = Boolean(user && actsForEveryTeam(user));
 	const manages = Boolean(user && can({ user, telescopeId: null }, 'claims.manage'));
-	const ownTelescopes = user ? telescopes.filter((t) => coordinator || user.teamIds.includes(t.teamId)).map((t) => ({ id: t.id, name: t.name, teamName: t.teamName })) : [];
+	const ownTelescopes = usableTelescopes(user, telescopes).map((t) => ({ id: t.id, name: t.name, teamName: t.teamName }));
 
 	return {
 		claiming: { allowed: mayClaim, coordinator, teamIds: user?.teamIds ?? [], telescopes: ownTelescopes, telescopeId: ownTelescopes.find((t) => t.id === chosen?.id)?.id ?? ownTelescopes[0]?.id ?? null },

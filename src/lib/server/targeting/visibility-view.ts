@@ -179,10 +179,6 @@ export function planCoverage(eventId: string, plan: NetworkPlan, telescopes: Tel
 	};
 }
 
-export function eventExists(eventId: string): boolean {
-	return Boolean(db.select({ id: table.gwEvent.id }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get());
-}
-
 /** The plan's start: `?start=` when the page passes its own (so a download matches it), else now to the minute. */
 export function planStart(param: string | null, now = new Date()): Date {
 	if (param) {

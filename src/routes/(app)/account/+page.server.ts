@@ -2,7 +2,7 @@ import { redirect } from '@sveltejs/kit';
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
 import { requireUser } from '$lib/server/people/guard';
-import { validateForm, failWith } from '$lib/server/platform/forms';
+import { validateForm, failFromError } from '$lib/server/platform/forms';
 import * as auth from '$lib/server/people/auth';
 import * as people from '$lib/server/people/people';
 import { newPasswordField } from '$lib/validation';
@@ -34,8 +34,7 @@ export const actions: Actions = {
 		try {
 			await people.changePassword(user.id, data.currentPassword, data.password, locals.session!.id);
 		} catch (e) {
-			if (e instanceof people.PeopleError) return failWith(form, { [e.field ?? 'currentPassword']: e.message });
-			throw e;
+			return failFromError(form, e, { field: 'currentPassword' });
 		}
 		return { done: 'Password changed. Your other sessions were signed out.' };
 	},

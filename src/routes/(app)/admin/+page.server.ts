@@ -2,7 +2,7 @@ import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
 import { can } from '$lib/server/people/permissions';
 import { requirePermission, requireUser } from '$lib/server/people/guard';
-import { validateForm, failWith } from '$lib/server/platform/forms';
+import { validateForm, failFromError } from '$lib/server/platform/forms';
 import { actorOf } from '$lib/server/platform/realtime';
 import * as people from '$lib/server/people/people';
 import { listTeams } from '$lib/server/people/teams';
@@ -24,11 +24,6 @@ const inviteSchema = z.object({ email: emailField, roles: rolesField, teamIds: z
 const rolesSchema = z.object({ userId: z.string().min(1), roles: rolesField });
 const idSchema = z.object({ userId: z.string().min(1) });
 
-function peopleFailure(form: FormData, e: unknown) {
-	if (e instanceof people.PeopleError) return failWith(form, e.field ? { [e.field]: e.message } : {}, 400, e.field ? undefined : e.message);
-	throw e;
-}
-
 export const actions: Actions = {
 	invite: async ({ request }) => {
 		const user = requireUser('people.invite');
@@ -37,7 +32,7 @@ export const actions: Actions = {
 		try {
 			await people.invite(actorOf(user), data);
 		} catch (e) {
-			return peopleFailure(form, e);
+			return failFromError(form, e);
 		}
 		return { done: `Invitation sent to ${data.email}.` };
 	},
@@ -55,7 +50,7 @@ export const actions: Actions = {
 		try {
 			people.setRoles(actorOf(user), data.userId, data.roles);
 		} catch (e) {
-			return peopleFailure(form, e);
+			return failFromError(form, e);
 		}
 		return { done: 'Roles saved.' };
 	},
@@ -66,7 +61,7 @@ export const actions: Actions = {
 		try {
 			people.setDisabled(actorOf(user), data.userId, true);
 		} catch (e) {
-			return peopleFailure(form, e);
+			return failFromError(form, e);
 		}
 		return { done: 'Account disabled and signed out.' };
 	},

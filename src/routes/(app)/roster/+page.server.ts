@@ -2,7 +2,7 @@ import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
 import { requirePermission, requireUser } from '$lib/server/people/guard';
 import { can } from '$lib/server/people/permissions';
-import { validateForm, failWith } from '$lib/server/platform/forms';
+import { validateForm, failFromError } from '$lib/server/platform/forms';
 import { actorOf } from '$lib/server/platform/realtime';
 import * as duty from '$lib/server/duty/paging';
 
@@ -52,11 +52,6 @@ const addSchema = z.object({
 const shiftIdSchema = z.object({ shiftId: z.string({ error: 'Choose a shift.' }).min(1, 'Choose a shift.') });
 const handoverSchema = shiftIdSchema.extend({ handoverNote: z.string({ error: 'Write a note.' }).trim().max(2000, 'At most 2000 characters.') });
 
-function dutyFailure(form: FormData, e: unknown) {
-	if (e instanceof duty.DutyError) return failWith(form, e.field ? { [e.field]: e.message } : {}, 400, e.field ? undefined : e.message);
-	throw e;
-}
-
 export const actions: Actions = {
 	add: async ({ request }) => {
 		const user = requireUser('shifts.manage');
@@ -65,7 +60,7 @@ export const actions: Actions = {
 		try {
 			duty.addShift(actorOf(user), data);
 		} catch (e) {
-			return dutyFailure(form, e);
+			return failFromError(form, e);
 		}
 		return { done: 'Shift added.' };
 	},
@@ -76,7 +71,7 @@ export const actions: Actions = {
 		try {
 			duty.removeShift(actorOf(user), data.shiftId);
 		} catch (e) {
-			return dutyFailure(form, e);
+			return failFromError(form, e);
 		}
 		return { done: 'Shift removed.' };
 	},
@@ -87,7 +82,7 @@ export const actions: Actions = {
 		try {
 			duty.setHandoverNote(user, data.shiftId, data.handoverNote);
 		} catch (e) {
-			return dutyFailure(form, e);
+			return failFromError(form, e);
 		}
 		return { done: 'Hand-over note saved.' };
 	}

@@ -2,7 +2,7 @@ import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
 import { can } from '$lib/server/people/permissions';
 import { requirePermission, requireUser } from '$lib/server/people/guard';
-import { validateForm, failWith } from '$lib/server/platform/forms';
+import { validateForm, failFromError } from '$lib/server/platform/forms';
 import { actorOf } from '$lib/server/platform/realtime';
 import * as teams from '$lib/server/people/teams';
 import { listUsers } from '$lib/server/people/people';
@@ -27,11 +27,6 @@ const memberSchema = z.object({
 	userId: z.string({ error: 'Choose a person.' }).min(1, 'Choose a person.')
 });
 
-function teamFailure(form: FormData, e: unknown) {
-	if (e instanceof teams.TeamError) return failWith(form, e.field ? { [e.field]: e.message } : {}, 400, e.field ? undefined : e.message);
-	throw e;
-}
-
 export const actions: Actions = {
 	create: async ({ request }) => {
 		const user = requireUser('teams.manage');
@@ -40,7 +35,7 @@ export const actions: Actions = {
 		try {
 			teams.createTeam(actorOf(user), data);
 		} catch (e) {
-			return teamFailure(form, e);
+			return failFromError(form, e);
 		}
 		return { done: 'Team created.' };
 	},
@@ -51,7 +46,7 @@ export const actions: Actions = {
 		try {
 			teams.addMember(actorOf(user), data.teamId, data.userId);
 		} catch (e) {
-			return teamFailure(form, e);
+			return failFromError(form, e);
 		}
 		return { done: 'Member added.' };
 	},

@@ -1,7 +1,7 @@
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
 import { requirePermission, requireUser } from '$lib/server/people/guard';
-import { validateForm, failWith } from '$lib/server/platform/forms';
+import { validateForm, failFromError } from '$lib/server/platform/forms';
 import { actorOf } from '$lib/server/platform/realtime';
 import * as tokens from '$lib/server/people/tokens';
 import { listUsers } from '$lib/server/people/people';
@@ -37,8 +37,7 @@ export const actions: Actions = {
 			});
 			return { issued: { name: data.name, secret } };
 		} catch (e) {
-			if (e instanceof tokens.TokenError) return failWith(form, { [e.field ?? 'owner']: e.message });
-			throw e;
+			return failFromError(form, e, { field: 'owner' });
 		}
 	},
 	revoke: async ({ request }) => {

@@ -2,7 +2,8 @@ import { error, json, redirect } from '@sveltejs/kit';
 import type { RequestHandler } from './$types';
 import { requireUser } from '$lib/server/people/guard';
 import { actorOf } from '$lib/server/platform/realtime';
-import { CatalogError, importCatalog } from '$lib/server/targeting/catalogs';
+import { importCatalog } from '$lib/server/targeting/catalogs';
+import { apiErrorFrom } from '$lib/server/platform/api';
 import { CATALOG_FIELDS, type CatalogField } from '$lib/targeting/catalog-csv';
 
 const CSV_TYPES = ['text/csv', 'application/csv', 'text/plain', 'application/octet-stream'];
@@ -48,7 +49,6 @@ export const POST: RequestHandler = async ({ request, url, locals }) => {
 		);
 		return json(out, { status: out.state === 'ready' ? 201 : 422 });
 	} catch (e) {
-		if (e instanceof CatalogError) return json({ error: { code: 'invalid', message: e.message, field: e.field } }, { status: 400 });
-		throw e;
+		return apiErrorFrom(e);
 	}
 };

@@ -3,12 +3,12 @@ import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
 import { requirePermission, requireUser } from '$lib/server/people/guard';
 import { can } from '$lib/server/people/permissions';
-import { validateForm, failWith } from '$lib/server/platform/forms';
+import { validateForm, failFromError } from '$lib/server/platform/forms';
 import { eventDetail } from '$lib/server/alerts/board';
 import * as duty from '$lib/server/duty/paging';
 import { eventCoverage } from '$lib/server/coordination/event-coverage';
 import { eventSky } from '$lib/server/targeting/event-sky';
-import { listTelescopes } from '$lib/server/people/telescopes';
+import { telescopesFor } from '$lib/server/people/scope';
 import { isWideField } from '$lib/targeting/telescope';
 
 export const load: PageServerLoad = ({ params, locals, depends }) => {
@@ -20,11 +20,9 @@ export const load: PageServerLoad = ({ params, locals, depends }) => {
 	const current = usable.findLast((m) => m.noticeId === event.skymap?.noticeId) ?? usable.at(-1);
 	const covered = eventCoverage(event.id);
 	const user = locals.user;
-	const coordinator = Boolean(user?.roles.includes('coordinator'));
 	// Telescopes the viewer may claim with: their teams' (coordinators: every one).
 	const telescopes = user && can({ user, telescopeId: null }, 'claims.create')
-		? listTelescopes()
-				.filter((t) => coordinator || user.teamIds.includes(t.teamId))
+		? telescopesFor(user)
 				.map((t) => ({ id: t.id, name: t.name, teamName: t.teamName, wide: isWideField(t) }))
 		: [];
 	return {
@@ -57,8 +55,7 @@ export const actions: Actions = {
 			const { latencyS } = duty.acknowledge(user, params.eventId);
 			return { done: `Acknowledged ${Math.round(latencyS)} s after the notice arrived.` };
 		} catch (e) {
-			if (e instanceof duty.DutyError) return failWith(form, {}, 400, e.message);
-			throw e;
+			return failFromError(form, e);
 		}
 	}
 };

@@ -1,7 +1,7 @@
 import { redirect } from '@sveltejs/kit';
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
-import { validateForm, failWith } from '$lib/server/platform/forms';
+import { validateForm, failFromError } from '$lib/server/platform/forms';
 import * as people from '$lib/server/people/people';
 import { startSession } from '$lib/server/people/session-cookie';
 import { nameField, newPasswordField } from '$lib/validation';
@@ -25,8 +25,7 @@ export const actions: Actions = {
 			const { userId } = await people.acceptInvitation(event.params.token, { name: data.name, password: data.password });
 			startSession(event, userId);
 		} catch (e) {
-			if (e instanceof people.PeopleError) return failWith(form, {}, 410, e.message);
-			throw e;
+			return failFromError(form, e);
 		}
 		redirect(303, '/');
 	}

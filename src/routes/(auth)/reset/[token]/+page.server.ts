@@ -1,7 +1,7 @@
 import { redirect } from '@sveltejs/kit';
 import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
-import { validateForm, failWith } from '$lib/server/platform/forms';
+import { validateForm, failFromError } from '$lib/server/platform/forms';
 import * as people from '$lib/server/people/people';
 import { newPasswordField } from '$lib/validation';
 
@@ -18,8 +18,7 @@ export const actions: Actions = {
 		try {
 			await people.resetPassword(event.params.token, data.password);
 		} catch (e) {
-			if (e instanceof people.PeopleError) return failWith(form, {}, 410, e.message);
-			throw e;
+			return failFromError(form, e);
 		}
 		redirect(303, '/sign-in?reset=done');
 	}

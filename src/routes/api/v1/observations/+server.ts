@@ -1,9 +1,8 @@
 import { json } from '@sveltejs/kit';
 import { apiError, apiRoute, readJson, reporterOf } from '$lib/server/platform/api';
 import { requirePermission } from '$lib/server/people/guard';
-import { observationInput, ObservationError, parseObservationCsv, report, reportMany } from '$lib/server/coordination/observations';
-
-const MAX_CSV_BYTES = 1024 * 1024;
+import { observationInput, parseObservationCsv, report, reportMany } from '$lib/server/coordination/observations';
+import { API_OBSERVATION_CSV_MAX_BYTES } from '$lib/limits';
 
 /**
  * POST a pointing `{ eventId, observedAt, raDeg, decDeg | fieldId, filter, exposureS, limitingMag, seeingArcsec?, notes? }`.
@@ -18,27 +17,17 @@ export const POST = apiRoute(async ({ request, url }) => {
 	const type = (request.headers.get('content-type') ?? '').split(';')[0].trim().toLowerCase();
 	if (type === 'text/csv') {
 		const text = await request.text();
-		if (text.length > MAX_CSV_BYTES) return apiError(413, 'too_large', `A CSV upload may be at most ${MAX_CSV_BYTES} bytes.`);
+		if (text.length > API_OBSERVATION_CSV_MAX_BYTES) return apiError(413, 'too_large', `A CSV upload may be at most ${API_OBSERVATION_CSV_MAX_BYTES} bytes.`);
 		const eventId = url.searchParams.get('eventId') ?? '';
 		const telescopeId = url.searchParams.get('telescopeId') || undefined;
 		const parsed = parseObservationCsv(text);
 		if (parsed.errors.length) return apiError(422, 'invalid_csv', `${parsed.errors.length} problem(s); nothing stored.`, parsed.errors);
-		try {
-			const out = reportMany(reporter, parsed.rows.map((r) => ({ ...r, eventId, telescopeId })), 'csv', { lines: parsed.lines });
-			if (out.errors.length) return apiError(422, 'invalid_csv', `${out.errors.length} problem(s); nothing stored.`, out.errors);
-			return json({ results: out.results }, { status: 201 });
-		} catch (e) {
-			if (e instanceof ObservationError) return apiError(e.status, e.code, e.message);
-			throw e;
-		}
+		const out = reportMany(reporter, parsed.rows.map((r) => ({ ...r, eventId, telescopeId })), 'csv', { lines: parsed.lines });
+		if (out.errors.length) return apiError(422, 'invalid_csv', `${out.errors.length} problem(s); nothing stored.`, out.errors);
+		return json({ results: out.results }, { status: 201 });
 	}
 	const body = await readJson(request, observationInput);
 	if (body.response) return body.response;
-	try {
-		const out = report(reporter, body.data, 'api');
-		return json(out, { status: 201 });
-	} catch (e) {
-		if (e instanceof ObservationError) return apiError(e.status, e.code, e.message, Object.keys(e.fields).length ? e.fields : undefined);
-		throw e;
-	}
+	const out = report(reporter, body.data, 'api');
+	return json(out, { status: 201 });
 });

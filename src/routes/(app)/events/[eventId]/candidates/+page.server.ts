@@ -2,23 +2,16 @@ import { error } from '@sveltejs/kit';
 import type { Actions, PageServerLoad } from './$types';
 import { requirePermission, requireUser } from '$lib/server/people/guard';
 import { can } from '$lib/server/people/permissions';
-import { failWith, formNumber, formText, formUtc } from '$lib/server/platform/forms';
+import { failFromError, formNumber, formText, formUtc } from '$lib/server/platform/forms';
 import { getEvent } from '$lib/server/alerts/events';
-import { listTelescopes } from '$lib/server/people/telescopes';
-import { listTeams } from '$lib/server/people/teams';
-import { CandidateError, listCandidates, reportCandidate, type CandidateInput } from '$lib/server/candidates/candidates';
+import { teamsFor, telescopesFor } from '$lib/server/people/scope';
+import { listCandidates, reportCandidate, type CandidateInput } from '$lib/server/candidates/candidates';
 import type { SessionUser } from '$lib/server/people/auth';
 
 /** The telescopes and teams a person may report for (coordinators: all). */
 function choices(user: SessionUser | null) {
-	if (!user) return { telescopes: [], teams: [] };
-	const coordinator = user.roles.includes('coordinator');
-	const telescopes = listTelescopes()
-		.filter((t) => coordinator || user.teamIds.includes(t.teamId))
-		.map((t) => ({ id: t.id, name: t.name, teamName: t.teamName, filters: t.filters }));
-	const teams = listTeams()
-		.filter((t) => coordinator || user.teamIds.includes(t.id))
-		.map((t) => ({ id: t.id, name: t.name }));
+	const telescopes = telescopesFor(user).map((t) => ({ id: t.id, name: t.name, teamName: t.teamName, filters: t.filters }));
+	const teams = teamsFor(user).map((t) => ({ id: t.id, name: t.name }));
 	return { telescopes, teams };
 }
 
@@ -58,10 +51,8 @@ export const actions: Actions = {
 			const out = reportCandidate({ user }, raw as CandidateInput);
 			return { reported: { name: out.candidate.name, warning: out.warning } };
 		} catch (e) {
-			if (!(e instanceof CandidateError)) throw e;
 			// Field problems are the form's 400; refusals keep their status (403, 404, 409).
-			const status = e.status === 422 ? 400 : e.status;
-			return failWith(form, e.fields, status, Object.keys(e.fields).length && e.status === 422 ? undefined : e.message);
+			return failFromError(form, e);
 		}
 	}
 };

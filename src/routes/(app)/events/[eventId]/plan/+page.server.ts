@@ -2,6 +2,7 @@ import { error } from '@sveltejs/kit';
 import type { PageServerLoad } from './$types';
 import { requirePermission } from '$lib/server/people/guard';
 import { can } from '$lib/server/people/permissions';
+import { usableTelescopes } from '$lib/server/people/scope';
 import { getEvent } from '$lib/server/alerts/events';
 import { targetsMeta } from '$lib/server/targeting/rankings';
 import { claimTargetId, networkPlan, planCoverage, planStart } from '$lib/server/targeting/visibility-view';
@@ -21,7 +22,7 @@ export const load: PageServerLoad = ({ params, url, depends, locals }) => {
 	// Claiming from the plan: with the viewer's own teams' telescopes (coordinators: any), targets no claim holds.
 	const user = locals.user;
 	const mayClaim = Boolean(user && event.state === 'active' && can({ user, telescopeId: null }, 'claims.create'));
-	const claimable = new Set(mayClaim ? telescopes.filter((t) => user!.roles.includes('coordinator') || user!.teamIds.includes(t.teamId)).map((t) => t.id) : []);
+	const claimable = new Set(mayClaim ? usableTelescopes(user, telescopes).map((t) => t.id) : []);
 	// The claims the plan honoured (open and completed ones).
 	const held = new Map(claims.map((c) => [`${c.targetKind}:${c.targetId}`, { state: c.state, teamName: c.teamName, telescopeName: c.telescopeName }]));
 	const counts = new Map<string, number>();

@@ -1,21 +1,15 @@
 import { error, fail } from '@sveltejs/kit';
-import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
 import { requirePermission, requireUser } from '$lib/server/people/guard';
-import { failWith, formNumber, formText, formUtc } from '$lib/server/platform/forms';
+import { failFromError, failWith, formNumber, formText, formUtc } from '$lib/server/platform/forms';
 import { getEvent } from '$lib/server/alerts/events';
-import { listTelescopes } from '$lib/server/people/telescopes';
-import { fieldErrors, ObservationError, parseObservationCsv, report, reportMany, type ObservationInput } from '$lib/server/coordination/observations';
+import { telescopesFor } from '$lib/server/people/scope';
+import { parseObservationCsv, report, reportMany, type ObservationInput } from '$lib/server/coordination/observations';
 import type { SessionUser } from '$lib/server/people/auth';
-
-const MAX_CSV_BYTES = 2_000_000;
+import { FORM_OBSERVATION_CSV_MAX_BYTES } from '$lib/limits';
 
 function ownTelescopes(user: SessionUser | null) {
-	if (!user) return [];
-	const coordinator = user.roles.includes('coordinator');
-	return listTelescopes()
-		.filter((t) => coordinator || user.teamIds.includes(t.teamId))
-		.map((t) => ({ id: t.id, name: t.name, teamName: t.teamName, filters: t.filters }));
+	return telescopesFor(user).map((t) => ({ id: t.id, name: t.name, teamName: t.teamName, filters: t.filters }));
 }
 
 export const load: PageServerLoad = ({ params, locals }) => {
@@ -47,9 +41,7 @@ export const actions: Actions = {
 			const r = report({ user }, raw as ObservationInput, 'form');
 			return { reported: { id: r.observation.id, completedClaims: r.completedClaimIds.length } };
 		} catch (e) {
-			if (e instanceof z.ZodError) return failWith(form, fieldErrors(e));
-			if (e instanceof ObservationError) return failWith(form, e.fields, e.status >= 400 && e.status < 500 ? e.status : 400, e.message);
-			throw e;
+			return failFromError(form, e);
 		}
 	},
 	upload: async ({ request, params }) => {
@@ -59,7 +51,7 @@ export const actions: Actions = {
 		const file = form.get('file');
 		if (!telescopeId) return failWith(form, { telescopeId: 'Choose a telescope.' });
 		if (!(file instanceof File) || file.size === 0) return failWith(form, { file: 'Choose a CSV file of pointings.' });
-		if (file.size > MAX_CSV_BYTES) return failWith(form, { file: `The file is larger than ${MAX_CSV_BYTES / 1e6} MB.` });
+		if (file.size > FORM_OBSERVATION_CSV_MAX_BYTES) return failWith(form, { file: `The file is larger than ${FORM_OBSERVATION_CSV_MAX_BYTES / 1e6} MB.` });
 		// All or nothing, every problem with its CSV line so the file can be fixed in one pass.
 		const refuse = (csvErrors: { line: number; message: string }[]) =>
 			fail(400, { values: { telescopeId }, errors: { file: `${csvErrors.length} problem(s); nothing was stored.` } as Record<string, string>, message: undefined, csvErrors });
@@ -70,8 +62,7 @@ export const actions: Actions = {
 			if (out.errors.length) return refuse(out.errors);
 			return { uploaded: { count: out.results.length, completedClaims: out.results.reduce((n, r) => n + r.completedClaimIds.length, 0) } };
 		} catch (e) {
-			if (e instanceof ObservationError) return failWith(form, { file: e.message }, e.status >= 400 && e.status < 500 ? e.status : 400, e.message);
-			throw e;
+			return failFromError(form, e, { field: 'file' });
 		}
 	}
 };

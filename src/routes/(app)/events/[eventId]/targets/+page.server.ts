@@ -3,8 +3,9 @@ import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
 import { requirePermission, requireUser } from '$lib/server/people/guard';
 import * as claims from '$lib/server/coordination/claims';
-import { failWith, validateForm } from '$lib/server/platform/forms';
+import { failFromError, validateForm } from '$lib/server/platform/forms';
 import { parseTargetQuery, targetsPageData } from '$lib/server/targeting/filters';
+import { LAPSE_MINUTES_MAX, LAPSE_MINUTES_MIN } from '$lib/limits';
 
 export const load: PageServerLoad = ({ params, url, depends, locals }) => {
 	requirePermission('events.view');
@@ -21,45 +22,46 @@ const claimForm = z.object({
 });
 const claimIdForm = z.object({ claimId: z.string().trim().min(1) });
 const reassignForm = z.object({ claimId: z.string().trim().min(1, 'Which claim?'), telescopeId: z.string().trim().min(1, 'Choose the telescope to hand the claim to.') });
-const LAPSE_RANGE = 'Enter whole minutes from 5 to 1440 (24 h).';
+const LAPSE_RANGE = `Enter whole minutes from ${LAPSE_MINUTES_MIN} to ${LAPSE_MINUTES_MAX} (24 h).`;
 const lapseForm = z.object({
 	lapseMinutes: z
 		.string({ error: LAPSE_RANGE })
 		.trim()
 		.regex(/^\d+$/, LAPSE_RANGE)
 		.transform(Number)
-		.pipe(z.number().int().min(5, LAPSE_RANGE).max(1440, LAPSE_RANGE))
+		.pipe(z.number().int().min(LAPSE_MINUTES_MIN, LAPSE_RANGE).max(LAPSE_MINUTES_MAX, LAPSE_RANGE))
 });
 
 /** Claim errors become form failures with the server's wording, which names the holder. */
-function failClaim(e: unknown, target?: string) {
-	if (e instanceof claims.ClaimError) return fail(e.status, { message: e.message, target: target ?? null });
-	throw e;
+function failClaim(form: FormData, e: unknown, target?: string) {
+	return failFromError(form, e, { extra: { target: target ?? null } });
 }
 
 async function transitionAction(request: Request, act: (user: import('$lib/server/people/auth').SessionUser, claimId: string) => unknown) {
 	const user = requireUser('claims.create');
-	const parsed = claimIdForm.safeParse(Object.fromEntries(await request.formData()));
+	const form = await request.formData();
+	const parsed = claimIdForm.safeParse(Object.fromEntries(form));
 	if (!parsed.success) return fail(400, { message: 'Which claim?', target: null });
 	try {
 		act(user, parsed.data.claimId);
 		return { ok: true };
 	} catch (e) {
-		return failClaim(e);
+		return failClaim(form, e);
 	}
 }
 
 export const actions: Actions = {
 	claim: async ({ request, params }) => {
 		const user = requireUser('claims.create');
-		const parsed = claimForm.safeParse(Object.fromEntries(await request.formData()));
+		const form = await request.formData();
+		const parsed = claimForm.safeParse(Object.fromEntries(form));
 		if (!parsed.success) return fail(400, { message: parsed.error.issues[0]?.message ?? 'Invalid claim.', target: null });
 		const target = `${parsed.data.targetKind}:${parsed.data.targetId}`;
 		try {
 			claims.claim(user, { eventId: params.eventId, targetKind: parsed.data.targetKind, targetId: parsed.data.targetId, telescopeId: parsed.data.telescopeId });
 			return { ok: true, target };
 		} catch (e) {
-			return failClaim(e, target);
+			return failClaim(form, e, target);
 		}
 	},
 	start: ({ request }) => transitionAction(request, (u, id) => claims.start(u, id)),
@@ -67,13 +69,14 @@ export const actions: Actions = {
 	release: ({ request }) => transitionAction(request, (u, id) => claims.release(u, id)),
 	reassign: async ({ request }) => {
 		const user = requireUser('claims.manage');
-		const parsed = reassignForm.safeParse(Object.fromEntries(await request.formData()));
+		const form = await request.formData();
+		const parsed = reassignForm.safeParse(Object.fromEntries(form));
 		if (!parsed.success) return fail(400, { message: parsed.error.issues[0]?.message ?? 'Which claim, to which telescope?', target: null });
 		try {
 			claims.reassign(user, parsed.data.claimId, parsed.data.telescopeId);
 			return { ok: true, target: null };
 		} catch (e) {
-			return failClaim(e);
+			return failClaim(form, e);
 		}
 	},
 	lapse: async ({ request, params }) => {
@@ -83,8 +86,7 @@ export const actions: Actions = {
 		try {
 			claims.setLapseMinutes(user, params.eventId, v.data.lapseMinutes);
 		} catch (e) {
-			if (e instanceof claims.ClaimError) return failWith(v.form, { lapseMinutes: e.message }, e.status);
-			throw e;
+			return failFromError(v.form, e, { field: 'lapseMinutes' });
 		}
 		return { lapseSaved: v.data.lapseMinutes };
 	}

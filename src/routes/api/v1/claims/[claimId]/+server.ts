@@ -3,7 +3,8 @@ import { z } from 'zod';
 import { apiError, apiRoute, readJson } from '$lib/server/platform/api';
 import { requirePermission, requireUser } from '$lib/server/people/guard';
 import { can } from '$lib/server/people/permissions';
-import { ClaimError, complete, getClaim, reassign, release, start } from '$lib/server/coordination/claims';
+import { mayUseTeam } from '$lib/server/people/scope';
+import { complete, getClaim, reassign, release, start } from '$lib/server/coordination/claims';
 
 const change = z.discriminatedUnion('action', [
 	z.object({ action: z.literal('start') }),
@@ -29,20 +30,15 @@ export const PATCH = apiRoute(async ({ params, request }) => {
 	if (!existing) return apiError(404, 'not_found', `No claim ${id}.`);
 	const manages = can({ user }, 'claims.manage');
 	if (body.data.action === 'reassign' && !manages) return apiError(403, 'forbidden', 'Only a coordinator may reassign a claim.');
-	if (!manages && !user.teamIds.includes(existing.teamId)) return apiError(403, 'forbidden', 'Only the claiming team or a coordinator may change this claim.');
-	try {
-		const d = body.data;
-		const row =
-			d.action === 'start'
-				? start(user, id)
-				: d.action === 'complete'
-					? complete(user, id)
-					: d.action === 'release'
-						? release(user, id, d.reason ?? '')
-						: reassign(user, id, d.telescopeId);
-		return json({ claim: row });
-	} catch (e) {
-		if (e instanceof ClaimError) return apiError(e.status, e.code, e.message);
-		throw e;
-	}
+	if (!mayUseTeam(user, existing.teamId)) return apiError(403, 'forbidden', 'Only the claiming team or a coordinator may change this claim.');
+	const d = body.data;
+	const row =
+		d.action === 'start'
+			? start(user, id)
+			: d.action === 'complete'
+				? complete(user, id)
+				: d.action === 'release'
+					? release(user, id, d.reason ?? '')
+					: reassign(user, id, d.telescopeId);
+	return json({ claim: row });
 });

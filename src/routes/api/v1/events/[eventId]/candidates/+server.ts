@@ -1,9 +1,9 @@
 import { json } from '@sveltejs/kit';
 import { z } from 'zod';
 import { apiError, apiRoute, readJson, reporterOf } from '$lib/server/platform/api';
-import { eventExists } from '$lib/server/targeting/visibility-view';
+import { eventExists } from '$lib/server/alerts/events';
 import { requirePermission } from '$lib/server/people/guard';
-import { CandidateError, listCandidates, reportCandidate, type CandidateInput } from '$lib/server/candidates/candidates';
+import { listCandidates, reportCandidate, type CandidateInput } from '$lib/server/candidates/candidates';
 
 /** GET the event's candidates, newest report first: `{ candidates: [...] }`. */
 export const GET = apiRoute(({ params }) => {
@@ -23,12 +23,6 @@ export const POST = apiRoute(async ({ params, request }) => {
 	const principal = requirePermission('candidates.report');
 	const body = await readJson(request, z.record(z.string(), z.unknown()));
 	if (body.response) return body.response;
-	try {
-		const out = reportCandidate(reporterOf(principal, request), { ...body.data, eventId: params.eventId ?? '' } as CandidateInput);
-		return json(out, { status: 201 });
-	} catch (e) {
-		if (e instanceof CandidateError)
-			return apiError(e.status, e.code, e.message, Object.keys(e.fields).length ? e.fields : undefined);
-		throw e;
-	}
+	const out = reportCandidate(reporterOf(principal, request), { ...body.data, eventId: params.eventId ?? '' } as CandidateInput);
+	return json(out, { status: 201 });
 });

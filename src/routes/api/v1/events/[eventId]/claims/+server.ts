@@ -1,14 +1,13 @@
 import { json } from '@sveltejs/kit';
-import { eq } from 'drizzle-orm';
 import { z } from 'zod';
 import { apiError, apiRoute, readJson } from '$lib/server/platform/api';
 import { requirePermission, requireUser } from '$lib/server/people/guard';
-import { db } from '$lib/server/platform/db';
-import * as table from '$lib/server/platform/db/schema';
-import { claim, ClaimError, listClaims } from '$lib/server/coordination/claims';
+import { CLAIM_TARGET_KINDS } from '$lib/server/platform/db/schema';
+import { eventExists } from '$lib/server/alerts/events';
+import { claim, listClaims } from '$lib/server/coordination/claims';
 
 const claimBody = z.object({
-	targetKind: z.enum(table.CLAIM_TARGET_KINDS),
+	targetKind: z.enum(CLAIM_TARGET_KINDS),
 	targetId: z.string().trim().min(1).max(80),
 	filter: z.string().max(20).optional(),
 	epoch: z.number().int().min(1).max(100).optional(),
@@ -20,7 +19,7 @@ const claimBody = z.object({
 export const GET = apiRoute(({ params, url }) => {
 	requirePermission('events.view');
 	const eventId = params.eventId ?? '';
-	if (!db.select({ id: table.gwEvent.id }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get()) return apiError(404, 'not_found', `No event ${eventId}.`);
+	if (!eventExists(eventId)) return apiError(404, 'not_found', `No event ${eventId}.`);
 	return json({ claims: listClaims(eventId, { openOnly: url.searchParams.get('open') === '1' }) });
 });
 
@@ -29,11 +28,6 @@ export const POST = apiRoute(async ({ params, request }) => {
 	const user = requireUser('claims.create');
 	const body = await readJson(request, claimBody);
 	if (body.response) return body.response;
-	try {
-		const row = claim(user, { eventId: params.eventId ?? '', ...body.data });
-		return json({ claim: row }, { status: 201 });
-	} catch (e) {
-		if (e instanceof ClaimError) return apiError(e.status, e.code, e.message);
-		throw e;
-	}
+	const row = claim(user, { eventId: params.eventId ?? '', ...body.data });
+	return json({ claim: row }, { status: 201 });
 });

@@ -1,0 +1,26 @@
+/**
+ * The limits the product applies, in one place: the server enforces them and pages that state
+ * them to people import them from here. Pure: no I/O, no server imports.
+ */
+
+/** A claim not started within this many minutes lapses; coordinators choose a value in this range (24 h at most). */
+export const LAPSE_MINUTES_MIN = 5;
+export const LAPSE_MINUTES_MAX = 1440;
+
+/** Rows per page in the event's ranked galaxy and field tables. */
+export const TARGETS_PAGE_SIZE = 25;
+
+/** Ranked galaxies the API returns when `limit` is not given. */
+export const API_GALAXIES_DEFAULT_LIMIT = 100;
+
+/** Largest JSON body the API reads. */
+export const API_JSON_MAX_BYTES = 256 * 1024;
+
+/** Largest CSV of pointings a program may POST to the API. */
+export const API_OBSERVATION_CSV_MAX_BYTES = 1024 * 1024;
+
+/** Largest CSV of pointings the report page takes (stated in MB on the page). */
+export const FORM_OBSERVATION_CSV_MAX_BYTES = 2_000_000;
+
+/** Largest galaxy catalogue upload, bytes; the file is streamed, never held whole (server.js sets the node server's own body limit). */
+export const CATALOG_MAX_BYTES = 200 * 1024 * 1024;

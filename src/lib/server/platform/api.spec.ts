@@ -1,0 +1,42 @@
+import { error, type RequestEvent } from '@sveltejs/kit';
+import { describe, expect, it } from 'vitest';
+import { apiErrorFrom, apiRoute } from './api';
+import { DomainError, InputError } from './errors';
+
+describe('the API answer to a refusal', () => {
+	it('gives status, code and message, and the per-field messages as details', async () => {
+		const r = apiErrorFrom(new DomainError(422, 'invalid', 'filter: not one of the telescope’s', { filter: 'not one of the telescope’s' }));
+		expect(r.status).toBe(422);
+		expect(await r.json()).toEqual({ error: { code: 'invalid', message: 'filter: not one of the telescope’s', details: { filter: 'not one of the telescope’s' } } });
+	});
+	it('leaves details out when no field is named', async () => {
+		const r = apiErrorFrom(new DomainError(409, 'taken', 'Already taken by North Ridge.'));
+		expect(r.status).toBe(409);
+		expect(await r.json()).toEqual({ error: { code: 'taken', message: 'Already taken by North Ridge.' } });
+	});
+	it('answers a refusal of one field with that field', async () => {
+		const r = apiErrorFrom(new InputError('Give the catalogue a name.', 'name'));
+		expect(r.status).toBe(400);
+		expect(await r.json()).toEqual({ error: { code: 'invalid', message: 'Give the catalogue a name.', details: { name: 'Give the catalogue a name.' } } });
+	});
+	it('rethrows anything that is not a refusal', () => {
+		const bug = new TypeError('x is undefined');
+		expect(() => apiErrorFrom(bug)).toThrow(bug);
+	});
+	it('is what apiRoute answers with, beside error(...)', async () => {
+		const event = {} as RequestEvent;
+		const refused = await apiRoute(() => {
+			throw new DomainError(403, 'forbidden', 'Not your team’s telescope.');
+		})(event);
+		expect(refused.status).toBe(403);
+		expect(await refused.json()).toEqual({ error: { code: 'forbidden', message: 'Not your team’s telescope.' } });
+		const missing = await apiRoute(() => error(404, 'No event X.'))(event);
+		expect(missing.status).toBe(404);
+		expect(await missing.json()).toEqual({ error: { code: 'not_found', message: 'No event X.' } });
+		await expect(
+			apiRoute(() => {
+				throw new RangeError('bug');
+			})(event)
+		).rejects.toThrow('bug');
+	});
+});
