@@ -288,6 +288,10 @@ export async function changePassword(userId: string, current: string, next: stri
 	invalidateUserSessions(userId, keepSessionId);
 }
 
+export function rolesOf(userId: string): Role[] {
+	return db.select({ role: table.userRole.role }).from(table.userRole).where(eq(table.userRole.userId, userId)).all().map((r) => r.role);
+}
+
 export function setRoles(actor: Actor, userId: string, roles: Role[]) {
 	if (actor.userId === userId && !roles.includes('admin'))
 		throw new PeopleError('You cannot remove your own administrator role.', 'roles');
