@@ -24,7 +24,7 @@ describe('permissions table', () => {
 			'teams.manage': ['admin', 'coordinator'],
 			'telescopes.manage': ['admin', 'coordinator'],
 			'tokens.manage': ['admin'],
-			'mailbox.view': ['admin', 'coordinator'],
+			'mailbox.view': ['admin'],
 			'notices.submit': ['admin', 'coordinator', 'duty'],
 			'events.acknowledge': ['duty', 'coordinator'],
 			'triage.manage': ['admin', 'coordinator'],

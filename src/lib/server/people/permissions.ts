@@ -21,7 +21,8 @@ export const PERMISSIONS = {
 	'teams.manage': { roles: ['admin', 'coordinator'] },
 	'telescopes.manage': { roles: ['admin', 'coordinator'] },
 	'tokens.manage': { roles: ['admin'] },
-	'mailbox.view': { roles: ['admin', 'coordinator'] },
+	// The development mailbox holds every message the app sent, reset links included: administrators only.
+	'mailbox.view': { roles: ['admin'] },
 	'notices.submit': { roles: ['admin', 'coordinator', 'duty'] },
 	'events.acknowledge': { roles: ['duty', 'coordinator'] },
 	'triage.manage': { roles: ['admin', 'coordinator'] },
