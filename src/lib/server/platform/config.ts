@@ -9,7 +9,14 @@ export interface Config {
 	publicUrl: string;
 	invitationLifetimeMs: number;
 	resetLifetimeMs: number;
-	signInLimit: { attempts: number; windowMs: number };
+	/**
+	 * Failed sign-ins: `attempts` per client address within `windowMs` (then that client waits);
+	 * per account, after `accountFreeFailures` failures each further try waits twice as long as the
+	 * last (1 s, 2 s, 4 s, …) up to `accountMaxDelayMs`, so strangers cannot lock the owner out.
+	 */
+	signInLimit: { attempts: number; windowMs: number; accountFreeFailures: number; accountMaxDelayMs: number };
+	/** Password-reset requests within `windowMs`: per address asked for (known or not) and per client. */
+	resetLimit: { perAddress: number; perClient: number; windowMs: number };
 	alerts: AlertsConfig;
 }
 
@@ -67,7 +74,17 @@ export function loadConfig(): Config {
 		publicUrl: (process.env.ORIGIN || process.env.PUBLIC_URL || 'http://localhost:3000').replace(/\/$/, ''),
 		invitationLifetimeMs: int('INVITATION_LIFETIME_HOURS', 72) * 3600_000,
 		resetLifetimeMs: int('RESET_LIFETIME_MINUTES', 60) * 60_000,
-		signInLimit: { attempts: int('SIGN_IN_ATTEMPTS', 8), windowMs: int('SIGN_IN_WINDOW_MINUTES', 15) * 60_000 },
+		signInLimit: {
+			attempts: int('SIGN_IN_ATTEMPTS', 8),
+			windowMs: int('SIGN_IN_WINDOW_MINUTES', 15) * 60_000,
+			accountFreeFailures: int('SIGN_IN_ACCOUNT_FREE_FAILURES', 5),
+			accountMaxDelayMs: int('SIGN_IN_ACCOUNT_MAX_DELAY_S', 300) * 1000
+		},
+		resetLimit: {
+			perAddress: int('RESET_REQUESTS_PER_ADDRESS', 3),
+			perClient: int('RESET_REQUESTS_PER_CLIENT', 10),
+			windowMs: int('RESET_WINDOW_MINUTES', 60) * 60_000
+		},
 		alerts: loadAlertsConfig()
 	};
 }
