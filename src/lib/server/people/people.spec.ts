@@ -167,4 +167,51 @@ describe('sign-in rate limit', () => {
 		const later = new Date(t0.getTime() + config.signInLimit.windowMs + 1000);
 		expect((await signIn('rl@example.test', 'right-password', '10.0.1.1', later)).ok).toBe(true);
 	});
+
+	it('eight wrong passwords from anywhere do not lock the owner out: a short wait, then the right password works', async () => {
+		const { signIn } = await import('./sign-in');
+		await people.createUser({ email: 'owner@example.test', name: 'Owner', password: 'right-password', roles: ['viewer'] });
+		const t0 = new Date('2026-04-03T00:00:00Z');
+		for (let i = 0; i < 8; i++) expect((await signIn('owner@example.test', 'wrong', `10.3.0.${i}`, t0)).ok).toBe(false);
+		const oneMinuteLater = new Date(t0.getTime() + 60_000);
+		expect(await signIn('owner@example.test', 'right-password', '10.3.1.1', oneMinuteLater)).toMatchObject({ ok: true });
+	});
+
+	it('limits a client with many failures, whichever accounts it tries, and not the others', async () => {
+		const { signIn } = await import('./sign-in');
+		await people.createUser({ email: 'c1@example.test', name: 'C1', password: 'right-password', roles: ['viewer'] });
+		await people.createUser({ email: 'c2@example.test', name: 'C2', password: 'right-password', roles: ['viewer'] });
+		const t0 = new Date('2026-04-04T00:00:00Z');
+		for (let i = 0; i < config.signInLimit.attempts; i++) {
+			expect((await signIn(`someone${i}@example.test`, 'wrong', '10.4.0.1', new Date(t0.getTime() + i))).ok).toBe(false);
+		}
+		const limited = await signIn('c1@example.test', 'right-password', '10.4.0.1', new Date(t0.getTime() + 1000));
+		expect(limited).toMatchObject({ ok: false, reason: 'limited' });
+		expect(limited.ok === false && limited.retryAfterS).toBeGreaterThan(0);
+		expect(await signIn('c1@example.test', 'right-password', '10.4.0.2', new Date(t0.getTime() + 1000))).toMatchObject({ ok: true });
+		expect(await signIn('c2@example.test', 'right-password', '10.4.0.3', new Date(t0.getTime() + 1000))).toMatchObject({ ok: true });
+	});
+
+	it('makes each further failure on one account wait twice as long, and a success starts over', async () => {
+		const { signIn } = await import('./sign-in');
+		await people.createUser({ email: 'grow@example.test', name: 'Grow', password: 'right-password', roles: ['viewer'] });
+		const { accountFreeFailures } = config.signInLimit;
+		let t = new Date('2026-04-05T00:00:00Z').getTime();
+		let ip = 0;
+		for (let i = 0; i < accountFreeFailures; i++) expect(await signIn('grow@example.test', 'wrong', `10.5.0.${ip++}`, new Date(t))).toMatchObject({ reason: 'invalid' });
+		const waits: number[] = [];
+		for (let i = 0; i < 4; i++) {
+			const refused = await signIn('grow@example.test', 'right-password', `10.5.0.${ip++}`, new Date(t));
+			expect(refused).toMatchObject({ ok: false, reason: 'limited' });
+			const wait = refused.ok ? 0 : refused.retryAfterS!;
+			waits.push(wait);
+			t += wait * 1000;
+			expect(await signIn('grow@example.test', 'wrong', `10.5.0.${ip++}`, new Date(t))).toMatchObject({ reason: 'invalid' });
+		}
+		expect(waits).toEqual([1, 2, 4, 8]);
+		t += 16_000;
+		expect(await signIn('grow@example.test', 'right-password', `10.5.0.${ip++}`, new Date(t))).toMatchObject({ ok: true });
+		expect(await signIn('grow@example.test', 'wrong', `10.5.0.${ip++}`, new Date(t))).toMatchObject({ reason: 'invalid' });
+		expect(await signIn('grow@example.test', 'wrong', `10.5.0.${ip++}`, new Date(t))).toMatchObject({ reason: 'invalid' });
+	});
 });
