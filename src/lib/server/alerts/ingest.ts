@@ -13,7 +13,7 @@ import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { randomId } from '../people/auth';
 import { record, SYSTEM, type Actor } from '../platform/realtime';
-import { fetchSkymap, SkymapFetchError, type SkymapFetchOptions } from './skymap-fetch';
+import { fetchSkymap, SkymapFetchError, skymapReadError, skymapReadOptions, type SkymapFetchOptions } from './skymap-fetch';
 import { readStoredFile, saveSkymapFile } from '../platform/storage';
 import { policyInput, factsOf } from './triage-policy';
 import { parseVoevent, sniffIvorn, type Notice as ParsedNotice } from '../../alerts/voevent.ts';
@@ -355,9 +355,9 @@ async function attachSkymap(
 function analysedColumns(eventId: string, noticeId: string, bytes: Buffer): Partial<typeof table.skymap.$inferInsert> {
 	let analysed: ReturnType<typeof analyseSkymap>;
 	try {
-		analysed = analyseSkymap(new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength));
+		analysed = analyseSkymap(new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength), skymapReadOptions());
 	} catch (e) {
-		return { error: `the sky map could not be analysed: ${(e as Error).message}`, retryAt: null };
+		return { error: `the sky map could not be analysed: ${skymapReadError(e)}`, retryAt: null };
 	}
 	const { map, ...summary } = analysed;
 	const display = skyRaster(map, { width: 360, height: 180 }) as unknown as Record<string, unknown>;

@@ -29,6 +29,12 @@ export interface AlertsConfig {
 	/** Hosts sky maps may be fetched from (exact names, or ".domain" for any sub-domain). */
 	skymapHosts: string[];
 	skymapMaxBytes: number;
+	/**
+	 * Largest size a gzip sky map may unpack to. The largest real maps are flat nside-1024 maps with
+	 * distance layers, about 200 MB (12.6 M pixels × 4 float64 columns); multi-order maps are a few MB.
+	 * 256 MiB keeps those and refuses a small file that would inflate to gigabytes of memory.
+	 */
+	skymapMaxInflatedBytes: number;
 	skymapTimeoutMs: number;
 	/** Folder for stored files (sky maps under `skymaps/`, uploads under `uploads/`). */
 	storageDir: string;
@@ -51,6 +57,7 @@ export function loadAlertsConfig(): AlertsConfig {
 		vtpArchiveUrl: process.env.VTP_ARCHIVE_URL?.trim() || null,
 		skymapHosts: list('SKYMAP_HOSTS', ['127.0.0.1', 'localhost']),
 		skymapMaxBytes: int('SKYMAP_MAX_MB', 64) * 1024 * 1024,
+		skymapMaxInflatedBytes: int('SKYMAP_MAX_INFLATED_MB', 256) * 1024 * 1024,
 		skymapTimeoutMs: int('SKYMAP_TIMEOUT_S', 20) * 1000,
 		storageDir: process.env.STORAGE_DIR?.trim() || 'data',
 		retryIntervalMs: int('ALERTS_RETRY_S', 30) * 1000
