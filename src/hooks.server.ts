@@ -54,6 +54,12 @@ const handleHeaders: Handle = async ({ event, resolve }) => {
 	response.headers.set('X-Content-Type-Options', 'nosniff');
 	response.headers.set('Referrer-Policy', 'same-origin');
 	response.headers.set('X-Frame-Options', 'DENY');
+	// No page here needs a camera, microphone, location, sensors, payment or USB: deny them to the
+	// page and anything it could embed.
+	response.headers.set(
+		'Permissions-Policy',
+		'accelerometer=(), camera=(), geolocation=(), gyroscope=(), magnetometer=(), microphone=(), payment=(), usb=()'
+	);
 	return response;
 };
 

@@ -26,3 +26,17 @@ export function splitCsvLine(line: string): string[] | null {
 	out.push(cur.trim());
 	return out;
 }
+
+const FORMULA_START = /^[=+\-@\t\r]/;
+const PLAIN_NUMBER = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/;
+
+/**
+ * A free-text cell for a CSV that people may open in a spreadsheet: text starting with `=`, `+`,
+ * `-`, `@`, tab or CR would be run as a formula there (CSV injection), so it gets a leading `'`,
+ * which spreadsheets read as "this is text" (common practice, OWASP "CSV Injection"). A plain
+ * number such as -23.4 is left as it is, so it stays a number. Apply to text that came from people
+ * (names, ids, filters), not to numbers and positions our own formatting writes.
+ */
+export function spreadsheetText(value: string): string {
+	return FORMULA_START.test(value) && !PLAIN_NUMBER.test(value) ? `'${value}` : value;
+}

@@ -19,3 +19,16 @@ export const ROLE_PURPOSE: Record<RoleName, string> = {
 	spectroscopist: 'Classifies transient candidates',
 	viewer: 'Sees everything, changes nothing'
 };
+
+/**
+ * How far a role reaches when handing roles to others: nobody grants a role ranked above their
+ * own highest. Administrator alone is at the top; duty, observer and spectroscopist are peers.
+ */
+export const ROLE_RANK: Record<RoleName, number> = {
+	admin: 3,
+	coordinator: 2,
+	duty: 1,
+	observer: 1,
+	spectroscopist: 1,
+	viewer: 0
+};

@@ -25,6 +25,14 @@ export class FitsError extends Error {
 	}
 }
 
+/** Gzip input that would inflate past the caller's cap (a compression bomb, or a map too large to hold). */
+export class FitsInflateLimitError extends FitsError {
+	constructor(readonly limitBytes: number) {
+		super(`gzip data inflates past the limit of ${Math.round(limitBytes / 1048576)} MiB (${limitBytes} bytes); refused`);
+		this.name = 'FitsInflateLimitError';
+	}
+}
+
 export type HeaderValue = string | number | boolean | bigint | null;
 
 export interface FitsHeader {
@@ -101,7 +109,7 @@ export function gunzipCapped(bytes: Uint8Array, maxBytes = DEFAULT_MAX_DECOMPRES
 	} catch (e) {
 		const err = e as NodeJS.ErrnoException;
 		if (err.code === 'ERR_BUFFER_TOO_LARGE' || err instanceof RangeError) {
-			throw new FitsError(`gzip data inflates past the limit of ${maxBytes} bytes; refused`);
+			throw new FitsInflateLimitError(maxBytes);
 		}
 		throw new FitsError(`gzip data is corrupt: ${err.message}`);
 	}

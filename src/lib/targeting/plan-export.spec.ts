@@ -189,6 +189,26 @@ describe('observing list export', () => {
 		expect(doc.observations.map((o) => `${o.targetId}:${o.filter}`).sort()).toEqual(['gal-1:r', 'gal-2:g', 'gal-2:r', 'gal-3:r']);
 	});
 
+	it('CSV: text a spreadsheet would run is prefixed with a quote; numbers, positions and the JSON stay as they are', () => {
+		expect.hasAssertions();
+		const hostile: PlanTarget[] = [
+			{ id: '=cmd|calc', kind: 'galaxy', name: '=HYPERLINK("http://x.test","click")', raDeg: 150.25, decDeg: -30.5, probability: 0.31 },
+			{ id: 'gal-n', kind: 'galaxy', name: '-23.4', raDeg: 160.5, decDeg: -45.25, probability: 0.22 },
+			{ id: 'gal-at', kind: 'galaxy', name: '@SUM(A1)', raDeg: 140, decDeg: -10, probability: 0.05 }
+		];
+		const plan = planNetwork({ targets: hostile, telescopes: [scope], start: new Date('2022-03-20T16:00:00Z') });
+		const rows = readCsv(observingListCsv(plan, 'S1')).slice(1);
+		const col = (name: (typeof OBSERVING_LIST_COLUMNS)[number]) => OBSERVING_LIST_COLUMNS.indexOf(name);
+		const byId = new Map(rows.map((r) => [r[col('target_id')], r]));
+		expect(byId.get("'=cmd|calc")?.[col('name')]).toBe('\'=HYPERLINK("http://x.test","click")');
+		expect(byId.get('gal-n')?.[col('name')]).toBe('-23.4');
+		expect(byId.get('gal-at')?.[col('name')]).toBe("'@SUM(A1)");
+		expect(byId.get('gal-n')?.[col('dec_dms')]).toBe('-45:15:00.0');
+		expect(byId.get('gal-n')?.[col('dec_deg')]).toBe('-45.250000');
+		const doc = JSON.parse(observingListJson(plan, 'S1')) as ObservingListDocument;
+		expect(doc.observations.map((o) => o.name).sort()).toEqual(['-23.4', '=HYPERLINK("http://x.test","click")', '@SUM(A1)']);
+	});
+
 	it('an unknown telescope is an error, not an empty list', () => {
 		expect.hasAssertions();
 		expect(() => observingListCsv(demoPlan(), 'nope')).toThrow(/not in this plan/);

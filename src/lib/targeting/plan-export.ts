@@ -5,6 +5,7 @@
  * Pure: plain data in, text out.
  */
 import type { NetworkPlan, PlanAssignment, TelescopePlan } from './plan-types.ts';
+import { spreadsheetText } from '../csv.ts';
 
 export interface SexagesimalOptions {
 	/** Decimals of the last field (seconds of time for RA, arcseconds for Dec). */
@@ -152,14 +153,18 @@ function fixed(x: number, decimals: number): string {
 /**
  * CSV with a header line and CRLF line ends (RFC 4180). Positions to 1e-6° (< 0.004″),
  * airmass to 0.001, altitude and Moon distance to 0.01°, probabilities to 1e-8.
+ * Text that came from people (target id, name, filter) goes through `spreadsheetText`, so a name
+ * like `=HYPERLINK(…)` is written `'=HYPERLINK(…)` and a spreadsheet shows it instead of running
+ * it; numbers, sexagesimal positions (±DD:MM:SS) and times are our own formatting and stay as they
+ * are. The JSON export keeps every value unchanged: programs read it, not spreadsheets.
  */
 export function observingListCsv(plan: NetworkPlan, telescopeId: string): string {
 	const lines = [OBSERVING_LIST_COLUMNS.join(',')];
 	for (const r of observingListRows(plan, telescopeId)) {
 		const fields = [
 			String(r.order),
-			r.targetId,
-			r.name ?? '',
+			spreadsheetText(r.targetId),
+			spreadsheetText(r.name ?? ''),
 			r.kind,
 			fixed(r.raDeg, 6),
 			fixed(r.decDeg, 6),
@@ -168,7 +173,7 @@ export function observingListCsv(plan: NetworkPlan, telescopeId: string): string
 			r.startUtc,
 			r.endUtc,
 			String(r.exposureS),
-			r.filter ?? '',
+			spreadsheetText(r.filter ?? ''),
 			r.epoch === null ? '' : String(r.epoch),
 			fixed(r.airmassStart, 3),
 			fixed(r.altitudeStartDeg, 2),

@@ -9,9 +9,14 @@ import { BASE_URL } from '../../../playwright.config';
  * Every role against every mutating form action. An empty form is sent: a role that may act
  * gets past the permission check and is stopped by validation (400); a role that may not gets 403;
  * nobody signed in is sent to sign in (303 to /sign-in) without the action running. `ok` marks actions that need no input (they succeed: 200).
+ * A row with `form` sends that form instead: it passes validation, and a role allowed to act is
+ * stopped later (400) without anything changing.
  */
-const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean }[] = [
+const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean; form?: Record<string, string> }[] = [
 	{ path: '/admin?/invite', allowed: ['admin', 'coordinator'] },
+	// Only an administrator may make an administrator: a coordinator is refused before anything is sent;
+	// the admin gets as far as "this address already has an account".
+	{ path: '/admin?/invite', allowed: ['admin'], form: { email: 'viewer@strainline.demo', roles: 'admin' } },
 	{ path: '/admin?/withdraw', allowed: ['admin', 'coordinator'] },
 	{ path: '/admin?/roles', allowed: ['admin'] },
 	{ path: '/admin?/disable', allowed: ['admin'] },
@@ -85,12 +90,13 @@ for (const role of [...ROLES_LIST, null] as const) {
 		const seen: string[] = [];
 		const wanted: string[] = [];
 		for (const row of MATRIX) {
-			const res = await ctx.post(row.path.replace('{telescopeId}', telescopeId).replace('{eventId}', eventId), { form: {}, maxRedirects: 0 });
+			const res = await ctx.post(row.path.replace('{telescopeId}', telescopeId).replace('{eventId}', eventId), { form: row.form ?? {}, maxRedirects: 0 });
 			const allowed = role !== null && (row.allowed === 'all' || row.allowed.includes(role));
 			const expected = role === null ? '303 /sign-in' : !allowed ? 403 : row.ok ? 200 : 400;
 			const location = res.headers()['location']?.split('?')[0];
-			seen.push(`${row.path} ${res.status()}${location ? ' ' + location : ''}`);
-			wanted.push(`${row.path} ${expected}`);
+			const label = row.form ? `${row.path} ${JSON.stringify(row.form)}` : row.path;
+			seen.push(`${label} ${res.status()}${location ? ' ' + location : ''}`);
+			wanted.push(`${label} ${expected}`);
 		}
 		expect(seen).toEqual(wanted);
 		await ctx.dispose();

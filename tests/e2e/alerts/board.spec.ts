@@ -42,18 +42,18 @@ test('the duty scientist follows a neutron-star merger live: paged, acknowledges
 	const preliminary = await numbers(bns);
 	await page.screenshot({ path: `${SCREENS}/board-1-preliminary.png`, fullPage: true });
 
-	// The page e-mail reached the fake SMTP server: the coordinator's mailbox shows it.
-	const coordinatorContext = await browser.newContext();
-	const coordinatorPage = await coordinatorContext.newPage();
-	await signInAs(coordinatorPage, 'coordinator');
-	await coordinatorPage.goto('/mailbox');
-	const mail = coordinatorPage.getByTestId('mail').filter({ hasText: `to ${duty.email}` }).filter({ hasText: BNS });
+	// The page e-mail reached the fake SMTP server: the development mailbox (administrators only) shows it.
+	const adminContext = await browser.newContext();
+	const adminPage = await adminContext.newPage();
+	await signInAs(adminPage, 'admin');
+	await adminPage.goto('/mailbox');
+	const mail = adminPage.getByTestId('mail').filter({ hasText: `to ${duty.email}` }).filter({ hasText: BNS });
 	await expect(mail.first()).toBeVisible();
 	await expect(mail.first()).toContainText(`${BNS} preliminary · FAR 0.08 per yr`);
 	await expect(mail.first()).toContainText(`BNS 93% NSBH 4% · 90% ${preliminary.area90} · ${preliminary.distance}`);
 	await expect(mail.first()).toContainText('/events/');
-	await coordinatorPage.screenshot({ path: `${SCREENS}/board-2-mailbox.png`, fullPage: true });
-	await coordinatorContext.close();
+	await adminPage.screenshot({ path: `${SCREENS}/board-2-mailbox.png`, fullPage: true });
+	await adminContext.close();
 
 	// Initial notice: the sharper map replaces the broad one.
 	await publishStep('bns', 1);

@@ -14,6 +14,8 @@ import { updatePolicy, DEFAULT_TRIAGE_POLICY } from './triage-policy';
 import { commitNotice, eventIdFor, processInbox, retryPending, retrySkymaps } from './ingest';
 import { submitNotice } from './service';
 import type { DB } from '../platform/db';
+import { config, loadAlertsConfig } from '../platform/config';
+import { gunzipSync } from 'node:zlib';
 
 const dir = fileURLToPath(new URL('../../../../tests/fixtures/notices/', import.meta.url));
 const raw = (name: string) => readFileSync(dir + name, 'utf8');
@@ -385,5 +387,24 @@ describe('triage policy', () => {
 		// New notices are judged by the new policy too.
 		await ingest(notice('bns-update.xml'));
 		expect(database.select().from(table.gwEvent).get()!.triage!.verdict).toBe('skip');
+	});
+});
+
+describe('ingest: sky maps that unpack too large', () => {
+	it('refuses a map that inflates past the server limit (256 MiB unless SKYMAP_MAX_INFLATED_MB says otherwise), with the reason', async () => {
+		expect.hasAssertions();
+		expect(loadAlertsConfig().skymapMaxInflatedBytes).toBe(256 * 1024 * 1024);
+		const inflated = gunzipSync(readFileSync(dir + 'skymap-demo.multiorder.fits.gz')).length;
+		const saved = config.alerts.skymapMaxInflatedBytes;
+		config.alerts.skymapMaxInflatedBytes = inflated - 2880;
+		try {
+			const r = await ingest(notice('bns-initial.xml'));
+			expect(r.outcome).toBe('event-created');
+			const row = database.select().from(table.skymap).get()!;
+			expect(row.summary).toBeNull();
+			expect(row.error).toMatch(/unpacks to more than .* MiB.*SKYMAP_MAX_INFLATED_MB/);
+		} finally {
+			config.alerts.skymapMaxInflatedBytes = saved;
+		}
 	});
 });

@@ -13,7 +13,7 @@ import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { randomId } from '../people/auth';
 import { record, SYSTEM, type Actor } from '../platform/realtime';
-import { fetchSkymap, SkymapFetchError, type SkymapFetchOptions } from './skymap-fetch';
+import { fetchSkymap, SkymapFetchError, skymapReadError, skymapReadOptions, type SkymapFetchOptions } from './skymap-fetch';
 import { keepSkyMap } from './skymap-cache';
 import { readStoredFile, saveSkymapFile } from '../platform/storage';
 import { policyInput, factsOf } from './triage-policy';
@@ -364,9 +364,9 @@ type Analysis =
 function analyse(eventId: string, noticeId: string, bytes: Buffer): Analysis {
 	let analysed: ReturnType<typeof analyseSkymap>;
 	try {
-		analysed = analyseSkymap(new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength));
+		analysed = analyseSkymap(new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength), skymapReadOptions());
 	} catch (e) {
-		const error = `the sky map could not be analysed: ${(e as Error).message}`;
+		const error = `the sky map could not be analysed: ${skymapReadError(e)}`;
 		return { map: null, error, columns: { error, retryAt: null } };
 	}
 	const { map, ...summary } = analysed;

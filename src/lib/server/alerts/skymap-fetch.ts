@@ -11,6 +11,21 @@ import https from 'node:https';
 import net from 'node:net';
 import { config } from '../platform/config';
 import { DomainError } from '../platform/errors';
+import { FitsInflateLimitError, type ReadSkyMapOptions } from '../../sky/index.ts';
+
+/** Options for every read of a newly fetched or uploaded sky map: the server's inflated-size cap. */
+export function skymapReadOptions(options: ReadSkyMapOptions = {}): ReadSkyMapOptions {
+	return { ...options, maxDecompressedBytes: config.alerts.skymapMaxInflatedBytes };
+}
+
+/** Why a sky map could not be read, in words for the event page and the upload form. */
+export function skymapReadError(e: unknown): string {
+	if (e instanceof FitsInflateLimitError) {
+		const mib = Math.round(e.limitBytes / 1048576);
+		return `it unpacks to more than ${mib} MiB, the server's limit for a sky map (SKYMAP_MAX_INFLATED_MB; real maps are at most about 200 MB); refused`;
+	}
+	return e instanceof Error ? e.message : String(e);
+}
 
 export type SkymapFetchErrorCode =
 	| 'bad_url'

@@ -100,6 +100,60 @@ describe('password reset', () => {
 	});
 });
 
+describe('password reset links and limits', () => {
+	it("using one reset link voids the person's other open links", async () => {
+		await people.createUser({ email: 'two@example.test', name: 'Two', password: 'old-password-1', roles: ['viewer'] });
+		await people.requestPasswordReset('two@example.test');
+		const first = await linkSentTo('two@example.test', 'reset');
+		await people.requestPasswordReset('two@example.test');
+		let second = first;
+		for (let i = 0; i < 50 && second === first; i++) {
+			second = await linkSentTo('two@example.test', 'reset');
+			if (second === first) await new Promise((r) => setTimeout(r, 20));
+		}
+		expect(second).not.toBe(first);
+		expect(people.findOpenReset(first)).not.toBeNull();
+		await people.resetPassword(second, 'new-password-2');
+		expect(people.findOpenReset(first)).toBeNull();
+		await expect(people.resetPassword(first, 'third-password-3')).rejects.toThrow(/no longer valid/);
+	});
+
+	it('changing the password voids open reset links', async () => {
+		const userId = await people.createUser({ email: 'chg@example.test', name: 'Chg', password: 'old-password-1', roles: ['viewer'] });
+		await people.requestPasswordReset('chg@example.test');
+		const token = await linkSentTo('chg@example.test', 'reset');
+		const session = auth.generateSessionToken();
+		const { id: sessionId } = auth.createSession(session, userId);
+		await people.changePassword(userId, 'old-password-1', 'new-password-2', sessionId);
+		expect(people.findOpenReset(token)).toBeNull();
+	});
+
+	it('answers before any mail is sent, known address or not (the mail goes out afterwards)', async () => {
+		await people.createUser({ email: 'quick@example.test', name: 'Q', password: 'old-password-1', roles: ['viewer'] });
+		const before = receivedMail().length;
+		await people.requestPasswordReset('quick@example.test');
+		expect(receivedMail().length).toBe(before);
+		await people.requestPasswordReset('nobody-here@example.test');
+		expect(receivedMail().length).toBe(before);
+		expect(await linkSentTo('quick@example.test', 'reset')).toMatch(/^[a-z0-9]+$/);
+	});
+
+	it('limits requests per address (known or not) and per client', async () => {
+		const { perAddress, perClient, windowMs } = config.resetLimit;
+		const t0 = new Date('2026-04-02T00:00:00Z');
+		for (let i = 0; i < perAddress; i++) expect(await people.requestPasswordReset('nobody@example.test', t0, `10.1.0.${i}`)).toEqual({ ok: true });
+		expect(await people.requestPasswordReset('Nobody@example.test', t0, '10.1.9.9')).toMatchObject({ ok: false, reason: 'address' });
+		const later = new Date(t0.getTime() + windowMs + 1000);
+		expect(await people.requestPasswordReset('nobody@example.test', later, '10.1.9.9')).toEqual({ ok: true });
+
+		for (let i = 0; i < perClient; i++) expect(await people.requestPasswordReset(`n${i}@example.test`, t0, '10.2.0.1')).toEqual({ ok: true });
+		const limited = await people.requestPasswordReset('fresh@example.test', t0, '10.2.0.1');
+		expect(limited).toMatchObject({ ok: false, reason: 'client' });
+		expect(limited.ok === false && limited.retryAfterS).toBeGreaterThan(0);
+		expect(await people.requestPasswordReset('fresh@example.test', t0, '10.2.0.2')).toEqual({ ok: true });
+	});
+});
+
 describe('sign-in rate limit', () => {
 	it('locks an address after too many failures within the window', async () => {
 		const { signIn } = await import('./sign-in');
@@ -112,5 +166,52 @@ describe('sign-in rate limit', () => {
 		expect(locked).toMatchObject({ ok: false, reason: 'limited' });
 		const later = new Date(t0.getTime() + config.signInLimit.windowMs + 1000);
 		expect((await signIn('rl@example.test', 'right-password', '10.0.1.1', later)).ok).toBe(true);
+	});
+
+	it('eight wrong passwords from anywhere do not lock the owner out: a short wait, then the right password works', async () => {
+		const { signIn } = await import('./sign-in');
+		await people.createUser({ email: 'owner@example.test', name: 'Owner', password: 'right-password', roles: ['viewer'] });
+		const t0 = new Date('2026-04-03T00:00:00Z');
+		for (let i = 0; i < 8; i++) expect((await signIn('owner@example.test', 'wrong', `10.3.0.${i}`, t0)).ok).toBe(false);
+		const oneMinuteLater = new Date(t0.getTime() + 60_000);
+		expect(await signIn('owner@example.test', 'right-password', '10.3.1.1', oneMinuteLater)).toMatchObject({ ok: true });
+	});
+
+	it('limits a client with many failures, whichever accounts it tries, and not the others', async () => {
+		const { signIn } = await import('./sign-in');
+		await people.createUser({ email: 'c1@example.test', name: 'C1', password: 'right-password', roles: ['viewer'] });
+		await people.createUser({ email: 'c2@example.test', name: 'C2', password: 'right-password', roles: ['viewer'] });
+		const t0 = new Date('2026-04-04T00:00:00Z');
+		for (let i = 0; i < config.signInLimit.attempts; i++) {
+			expect((await signIn(`someone${i}@example.test`, 'wrong', '10.4.0.1', new Date(t0.getTime() + i))).ok).toBe(false);
+		}
+		const limited = await signIn('c1@example.test', 'right-password', '10.4.0.1', new Date(t0.getTime() + 1000));
+		expect(limited).toMatchObject({ ok: false, reason: 'limited' });
+		expect(limited.ok === false && limited.retryAfterS).toBeGreaterThan(0);
+		expect(await signIn('c1@example.test', 'right-password', '10.4.0.2', new Date(t0.getTime() + 1000))).toMatchObject({ ok: true });
+		expect(await signIn('c2@example.test', 'right-password', '10.4.0.3', new Date(t0.getTime() + 1000))).toMatchObject({ ok: true });
+	});
+
+	it('makes each further failure on one account wait twice as long, and a success starts over', async () => {
+		const { signIn } = await import('./sign-in');
+		await people.createUser({ email: 'grow@example.test', name: 'Grow', password: 'right-password', roles: ['viewer'] });
+		const { accountFreeFailures } = config.signInLimit;
+		let t = new Date('2026-04-05T00:00:00Z').getTime();
+		let ip = 0;
+		for (let i = 0; i < accountFreeFailures; i++) expect(await signIn('grow@example.test', 'wrong', `10.5.0.${ip++}`, new Date(t))).toMatchObject({ reason: 'invalid' });
+		const waits: number[] = [];
+		for (let i = 0; i < 4; i++) {
+			const refused = await signIn('grow@example.test', 'right-password', `10.5.0.${ip++}`, new Date(t));
+			expect(refused).toMatchObject({ ok: false, reason: 'limited' });
+			const wait = refused.ok ? 0 : refused.retryAfterS!;
+			waits.push(wait);
+			t += wait * 1000;
+			expect(await signIn('grow@example.test', 'wrong', `10.5.0.${ip++}`, new Date(t))).toMatchObject({ reason: 'invalid' });
+		}
+		expect(waits).toEqual([1, 2, 4, 8]);
+		t += 16_000;
+		expect(await signIn('grow@example.test', 'right-password', `10.5.0.${ip++}`, new Date(t))).toMatchObject({ ok: true });
+		expect(await signIn('grow@example.test', 'wrong', `10.5.0.${ip++}`, new Date(t))).toMatchObject({ reason: 'invalid' });
+		expect(await signIn('grow@example.test', 'wrong', `10.5.0.${ip++}`, new Date(t))).toMatchObject({ reason: 'invalid' });
 	});
 });

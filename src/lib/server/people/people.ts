@@ -7,6 +7,7 @@ import { hashPassword, hashToken, randomId, randomToken, invalidateUserSessions,
 import { sendMail } from '../platform/mail';
 import { record, type Actor } from '../platform/realtime';
 import { InputError } from '../platform/errors';
+import { attemptsSince, recordAttempt, secondsUntilWindowFrees } from './attempts';
 
 export class PeopleError extends InputError {}
 
@@ -196,13 +197,29 @@ export async function acceptInvitation(token: string, input: { name: string; pas
 	return { userId, email: accepted.email };
 }
 
+export type ResetRequestResult = { ok: true } | { ok: false; reason: 'address' | 'client'; retryAfterS: number };
+
 /**
- * Start a password reset. Always behaves the same whether or not the address is known, so the
- * page cannot be used to find out who has an account.
+ * Start a password reset. Behaves the same whether or not the address is known, so the page
+ * cannot be used to find out who has an account: the same limits count both, and the mail is
+ * sent after the answer (errors go to the log), so both answer in the same time.
+ * Limited per address asked for and, when `clientAddress` is given, per client (config.resetLimit).
  */
-export async function requestPasswordReset(email: string, now = new Date()): Promise<void> {
+export async function requestPasswordReset(email: string, now = new Date(), clientAddress: string | null = null): Promise<ResetRequestResult> {
+	const { perAddress, perClient, windowMs } = config.resetLimit;
+	const since = new Date(now.getTime() - windowMs);
+	const addressKey = `reset-email:${email.trim().toLowerCase()}`;
+	const clientKey = clientAddress ? `reset-ip:${clientAddress}` : null;
+	if (clientKey) {
+		const byClient = attemptsSince(clientKey, since);
+		if (byClient.count >= perClient) return { ok: false, reason: 'client', retryAfterS: secondsUntilWindowFrees(byClient.oldest, windowMs, now) };
+	}
+	const byAddress = attemptsSince(addressKey, since);
+	if (byAddress.count >= perAddress) return { ok: false, reason: 'address', retryAfterS: secondsUntilWindowFrees(byAddress.oldest, windowMs, now) };
+	recordAttempt(clientKey ? [addressKey, clientKey] : [addressKey], true, now);
+
 	const found = findUserByEmail(email);
-	if (!found || found.disabledAt) return;
+	if (!found || found.disabledAt) return { ok: true };
 	const token = randomToken(24);
 	db.insert(table.passwordReset)
 		.values({
@@ -213,7 +230,7 @@ export async function requestPasswordReset(email: string, now = new Date()): Pro
 		})
 		.run();
 	const minutes = Math.round(config.resetLifetimeMs / 60_000);
-	await sendMail({
+	const mail = {
 		to: found.email,
 		subject: 'Reset your Strainline password',
 		text: [
@@ -224,7 +241,19 @@ export async function requestPasswordReset(email: string, now = new Date()): Pro
 			'',
 			`The link works once and expires in ${minutes} minutes. If it was not you, ignore this message.`
 		].join('\n')
+	};
+	setImmediate(() => {
+		sendMail(mail).catch((e: unknown) => console.error(`[mail] the reset link for ${found.email} could not be sent:`, e));
 	});
+	return { ok: true };
+}
+
+/** Void every open reset link of a person (after a reset or a password change). */
+function voidOpenResets(tx: Pick<typeof db, 'update'>, userId: string, now: Date) {
+	tx.update(table.passwordReset)
+		.set({ usedAt: now })
+		.where(and(eq(table.passwordReset.userId, userId), isNull(table.passwordReset.usedAt)))
+		.run();
 }
 
 export function findOpenReset(token: string, now = new Date()) {
@@ -266,6 +295,7 @@ export async function resetPassword(token: string, password: string, now = new D
 			.run();
 		if (used.changes !== 1) return null;
 		tx.update(table.user).set({ passwordHash }).where(eq(table.user.id, reset.userId)).run();
+		voidOpenResets(tx, reset.userId, now);
 		return reset.userId;
 	});
 	if (!userId) throw new PeopleError('This reset link is no longer valid. Ask for a new one.', undefined, 410, 'gone');
@@ -278,8 +308,15 @@ export async function changePassword(userId: string, current: string, next: stri
 	if (!row || !(await verifyPassword(row.passwordHash, current)))
 		throw new PeopleError('The current password is not right.', 'currentPassword');
 	const passwordHash = await hashPassword(next);
-	db.update(table.user).set({ passwordHash }).where(eq(table.user.id, userId)).run();
+	db.transaction((tx) => {
+		tx.update(table.user).set({ passwordHash }).where(eq(table.user.id, userId)).run();
+		voidOpenResets(tx, userId, new Date());
+	});
 	invalidateUserSessions(userId, keepSessionId);
+}
+
+export function rolesOf(userId: string): Role[] {
+	return db.select({ role: table.userRole.role }).from(table.userRole).where(eq(table.userRole.userId, userId)).all().map((r) => r.role);
 }
 
 export function setRoles(actor: Actor, userId: string, roles: Role[]) {

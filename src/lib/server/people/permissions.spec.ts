@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { can, PERMISSIONS, type Permission } from './permissions';
+import { can, PERMISSIONS, rolesOutOfReach, type Permission } from './permissions';
 import { ROLES, type Role } from '../platform/db/schema';
 
 const person = (...roles: Role[]) => ({ user: { id: 'u', email: 'u@x.test', name: 'U', roles, teamIds: [] } });
@@ -24,7 +24,7 @@ describe('permissions table', () => {
 			'teams.manage': ['admin', 'coordinator'],
 			'telescopes.manage': ['admin', 'coordinator'],
 			'tokens.manage': ['admin'],
-			'mailbox.view': ['admin', 'coordinator'],
+			'mailbox.view': ['admin'],
 			'notices.submit': ['admin', 'coordinator', 'duty'],
 			'events.acknowledge': ['duty', 'coordinator'],
 			'triage.manage': ['admin', 'coordinator'],
@@ -52,5 +52,18 @@ describe('permissions table', () => {
 		expect(can({ user: null, telescopeId: 't1' }, 'observations.report')).toBe(true);
 		expect(can({ user: null, telescopeId: 't1' }, 'candidates.report')).toBe(true);
 		expect(can({ user: null, telescopeId: null }, 'candidates.report')).toBe(false);
+	});
+	it('lets only an administrator grant Administrator, and nobody a role above their own', () => {
+		expect(rolesOutOfReach(['coordinator'], ['admin'])).toEqual(['admin']);
+		expect(rolesOutOfReach(['coordinator'], ['viewer', 'admin', 'observer'])).toEqual(['admin']);
+		expect(rolesOutOfReach(['coordinator'], ['coordinator', 'duty', 'observer', 'spectroscopist', 'viewer'])).toEqual([]);
+		expect(rolesOutOfReach(['admin'], [...ROLES])).toEqual([]);
+		// Several roles: the highest one counts.
+		expect(rolesOutOfReach(['viewer', 'coordinator'], ['coordinator'])).toEqual([]);
+		// Peers of the same rank may hand out each other's roles, not a coordinator's.
+		expect(rolesOutOfReach(['duty'], ['observer', 'viewer'])).toEqual([]);
+		expect(rolesOutOfReach(['duty'], ['coordinator'])).toEqual(['coordinator']);
+		expect(rolesOutOfReach(['viewer'], ['duty'])).toEqual(['duty']);
+		expect(rolesOutOfReach([], ['viewer'])).toEqual(['viewer']);
 	});
 });

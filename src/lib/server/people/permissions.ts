@@ -1,5 +1,6 @@
 import type { Role } from '../platform/db/schema';
 import type { SessionUser } from './auth';
+import { ROLE_RANK } from '../../roles';
 
 const EVERYONE: readonly Role[] = ['admin', 'coordinator', 'duty', 'observer', 'spectroscopist', 'viewer'];
 
@@ -20,7 +21,8 @@ export const PERMISSIONS = {
 	'teams.manage': { roles: ['admin', 'coordinator'] },
 	'telescopes.manage': { roles: ['admin', 'coordinator'] },
 	'tokens.manage': { roles: ['admin'] },
-	'mailbox.view': { roles: ['admin', 'coordinator'] },
+	// The development mailbox holds every message the app sent, reset links included: administrators only.
+	'mailbox.view': { roles: ['admin'] },
 	'notices.submit': { roles: ['admin', 'coordinator', 'duty'] },
 	'events.acknowledge': { roles: ['duty', 'coordinator'] },
 	'triage.manage': { roles: ['admin', 'coordinator'] },
@@ -44,6 +46,16 @@ export function can(principal: Principal | null | undefined, permission: Permiss
 	if (!principal) return false;
 	if (principal.user) return principal.user.roles.some((r) => rule.roles.includes(r));
 	return Boolean(principal.telescopeId && rule.robot);
+}
+
+/**
+ * The roles in `roles` that a person holding `granterRoles` may not hand out (invite with, add or
+ * take away): those ranked above the granter's highest role (ROLE_RANK), so only an administrator
+ * makes an administrator. Empty when every role is within reach.
+ */
+export function rolesOutOfReach(granterRoles: readonly Role[], roles: readonly Role[]): Role[] {
+	const reach = Math.max(-1, ...granterRoles.map((r) => ROLE_RANK[r]));
+	return [...new Set(roles)].filter((r) => ROLE_RANK[r] > reach);
 }
 
 /** Roles that hold a permission, for pages that explain who may do what. */

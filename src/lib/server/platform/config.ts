@@ -9,7 +9,14 @@ export interface Config {
 	publicUrl: string;
 	invitationLifetimeMs: number;
 	resetLifetimeMs: number;
-	signInLimit: { attempts: number; windowMs: number };
+	/**
+	 * Failed sign-ins: `attempts` per client address within `windowMs` (then that client waits);
+	 * per account, after `accountFreeFailures` failures each further try waits twice as long as the
+	 * last (1 s, 2 s, 4 s, …) up to `accountMaxDelayMs`, so strangers cannot lock the owner out.
+	 */
+	signInLimit: { attempts: number; windowMs: number; accountFreeFailures: number; accountMaxDelayMs: number };
+	/** Password-reset requests within `windowMs`: per address asked for (known or not) and per client. */
+	resetLimit: { perAddress: number; perClient: number; windowMs: number };
 	alerts: AlertsConfig;
 }
 
@@ -22,6 +29,12 @@ export interface AlertsConfig {
 	/** Hosts sky maps may be fetched from (exact names, or ".domain" for any sub-domain). */
 	skymapHosts: string[];
 	skymapMaxBytes: number;
+	/**
+	 * Largest size a gzip sky map may unpack to. The largest real maps are flat nside-1024 maps with
+	 * distance layers, about 200 MB (12.6 M pixels × 4 float64 columns); multi-order maps are a few MB.
+	 * 256 MiB keeps those and refuses a small file that would inflate to gigabytes of memory.
+	 */
+	skymapMaxInflatedBytes: number;
 	skymapTimeoutMs: number;
 	/** Folder for stored files (sky maps under `skymaps/`, uploads under `uploads/`). */
 	storageDir: string;
@@ -44,6 +57,7 @@ export function loadAlertsConfig(): AlertsConfig {
 		vtpArchiveUrl: process.env.VTP_ARCHIVE_URL?.trim() || null,
 		skymapHosts: list('SKYMAP_HOSTS', ['127.0.0.1', 'localhost']),
 		skymapMaxBytes: int('SKYMAP_MAX_MB', 64) * 1024 * 1024,
+		skymapMaxInflatedBytes: int('SKYMAP_MAX_INFLATED_MB', 256) * 1024 * 1024,
 		skymapTimeoutMs: int('SKYMAP_TIMEOUT_S', 20) * 1000,
 		storageDir: process.env.STORAGE_DIR?.trim() || 'data',
 		retryIntervalMs: int('ALERTS_RETRY_S', 30) * 1000
@@ -67,7 +81,17 @@ export function loadConfig(): Config {
 		publicUrl: (process.env.ORIGIN || process.env.PUBLIC_URL || 'http://localhost:3000').replace(/\/$/, ''),
 		invitationLifetimeMs: int('INVITATION_LIFETIME_HOURS', 72) * 3600_000,
 		resetLifetimeMs: int('RESET_LIFETIME_MINUTES', 60) * 60_000,
-		signInLimit: { attempts: int('SIGN_IN_ATTEMPTS', 8), windowMs: int('SIGN_IN_WINDOW_MINUTES', 15) * 60_000 },
+		signInLimit: {
+			attempts: int('SIGN_IN_ATTEMPTS', 8),
+			windowMs: int('SIGN_IN_WINDOW_MINUTES', 15) * 60_000,
+			accountFreeFailures: int('SIGN_IN_ACCOUNT_FREE_FAILURES', 5),
+			accountMaxDelayMs: int('SIGN_IN_ACCOUNT_MAX_DELAY_S', 300) * 1000
+		},
+		resetLimit: {
+			perAddress: int('RESET_REQUESTS_PER_ADDRESS', 3),
+			perClient: int('RESET_REQUESTS_PER_CLIENT', 10),
+			windowMs: int('RESET_WINDOW_MINUTES', 60) * 60_000
+		},
 		alerts: loadAlertsConfig()
 	};
 }

@@ -1,6 +1,8 @@
 import { SMTPServer } from 'smtp-server';
 import { simpleParser } from 'mailparser';
 import type { AddressInfo } from 'node:net';
+import { mkdirSync, readdirSync, unlinkSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
 
 /** A message the local fake SMTP server received, as parsed from the wire. */
 export interface ReceivedMail {
@@ -15,6 +17,8 @@ export interface ReceivedMail {
 
 interface Mailbox {
 	server: SMTPServer | null;
+	/** Folder that receives the full text of each message, or null for memory only. */
+	spoolDir: string | null;
 	port: number | null;
 	messages: ReceivedMail[];
 	nextId: number;
@@ -25,17 +29,36 @@ const KEEP = 500;
 
 function mailbox(): Mailbox {
 	const g = globalThis as unknown as Record<symbol, Mailbox | undefined>;
-	g[SLOT] ??= { server: null, port: null, messages: [], nextId: 1 };
+	g[SLOT] ??= { server: null, spoolDir: null, port: null, messages: [], nextId: 1 };
 	return g[SLOT]!;
 }
 
 /**
- * Start the development mail catcher on 127.0.0.1 (once per process). It accepts any sender
- * and recipient without authentication, so it never listens beyond loopback.
+ * Write a caught message whole to the spool folder, the only place its links appear unmasked (the
+ * mailbox page masks them): whoever runs the server can open them there. Keeps the newest KEEP files.
  */
-export async function startFakeSmtp(port: number): Promise<number> {
+function spool(dir: string, mail: ReceivedMail): void {
+	try {
+		mkdirSync(dir, { recursive: true });
+		const name = `${String(Date.now()).padStart(15, '0')}-${String(mail.id).padStart(6, '0')}.txt`;
+		const head = [`To: ${mail.to.join(', ')}`, `From: ${mail.from}`, `Subject: ${mail.subject.replace(/\s+/g, ' ')}`, `Date: ${mail.receivedAt}`];
+		writeFileSync(join(dir, name), `${head.join('\n')}\n\n${mail.text}`, { mode: 0o600 });
+		const files = readdirSync(dir).filter((n) => n.endsWith('.txt')).sort();
+		for (const old of files.slice(0, Math.max(0, files.length - KEEP))) unlinkSync(join(dir, old));
+	} catch (e) {
+		console.error(`[mail] could not write the caught message to ${dir}:`, e);
+	}
+}
+
+/**
+ * Start the development mail catcher on 127.0.0.1 (once per process). It accepts any sender
+ * and recipient without authentication, so it never listens beyond loopback. With `spoolDir`,
+ * each message is also written whole to that folder.
+ */
+export async function startFakeSmtp(port: number, spoolDir: string | null = null): Promise<number> {
 	const box = mailbox();
 	if (box.server && box.port !== null) return box.port;
+	box.spoolDir = spoolDir;
 	const server = new SMTPServer({
 		authOptional: true,
 		disabledCommands: ['STARTTLS', 'AUTH'],
@@ -45,7 +68,7 @@ export async function startFakeSmtp(port: number): Promise<number> {
 			simpleParser(stream)
 				.then((parsed) => {
 					const to = session.envelope.rcptTo.map((r) => r.address);
-					box.messages.unshift({
+					const mail: ReceivedMail = {
 						id: box.nextId++,
 						receivedAt: new Date().toISOString(),
 						from: session.envelope.mailFrom ? session.envelope.mailFrom.address : '',
@@ -53,8 +76,10 @@ export async function startFakeSmtp(port: number): Promise<number> {
 						subject: parsed.subject ?? '',
 						text: parsed.text ?? '',
 						html: typeof parsed.html === 'string' ? parsed.html : null
-					});
+					};
+					box.messages.unshift(mail);
 					box.messages.length = Math.min(box.messages.length, KEEP);
+					if (box.spoolDir) spool(box.spoolDir, mail);
 					callback();
 				})
 				.catch((err: Error) => callback(err));
@@ -78,6 +103,11 @@ export async function startFakeSmtp(port: number): Promise<number> {
 	box.server = server;
 	box.port = bound;
 	return bound;
+}
+
+/** The folder caught messages are written to whole, or null. */
+export function fakeSmtpSpoolDir(): string | null {
+	return mailbox().spoolDir;
 }
 
 export function fakeSmtpPort(): number | null {

@@ -14,6 +14,14 @@ describe('form helpers', () => {
 		const v = echoValues(f);
 		expect(v).toEqual({ email: 'a@b.test', roles: ['observer', 'viewer'] });
 	});
+	it('never echo the repeated password of the invitation, reset and account forms', () => {
+		const f = new FormData();
+		f.set('name', 'Nadia');
+		f.set('password', 'short');
+		f.set('confirm', 'other-secret');
+		f.set('passwordConfirm', 'x');
+		expect(echoValues(f)).toEqual({ name: 'Nadia' });
+	});
 	it('collect repeated fields as arrays only where asked, with empty arrays for none', () => {
 		const f = new FormData();
 		f.append('roles', 'viewer');

@@ -10,7 +10,8 @@ export interface FormFailure {
 	message?: string;
 }
 
-const SECRET_FIELD = /password|token|secret/i;
+// `confirm` is the repeated password of the invitation, reset and account forms.
+const SECRET_FIELD = /password|token|secret|confirm/i;
 
 /** What the person typed, to put back in the form (never a password or token). */
 export function echoValues(form: FormData): Record<string, string | string[]> {

@@ -1,5 +1,6 @@
 import nodemailer, { type Transporter } from 'nodemailer';
 import { config } from './config';
+import { join } from 'node:path';
 import { startFakeSmtp, fakeSmtpPort } from './fake-smtp';
 
 export interface OutgoingMail {
@@ -22,7 +23,7 @@ export async function startMail(): Promise<void> {
 		transporter = nodemailer.createTransport(config.smtpUrl);
 		return;
 	}
-	const port = await startFakeSmtp(config.fakeSmtpPort);
+	const port = await startFakeSmtp(config.fakeSmtpPort, join(config.alerts.storageDir, 'mail'));
 	transporter = nodemailer.createTransport({ host: '127.0.0.1', port, secure: false, ignoreTLS: true });
 }
 

@@ -7,6 +7,7 @@ import { saveUpload } from '$lib/server/platform/storage';
 import { config } from '$lib/server/platform/config';
 import { DEFAULT_MAX_NOTICE_BYTES } from '$lib/alerts/voevent';
 import { readSkyMap } from '$lib/sky';
+import { skymapReadError, skymapReadOptions } from '$lib/server/alerts/skymap-fetch';
 
 export const load: PageServerLoad = () => {
 	requirePermission('notices.submit');
@@ -51,9 +52,9 @@ export const actions: Actions = {
 			else {
 				skymapBytes = new Uint8Array(await skymapFile.arrayBuffer());
 				try {
-					readSkyMap(skymapBytes, { skipDistance: true });
+					readSkyMap(skymapBytes, skymapReadOptions({ skipDistance: true }));
 				} catch (e) {
-					errors.skymap = `This is not a sky map we can read: ${(e as Error).message}`;
+					errors.skymap = `This is not a sky map we can read: ${skymapReadError(e)}`;
 				}
 			}
 		}
