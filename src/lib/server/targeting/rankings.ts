@@ -1,6 +1,6 @@
 /**
  * From sky map to targets: when an event's sky map has been analysed, rank the galaxies of the
- * active catalogue inside its 99% credible region (Singer et al. 2016 galaxy targeting, see
+ * event's catalogue inside its 99% credible region (Singer et al. 2016 galaxy targeting, see
  * `lib/targeting/galaxies.ts`) and, for each wide-field telescope, the fields of its fixed sky
  * tiling by enclosed probability (`lib/targeting/fields.ts`). The rankings of an event are kept
  * for its current map only: a new map replaces them in one transaction.
@@ -16,7 +16,7 @@ import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { onRecorded, record, SYSTEM, type Actor, type LiveMessage } from '../platform/realtime';
 import { readStoredFile } from '../platform/storage';
-import { activeCatalog, getCatalog } from './catalogs';
+import { getCatalog } from './catalogs';
 import { SUN_ABS_MAG_B } from '../../targeting/catalog-csv.ts';
 import { buildCatalogIndex, INDEX_ORDER, rankGalaxies, type CatalogIndex, type GalaxyCatalog, type WeightSource } from '../../targeting/galaxies.ts';
 import { rankFields, tileSky, type FieldOfView, type Tiling } from '../../targeting/fields.ts';
@@ -150,7 +150,8 @@ export function rankEvent(eventId: string, opts: { skymapId?: string; catalogId?
 	const bytes = readStoredFile(sky.filePath);
 	const map = readSkyMap(new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength));
 
-	const catalogId = opts.catalogId === undefined ? (activeCatalog()?.id ?? null) : opts.catalogId;
+	// The event's own catalogue (chosen when it arrived, or by a coordinator since), not whatever was imported last.
+	const catalogId = opts.catalogId === undefined ? event.catalogId : opts.catalogId;
 	let galaxyRows: (typeof table.eventGalaxy.$inferInsert)[] = [];
 	let meta: Omit<typeof table.eventTargetsMeta.$inferInsert, 'fieldCounts' | 'computedAt' | 'computeMs'> = {
 		eventId,
@@ -265,33 +266,68 @@ function react(message: LiveMessage): void {
 			if (current?.id !== skymapId) return;
 			rankEvent(eventId, { skymapId });
 		});
-	} else if (message.type === 'catalog.imported') {
-		// A new catalogue becomes the active one: rank the open events again with it, one job per
-		// event so that requests are served between them.
+	} else if (message.type === 'targets.catalog-switched') {
+		// A coordinator chose another catalogue for this event (event-catalog.ts).
+		const { eventId } = message.payload as { eventId?: unknown };
+		if (typeof eventId !== 'string') return;
 		enqueue(() => {
-			const open = db
-				.select({ id: table.gwEvent.id })
+			rankEvent(eventId);
+		});
+	} else if (message.type === 'notice.processed') {
+		// After every notice: a ranking that a crash or an error lost is made again.
+		enqueue(rankMissing);
+	}
+	// A newly imported catalogue re-ranks nothing: it is the default for events that arrive from
+	// now on, and a coordinator switches an event under way to it on purpose (event-catalog.ts).
+}
+
+/**
+ * Events whose current sky map has no ranking: never ranked (the process stopped between the
+ * map's analysis and its ranking), or ranked for an older map. Each gets one job of its own.
+ * Returns their ids.
+ */
+export function rankMissing(): string[] {
+	const missing = db
+		.select({ id: table.gwEvent.id })
+		.from(table.gwEvent)
+		.innerJoin(table.skymap, eq(table.skymap.id, table.gwEvent.latestSkymapId))
+		.leftJoin(table.eventTargetsMeta, eq(table.eventTargetsMeta.eventId, table.gwEvent.id))
+		.where(
+			and(
+				sql`${table.skymap.error} IS NULL`,
+				sql`${table.skymap.filePath} IS NOT NULL`,
+				sql`(${table.eventTargetsMeta.skymapId} IS NULL OR ${table.eventTargetsMeta.skymapId} <> ${table.gwEvent.latestSkymapId})`
+			)
+		)
+		.orderBy(asc(table.gwEvent.createdAt))
+		.all()
+		.map((r) => r.id);
+	for (const id of missing) {
+		enqueue(() => {
+			// Ranked meanwhile by the job an analysed map queued: nothing to do.
+			const now = db
+				.select({ map: table.gwEvent.latestSkymapId, ranked: table.eventTargetsMeta.skymapId })
 				.from(table.gwEvent)
-				.where(and(eq(table.gwEvent.state, 'active'), sql`${table.gwEvent.latestSkymapId} IS NOT NULL`))
-				.all();
-			for (const e of open) {
-				enqueue(() => {
-					try {
-						rankEvent(e.id);
-					} catch (err) {
-						console.error(`re-ranking ${e.id} failed`, err);
-					}
-				});
-			}
+				.leftJoin(table.eventTargetsMeta, eq(table.eventTargetsMeta.eventId, table.gwEvent.id))
+				.where(eq(table.gwEvent.id, id))
+				.get();
+			if (!now?.map || now.ranked === now.map) return;
+			rankEvent(id);
 		});
 	}
+	return missing;
 }
 
 let uninstall: (() => void) | null = null;
 
-/** Start reacting to analysed sky maps and new catalogues. Installing twice replaces the first. */
+/**
+ * Start reacting to analysed sky maps and processed notices, and rank at once any event whose
+ * current map has no ranking (a ranking under way when the process stopped is lost with it).
+ * Installing twice replaces the first.
+ */
 export function installTargets(): () => void {
 	uninstall?.();
+	enqueue(rankMissing);
 	const off = onRecorded(react);
 	uninstall = () => {
 		off();
