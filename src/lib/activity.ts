@@ -1,5 +1,6 @@
 const PHRASES: Record<string, string> = {
 	'targets.ranked': 'Targets ranked',
+	'targets.catalog-switched': 'An event was switched to another galaxy catalogue',
 	'catalog.started': 'Catalogue import started',
 	'catalog.imported': 'Catalogue imported',
 	'catalog.failed': 'Catalogue import failed',
