@@ -23,7 +23,7 @@ async function waitForGalaxies(page: Page) {
 	await expect(async () => {
 		if ((await rows.count()) === 0) await page.reload();
 		await expect(rows.first()).toBeVisible({ timeout: 2000 });
-	}).toPass({ timeout: 30_000 });
+	}).toPass({ timeout: 60_000 });
 }
 
 // Leave the catalogue in use as the other tests expect: remove the test file (its galaxies go with it).
@@ -36,7 +36,7 @@ test.afterAll(() => {
 });
 
 test('importing a catalogue leaves a live event alone; the coordinator switches it after confirming, sees the claim left outside, and switches back', async ({ browser }) => {
-	test.setTimeout(150_000);
+	test.setTimeout(300_000);
 	const coordinator = await signedIn(browser, 'coordinator');
 	const eventId = await publishNightEvent(coordinator, SOURCE_ID);
 
@@ -92,7 +92,7 @@ test('importing a catalogue leaves a live event alone; the coordinator switches 
 		await expect(async () => {
 			await page.reload();
 			await expect(page.getByTestId('galaxies-empty')).toBeVisible({ timeout: 2000 });
-		}).toPass({ timeout: 30_000 });
+		}).toPass({ timeout: 60_000 });
 		const outside = page.getByTestId('outside-claims').getByTestId('outside-claim');
 		await expect(outside).toHaveCount(1);
 		await expect(outside).toContainText(galaxyName);
@@ -112,7 +112,7 @@ test('importing a catalogue leaves a live event alone; the coordinator switches 
 	await expect(async () => {
 		await coordinator.reload();
 		await expect(coordinator.locator('[data-testid="galaxy-row"][data-rank="1"]').getByTestId('claim-state')).toHaveText('claimed', { timeout: 2000 });
-	}).toPass({ timeout: 30_000 });
+	}).toPass({ timeout: 60_000 });
 	await expect(coordinator.locator('[data-testid="galaxy-row"][data-rank="1"] td').nth(1)).toHaveText(galaxyName);
 	await expect(coordinator.getByTestId('outside-claims')).toHaveCount(0);
 	await coordinator.screenshot({ path: `${SCREENS}/event-catalog-3-back.png`, fullPage: true });
