@@ -3,6 +3,7 @@ import type { LiveAction } from './live-messages.ts';
 /** A phrase for every action (checked: a new action without one does not compile). */
 const PHRASES: { readonly [A in LiveAction]: string } = {
 	'targets.ranked': 'Targets ranked',
+	'targets.catalog-switched': 'An event was switched to another galaxy catalogue',
 	'catalog.started': 'Catalogue import started',
 	'catalog.imported': 'Catalogue imported',
 	'catalog.failed': 'Catalogue import failed',

@@ -71,6 +71,8 @@ export interface EventView {
 	eventTime: string | null;
 	createdAt: string;
 	retractedAt: string | null;
+	/** The reason the retraction notice gave, in the source's words (null: none given, or not retracted). */
+	retractionReason: string | null;
 	latestKind: NoticeKind | null;
 	farHz: number | null;
 	classification: Classification | null;

@@ -43,7 +43,8 @@ type EventNotice = { eventId: string; noticeId: string };
 export interface LivePayloads {
 	// ── alerts ──
 	'event.created': { eventId: string; sourceEventId: string };
-	'event.retracted': { eventId: string; noticeId: string | null };
+	/** `freedClaimIds`: the open claims the retraction released, so that their teams can be told. */
+	'event.retracted': { eventId: string; noticeId: string | null; reason: string | null; freedClaimIds: string[] };
 	'notice.rejected': { inboxId: number; ivorn: string; error: string };
 	'notice.processed': EventNotice & {
 		ivorn: string;
@@ -74,6 +75,7 @@ export interface LivePayloads {
 
 	// ── targeting ──
 	'targets.ranked': { eventId: string; skymapId: string; galaxies: number; fields: number; catalogId: string | null };
+	'targets.catalog-switched': { eventId: string; fromCatalogId: string | null; fromName: string | null; toCatalogId: string; toName: string };
 	'catalog.started': { catalogId: string; name: string; synthetic: boolean };
 	/** `storing`: rows parsed and now being written (the last tick before `catalog.imported`). */
 	'catalog.progress': { catalogId: string; bytes: number; rows: number; storing?: number };
@@ -169,6 +171,7 @@ export const ACTION_TOPIC: { readonly [A in LiveAction]: LiveTopic } = {
 	'shift.removed': 'roster',
 	'shift.handover-written': 'roster',
 	'targets.ranked': 'targets',
+	'targets.catalog-switched': 'targets',
 	'catalog.started': 'catalogs',
 	'catalog.progress': 'catalogs',
 	'catalog.imported': 'catalogs',

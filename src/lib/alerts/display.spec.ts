@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { dominantClass, farPerYear, formatArea, formatDistance, formatElapsed, formatFar, formatPercent, formatUtc, SECONDS_PER_JULIAN_YEAR } from './display';
+import { describeMergerClock, dominantClass, farPerYear, formatArea, formatDistance, formatElapsed, formatFar, formatPercent, formatUtc, SECONDS_PER_JULIAN_YEAR } from './display';
 
 describe('false-alarm rate', () => {
 	it('converts Hz to per year with the Julian year (IAU: 365.25 d of 86 400 s)', () => {
@@ -43,5 +43,18 @@ describe('classification and numbers', () => {
 		expect(formatElapsed((47 * 60 + 5) * 60_000)).toBe('47 h 05 min');
 		expect(formatElapsed(100 * 3600_000)).toBe('4 d 4 h');
 		expect(formatUtc('2026-03-01T12:03:04.567Z')).toBe('2026-03-01 12:03:04 UTC');
+	});
+});
+
+describe('merger clock', () => {
+	it('runs while the event is live and stops at the retraction', () => {
+		const merger = '2030-04-13T14:00:00.000Z';
+		const later = Date.parse('2030-04-13T18:30:00Z');
+		expect(describeMergerClock(merger, later)).toBe('4 h 30 min since merger');
+		// Retracted 1 h 40 min after the merger: the same words whatever the time now.
+		expect(describeMergerClock(merger, later, '2030-04-13T15:40:00.000Z')).toBe('stood down 1 h 40 min after the merger');
+		expect(describeMergerClock(merger, later + 86_400_000, '2030-04-13T15:40:00.000Z')).toBe('stood down 1 h 40 min after the merger');
+		expect(describeMergerClock(merger, later, '2030-04-13T13:00:00.000Z')).toBe('stood down');
+		expect(describeMergerClock(null, later)).toBe('—');
 	});
 });

@@ -104,6 +104,17 @@ export function describeSinceMerger(ms: number): string {
 	return `${formatElapsed(ms)} since merger`;
 }
 
+/**
+ * The merger clock of an event: running ("42 s since merger") while it is live, stopped at the
+ * retraction once the source has withdrawn it ("stood down 2 h 07 min after the merger").
+ */
+export function describeMergerClock(eventTime: string | null, nowMs: number, retractedAt: string | null = null): string {
+	if (!eventTime) return '—';
+	if (retractedAt === null) return describeSinceMerger(nowMs - Date.parse(eventTime));
+	const ms = Date.parse(retractedAt) - Date.parse(eventTime);
+	return ms >= 0 ? `stood down ${formatElapsed(ms)} after the merger` : 'stood down';
+}
+
 /** An instant as "2026-03-01 12:03:04 UTC". */
 export function formatUtc(at: Date | string | number | null | undefined): string {
 	if (at === null || at === undefined) return '—';

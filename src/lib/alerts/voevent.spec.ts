@@ -88,6 +88,29 @@ describe('parseVoevent: well-formed notices', () => {
 		]);
 	});
 
+	it('keeps a retraction’s stated reason: from a Param, else Why/Description, else the citations’ Description', () => {
+		const base = fixture('retraction.xml');
+		expect(parseVoevent(base).reason).toBe('Retracted: instrumental artefact.');
+		const why = base.replace('</What>', '</What>\n  <Why><Description>  Glitch in one\n   detector  </Description></Why>');
+		expect(parseVoevent(why).reason).toBe('Glitch in one detector');
+		const param = why.replace('<Param name="NoticeKind"', '<Param name="Retraction_Reason" value="Data-quality veto"/><Param name="NoticeKind"');
+		expect(parseVoevent(param).reason).toBe('Data-quality veto');
+		// Two differing reasons do not refuse the retraction: the first is kept.
+		const two = param.replace('<Param name="NoticeKind"', '<Param name="Reason" value="second"/><Param name="NoticeKind"');
+		expect(parseVoevent(two).reason).toBe('Data-quality veto');
+		// No text anywhere: no reason, and nothing else changes.
+		const none = base.replace(/<Description>[^<]*<\/Description>/, '');
+		expect(parseVoevent(none)).not.toHaveProperty('reason');
+		expect(parseVoevent(none).kind).toBe('retraction');
+		// A long text is cut at a word and marked.
+		const long = base.replace('Retracted: instrumental artefact.', 'word '.repeat(200));
+		const cut = parseVoevent(long).reason!;
+		expect(cut.length).toBeLessThanOrEqual(500);
+		expect(cut.endsWith('word…')).toBe(true);
+		// A Description on a notice that is not a retraction is not a reason.
+		expect(parseVoevent(fixture('bns-preliminary.xml'))).not.toHaveProperty('reason');
+	});
+
 	it('infers a retraction from a retraction citation when the kind Param is absent', () => {
 		const xml = fixture('retraction.xml').replace(/<Param name="NoticeKind"[^>]*\/>/, '');
 		expect(parseVoevent(xml).kind).toBe('retraction');

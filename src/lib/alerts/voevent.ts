@@ -31,6 +31,9 @@ export class NoticeParseError extends Error {
 	override name = 'NoticeParseError';
 }
 
+/** Longest retraction reason kept (longer text is cut at a word and marked with an ellipsis). */
+export const MAX_REASON_CHARS = 500;
+
 const probability = z.number().finite().min(0).max(1);
 const ivornSchema = z
 	.string()
@@ -72,7 +75,9 @@ export const noticeSchema = z.object({
 		.max(2048)
 		.regex(/^https?:\/\/[^\s]+$/, 'must be an http(s) URL')
 		.nullable(),
-	citations: z.array(z.object({ ivorn: ivornSchema, cite: z.enum(CITE_TYPES) })).max(64)
+	citations: z.array(z.object({ ivorn: ivornSchema, cite: z.enum(CITE_TYPES) })).max(64),
+	/** A retraction's stated reason, when the notice gives one (absent otherwise). */
+	reason: z.string().min(1).max(MAX_REASON_CHARS).optional()
 });
 
 export type Notice = z.infer<typeof noticeSchema>;
@@ -111,7 +116,8 @@ export const PARAM_NAMES = {
 	Terrestrial: ['Terrestrial', 'ProbTerrestrial', 'Terr', 'Noise'],
 	HasNS: ['HasNS', 'HasNeutronStar', 'ProbHasNS'],
 	HasRemnant: ['HasRemnant', 'ProbHasRemnant'],
-	HasMassGap: ['HasMassGap', 'ProbHasMassGap']
+	HasMassGap: ['HasMassGap', 'ProbHasMassGap'],
+	reason: ['Reason', 'RetractionReason', 'RetractReason', 'RetractionComment']
 } as const;
 
 const KIND_ALIASES: Record<string, NoticeKind> = {
@@ -480,6 +486,8 @@ export function parseVoevent(input: string | Uint8Array, opts: ParseOptions = {}
 		if (!skymapUrl) fail(`${kind} notice lacks required Param ${PARAM_NAMES.skymapUrl.join(' / ')}`);
 	}
 
+	const reason = kind === 'retraction' ? retractionReason(root, params) : null;
+
 	const candidate = {
 		ivorn,
 		role,
@@ -491,7 +499,8 @@ export function parseVoevent(input: string | Uint8Array, opts: ParseOptions = {}
 		classification,
 		properties,
 		skymapUrl,
-		citations
+		citations,
+		...(reason ? { reason } : {})
 	};
 	const checked = noticeSchema.safeParse(candidate);
 	if (!checked.success) {
@@ -499,6 +508,35 @@ export function parseVoevent(input: string | Uint8Array, opts: ParseOptions = {}
 		fail(`invalid notice field ${issue.path.join('.') || '(root)'}: ${issue.message}`);
 	}
 	return checked.data;
+}
+
+/**
+ * Why a retraction was issued, in the sender's words: a Param named like **Reason**, else the
+ * `Why/Description`, else a `Description` beside the citations (where the fake broker and some
+ * senders put it). Whitespace is collapsed; an over-long text is cut at a word boundary.
+ */
+/** Text of an optional element; one we cannot decode is treated as absent rather than refusing the notice. */
+function quietText(node: unknown): string {
+	try {
+		return textOf(node);
+	} catch {
+		return '';
+	}
+}
+
+function retractionReason(root: XNode, params: RawParam[]): string | null {
+	const texts = [
+		// Not `pick`: two differing reason Params must not cost us the retraction itself.
+		...params.filter((p) => (PARAM_NAMES.reason as readonly string[]).map(normaliseName).includes(normaliseName(p.name))).map((p) => p.value),
+		...asArray(child(child(root, 'Why'), 'Description') as unknown).map(quietText),
+		...asArray(child(child(root, 'Citations'), 'Description') as unknown).map(quietText)
+	];
+	const text = texts.map((t) => t.replace(/\s+/g, ' ').trim()).find((t) => t !== '');
+	if (!text) return null;
+	if (text.length <= MAX_REASON_CHARS) return text;
+	const cut = text.slice(0, MAX_REASON_CHARS - 1);
+	const space = cut.lastIndexOf(' ');
+	return `${space > MAX_REASON_CHARS / 2 ? cut.slice(0, space) : cut}…`;
 }
 
 function normaliseUnit(unit: string | null): string {
@@ -526,6 +564,7 @@ export function describeNotice(n: Notice): string {
 	}
 	if (n.skymapUrl) lines.push(`  sky map ${n.skymapUrl}`);
 	for (const c of n.citations) lines.push(`  cites (${c.cite}) ${c.ivorn}`);
+	if (n.reason) lines.push(`  reason ${n.reason}`);
 	return lines.join('\n');
 }
 

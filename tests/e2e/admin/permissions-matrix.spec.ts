@@ -45,6 +45,7 @@ const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean; form?: 
 	{ path: '/events/{eventId}/targets?/release', allowed: ['observer', 'coordinator'] },
 	{ path: '/events/{eventId}/targets?/reassign', allowed: ['coordinator'] },
 	{ path: '/events/{eventId}/targets?/lapse', allowed: ['coordinator'] },
+	{ path: '/events/{eventId}/targets?/catalog', allowed: ['coordinator'] },
 	{ path: '/events/{eventId}/report?/report', allowed: ['observer', 'coordinator'] },
 	{ path: '/events/{eventId}/report?/upload', allowed: ['observer', 'coordinator'] },
 	{ path: '/events/{eventId}/candidates?/report', allowed: ['observer', 'coordinator'] }

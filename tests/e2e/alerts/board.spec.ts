@@ -88,8 +88,12 @@ test('the duty scientist follows a neutron-star merger live: paged, acknowledges
 	await expect(retracted.getByTestId('retraction-banner')).toContainText('Stop follow-up observations');
 	await expect(retracted).toHaveAttribute('data-state', 'retracted');
 	await expect(bns.getByTestId('retraction-banner')).toHaveCount(0);
-	// Newest merger first.
-	await expect(page.getByTestId('board-event').first()).toHaveAttribute('data-source-id', RETRACTED);
+	// A retracted event leaves "Active events" for the stood-down section, with the source's reason and its clock stopped.
+	await expect(page.getByTestId('stood-down').locator(`[data-source-id="${RETRACTED}"]`)).toBeVisible();
+	await expect(page.getByTestId('board-events').getByTestId('board-event')).toHaveCount(1);
+	await expect(page.getByTestId('board-events').getByTestId('board-event').first()).toHaveAttribute('data-source-id', BNS);
+	await expect(retracted.getByTestId('retraction-reason')).toContainText('consistent with an instrumental artefact');
+	await expect(retracted.getByTestId('since-merger')).toHaveAttribute('data-stopped', 'yes');
 	await page.screenshot({ path: `${SCREENS}/board-4-retraction.png`, fullPage: true });
 
 	expect(await page.evaluate(() => (window as unknown as { boardMarker?: string }).boardMarker)).toBe('still-here');

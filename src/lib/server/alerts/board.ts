@@ -84,6 +84,10 @@ function views(events: table.GwEvent[]): { views: EventView[]; pages: Map<string
 		const latestNoticeMap = e.latestNoticeId ? mapByNotice.get(e.latestNoticeId) : undefined;
 		const current = skymapView(latestMap ?? latestNoticeMap);
 		if (current && latestNoticeMap?.error && latestNoticeMap !== latestMap) current.error = latestNoticeMap.error;
+		const ofEvent = notices.filter((n) => n.notice.eventId === e.id);
+		// The retraction that made the event retracted is its earliest (ingest.ts, refreshEvent).
+		const retraction = e.state === 'retracted' ? ofEvent.find((n) => n.notice.kind === 'retraction') : undefined;
+		const reason = (retraction?.notice.parsed as { reason?: unknown } | undefined)?.reason;
 		return {
 			id: e.id,
 			sourceEventId: e.sourceEventId,
@@ -92,15 +96,14 @@ function views(events: table.GwEvent[]): { views: EventView[]; pages: Map<string
 			eventTime: iso(e.eventTime),
 			createdAt: e.createdAt.toISOString(),
 			retractedAt: iso(e.retractedAt),
+			retractionReason: typeof reason === 'string' && reason ? reason : null,
 			latestKind: e.latestKind,
 			farHz: e.farHz,
 			classification: e.classification,
 			properties: e.properties,
 			triage: e.triage,
 			skymap: current,
-			notices: notices
-				.filter((n) => n.notice.eventId === e.id)
-				.map(({ notice: n, receivedAt }) => {
+			notices: ofEvent.map(({ notice: n, receivedAt }) => {
 					const m = mapByNotice.get(n.id);
 					return {
 						id: n.id,

@@ -20,7 +20,8 @@ import { policyInput, factsOf } from './triage-policy';
 import { parseVoevent, sniffIvorn, type Notice as ParsedNotice } from '../../alerts/voevent.ts';
 import { evaluateTriage } from '../../alerts/triage.ts';
 import { analyseSkymap, skyRaster, type SkyMap } from '../../sky/index.ts';
-import { cancelOpenClaims as releaseOpenClaims } from '../coordination/claims';
+import { cancelOpenClaims as releaseOpenClaims, releaseForRetraction } from '../coordination/claims';
+import { activeCatalog } from '../targeting/catalogs';
 
 export type InboxVia = table.NoticeInboxRow['via'];
 
@@ -180,8 +181,11 @@ async function runProcess(inboxId: number, opts: IngestOptions): Promise<IngestO
 	const stored = storeNotice(parsed, inboxId);
 	if (stored.eventCreated) record(actor, 'event.created', 'board', { eventId: stored.eventId, sourceEventId: parsed.sourceEventId });
 	if (stored.becameRetracted) {
-		cancelOpenClaims(stored.eventId);
-		for (const room of rooms(stored.eventId)) record(actor, 'event.retracted', room, { eventId: stored.eventId, noticeId: stored.retractionNoticeId });
+		const freed = releaseForRetraction(stored.eventId, actor);
+		const reason = parsed.kind === 'retraction' ? (parsed.reason ?? null) : null;
+		// The freed claims travel with the message so that their teams can be told (claims.ts).
+		const retracted = { eventId: stored.eventId, noticeId: stored.retractionNoticeId, reason, freedClaimIds: freed.map((c) => c.id) };
+		for (const room of rooms(stored.eventId)) record(actor, 'event.retracted', room, retracted);
 	}
 	opts.onStage?.('stored', { eventId: stored.eventId, noticeId: stored.noticeId });
 
@@ -239,7 +243,8 @@ function storeNotice(n: ParsedNotice, inboxId: number): Stored {
 		if (!event) {
 			event = tx
 				.insert(table.gwEvent)
-				.values({ id: uniqueEventId(n.sourceEventId), sourceEventId: n.sourceEventId, role: n.role, state: 'active' })
+				// Ranked against the catalogue in use as it arrives, whatever is imported later (rankings.ts).
+				.values({ id: uniqueEventId(n.sourceEventId), sourceEventId: n.sourceEventId, role: n.role, state: 'active', catalogId: activeCatalog()?.id ?? null })
 				.returning()
 				.get();
 			eventCreated = true;

@@ -9,7 +9,9 @@ import { loadSessionUser, validateApiToken, type SessionUser } from '../people/a
 import { issueToken } from '../people/tokens';
 import { onRecorded, SYSTEM, type LiveMessage } from '../platform/realtime';
 import { receivedMail, stopFakeSmtp } from '../platform/fake-smtp';
-import { cancelOpenClaims as ingestCancelOpenClaims } from '../alerts/ingest';
+import { readFileSync } from 'node:fs';
+import { fileURLToPath } from 'node:url';
+import { cancelOpenClaims as ingestCancelOpenClaims, commitNotice, processInbox } from '../alerts/ingest';
 import * as claims from './claims';
 import { sunPosition, sunSeparationDeg } from '../../targeting/sun-moon.ts';
 
@@ -285,6 +287,73 @@ describe('retraction', () => {
 		expect(claims.getClaim(finished.id)?.state).toBe('done');
 		const released = heard.filter((m) => m.type === 'claim.released');
 		expect(released.map((m) => m.payload.reason)).toEqual(['event retracted', 'event retracted']);
+	});
+});
+
+describe('retraction notices to teams', () => {
+	let uninstall: (() => void) | null = null;
+	afterEach(() => uninstall?.());
+
+	async function mailFor(email: string, atLeast: number, waitMs = 3000) {
+		const until = Date.now() + waitMs;
+		let got = receivedMail().filter((m) => m.to.includes(email));
+		while (Date.now() < until && got.length < atLeast) {
+			await new Promise((r) => setTimeout(r, 20));
+			got = receivedMail().filter((m) => m.to.includes(email));
+		}
+		return got;
+	}
+
+	it('e-mails each member of every team whose claims the retraction freed, with the stated reason, and nobody else', async () => {
+		uninstall = claims.installClaims({ everyMs: null });
+		const s = setup();
+		const third = team('Quiet Hollow (test)');
+		const ann = person('Ann', ['observer'], [s.north]);
+		const ned = person('Ned', ['observer'], [s.north, s.south]);
+		const sue = person('Sue', ['observer'], [s.south]);
+		const gone = person('Gone', ['observer'], [s.south]);
+		db.update(table.user).set({ disabledAt: new Date() }).where(eq(table.user.id, gone.id)).run();
+		const quiet = person('Quinn', ['observer'], [third]);
+		const northClaim = claims.claim(ann, { eventId: s.eventId, targetKind: 'galaxy', targetId: s.galaxyId, telescopeId: s.tn, filter: 'g' });
+		const southClaim = claims.claim(sue, { eventId: s.eventId, targetKind: 'galaxy', targetId: s.galaxyId, telescopeId: s.ts, filter: 'r' });
+		claims.start(sue, southClaim.id);
+
+		const source = db.select().from(table.gwEvent).where(eq(table.gwEvent.id, s.eventId)).get()!.sourceEventId;
+		const xml = readFileSync(fileURLToPath(new URL('../../../../tests/fixtures/notices/retraction.xml', import.meta.url)), 'utf8').replaceAll('SX30041315', source);
+		const r = await processInbox(commitNotice(xml, 'api').inboxId);
+		expect(r.outcome).toBe('event-retracted');
+		expect(claims.getClaim(northClaim.id)?.state).toBe('released');
+		const retracted = heard.find((m) => m.type === 'event.retracted' && m.room === 'board')!;
+		expect(retracted.payload).toMatchObject({ reason: 'Retracted: instrumental artefact.' });
+		expect([...((retracted.payload as { freedClaimIds: string[] }).freedClaimIds)].sort()).toEqual([northClaim.id, southClaim.id].sort());
+
+		const toAnn = await mailFor(ann.email, 1);
+		expect(toAnn).toHaveLength(1);
+		expect(toAnn[0].subject).toBe(`RETRACTED ${source} · your claims were released`);
+		expect(toAnn[0].text).toContain('"Retracted: instrumental artefact."');
+		expect(toAnn[0].text).toContain(`galaxy ${s.galaxyId} in g`);
+		expect(toAnn[0].text).not.toContain(`galaxy ${s.galaxyId} in r`);
+		// A member of both teams hears once, about both claims.
+		const toNed = await mailFor(ned.email, 1);
+		expect(toNed).toHaveLength(1);
+		expect(toNed[0].text).toContain(`galaxy ${s.galaxyId} in g`);
+		expect(toNed[0].text).toContain(`galaxy ${s.galaxyId} in r`);
+		expect(await mailFor(sue.email, 1)).toHaveLength(1);
+		// A disabled account and a team without claims get nothing.
+		expect(await mailFor(gone.email, 1, 300)).toEqual([]);
+		expect(await mailFor(quiet.email, 1, 300)).toEqual([]);
+	});
+
+	it('says so when the retraction gives no reason, and sends nothing when no claim was open', async () => {
+		expect(await claims.tellRetractedClaims(event(), [], null)).toEqual([]);
+		const s = setup();
+		const ann = person('Ann', ['observer'], [s.north]);
+		const c = claims.claim(ann, { eventId: s.eventId, targetKind: 'galaxy', targetId: s.galaxyId, telescopeId: s.tn });
+		const freed = claims.releaseForRetraction(s.eventId);
+		expect(freed.map((f) => f.id)).toEqual([c.id]);
+		expect(await claims.tellRetractedClaims(s.eventId, [c.id], null)).toEqual([ann.email]);
+		const got = await mailFor(ann.email, 1);
+		expect(got[0].text).toContain('(no reason was given)');
 	});
 });
 

@@ -10,7 +10,7 @@ import { and, asc, eq, inArray, lt } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { randomId, type SessionUser } from '../people/auth';
-import { actorOf, record, SYSTEM, type Actor } from '../platform/realtime';
+import { actorOf, onRecorded, record, SYSTEM, type Actor } from '../platform/realtime';
 import { every } from '../platform/periodic';
 import { restartService } from '../platform/services';
 import type { ClaimFields } from '../../live-messages.ts';
@@ -19,6 +19,7 @@ import { sunAvoidance } from '../../targeting/sun-moon.ts';
 import { DomainError } from '../platform/errors';
 import { actsForEveryTeam, mayUseTeam, mayUseTelescope } from '../people/scope';
 import { LAPSE_MINUTES_MAX, LAPSE_MINUTES_MIN } from '../../limits.ts';
+import { config } from '../platform/config';
 
 export const DEFAULT_LAPSE_MINUTES = 60;
 export const LAPSE_CHECK_MS = 30_000;
@@ -323,8 +324,8 @@ async function tellTeam(c: table.Claim, minutes: number): Promise<void> {
 	}
 }
 
-/** A retraction releases every open claim of the event, with the reason logged. */
-export function cancelOpenClaims(eventId: string, actor: Actor = SYSTEM, now = new Date()): number {
+/** A retraction releases every open claim of the event, with the reason logged; returns the claims freed. */
+export function releaseForRetraction(eventId: string, actor: Actor = SYSTEM, now = new Date()): table.Claim[] {
 	const reason = 'event retracted';
 	const released = db
 		.update(table.claim)
@@ -333,7 +334,68 @@ export function cancelOpenClaims(eventId: string, actor: Actor = SYSTEM, now = n
 		.returning()
 		.all();
 	for (const c of released) record(actor, 'claim.released', `event:${eventId}`, { ...payloadOf(c), reason });
-	return released.length;
+	return released;
+}
+
+/** As `releaseForRetraction`, counting. */
+export function cancelOpenClaims(eventId: string, actor: Actor = SYSTEM, now = new Date()): number {
+	return releaseForRetraction(eventId, actor, now).length;
+}
+
+/**
+ * Tell the members of every team whose claims a retraction freed, one e-mail per person listing
+ * their teams' targets, so that nobody points a telescope at them on the strength of the claim.
+ * Returns the addresses written to.
+ */
+export async function tellRetractedClaims(eventId: string, claimIds: string[], reason: string | null): Promise<string[]> {
+	if (!claimIds.length) return [];
+	const event = db.select({ sourceEventId: table.gwEvent.sourceEventId }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
+	const freed = db
+		.select({ c: table.claim, teamName: table.team.name, telescopeName: table.telescope.name })
+		.from(table.claim)
+		.innerJoin(table.team, eq(table.team.id, table.claim.teamId))
+		.innerJoin(table.telescope, eq(table.telescope.id, table.claim.telescopeId))
+		.where(and(eq(table.claim.eventId, eventId), inArray(table.claim.id, claimIds)))
+		.orderBy(asc(table.team.name), asc(table.claim.claimedAt))
+		.all();
+	const teamIds = [...new Set(freed.map((f) => f.c.teamId))];
+	const members = db
+		.select({ teamId: table.teamMember.teamId, email: table.user.email, name: table.user.name, disabledAt: table.user.disabledAt })
+		.from(table.teamMember)
+		.innerJoin(table.user, eq(table.user.id, table.teamMember.userId))
+		.where(inArray(table.teamMember.teamId, teamIds))
+		.all()
+		.filter((m) => !m.disabledAt);
+	const byPerson = new Map<string, { name: string; teamIds: Set<string> }>();
+	for (const m of members) {
+		const p = byPerson.get(m.email) ?? { name: m.name, teamIds: new Set<string>() };
+		p.teamIds.add(m.teamId);
+		byPerson.set(m.email, p);
+	}
+	const source = event?.sourceEventId ?? eventId;
+	const sent: string[] = [];
+	for (const [email, person] of byPerson) {
+		const theirs = freed.filter((f) => person.teamIds.has(f.c.teamId));
+		const text = [
+			`${person.name},`,
+			'',
+			`The source has retracted ${source}${reason ? `, giving this reason: "${reason}"` : ' (no reason was given)'}.`,
+			`These claims of your team${person.teamIds.size === 1 ? '' : 's'} were released, so they no longer hold the targets:`,
+			'',
+			...theirs.map((f) => `  - ${f.c.targetKind} ${f.c.targetId}${f.c.filter ? ` in ${f.c.filter}` : ''}, epoch ${f.c.epoch} (${f.teamName}, ${f.telescopeName})`),
+			'',
+			'Stop follow-up observations for this event. Your observatory’s own rules still decide what happens at the telescope.',
+			'',
+			`${config.publicUrl}/events/${encodeURIComponent(eventId)}`
+		].join('\n');
+		try {
+			await sendMail({ to: email, subject: `RETRACTED ${source} · your claims were released`, text });
+			sent.push(email);
+		} catch (e) {
+			console.error(`retraction notice to ${email} failed`, e);
+		}
+	}
+	return sent;
 }
 
 export interface ClaimView extends table.Claim {
@@ -355,11 +417,24 @@ export function listClaims(eventId: string, o: { openOnly?: boolean } = {}): Cla
 	return rows.map((r) => ({ ...r.c, teamName: r.teamName, telescopeName: r.telescopeName, userName: r.userName }));
 }
 
-/** Start the periodic lapse check (null: none). Installing twice replaces the first. */
+/**
+ * Start the periodic lapse check (null: none) and the e-mails to teams whose claims a retraction
+ * freed. Installing twice replaces the first.
+ */
 export function installClaims(o: { everyMs?: number | null } = {}): () => void {
 	const everyMs = o.everyMs === undefined ? LAPSE_CHECK_MS : o.everyMs;
 	return restartService('claim-lapse', () => {
 		const stop = everyMs === null ? null : every(everyMs, () => lapseOverdue(), 'claim lapse check');
-		return { stop: () => stop?.() };
+		// Logged to the board and the event's room: react to the board copy only.
+		const off = onRecorded('event.retracted', ({ eventId, freedClaimIds, reason }, m) => {
+			if (m.room !== 'board') return;
+			tellRetractedClaims(eventId, freedClaimIds, reason).catch((e) => console.error(`retraction notices for ${eventId} failed`, e));
+		});
+		return {
+			stop() {
+				stop?.();
+				off();
+			}
+		};
 	});
 }

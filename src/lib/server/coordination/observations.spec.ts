@@ -127,7 +127,10 @@ describe('report', () => {
 		expect(err!.status).toBe(422);
 		expect(err!.fields.observedAt).toMatch(/5 minutes in the future/);
 		expect(err!.fields.filter).toMatch(/case-sensitive/);
-		expect(() => report(robot, pointing(w, { observedAt: '2026-11-30T23:00:00Z' }), 'api', NOW)).toThrow(/1 day before the event/);
+		// Before the merger (00:00 UTC): refused with both times, in ISO UTC.
+		expect(() => report(robot, pointing(w, { observedAt: '2026-11-30T23:00:00Z' }), 'api', NOW)).toThrow(
+			'observedAt: this pointing (2026-11-30T23:00:00Z) was taken before the merger at 2026-12-02T00:00:00Z; only pointings after the merger count'
+		);
 		expect(() => report(robot, pointing(w, { raDeg: 360 }), 'api', NOW)).toThrow(/RA must be in/);
 		expect(() => report(robot, pointing(w, { decDeg: -91 }), 'api', NOW)).toThrow(/Dec must be in/);
 		expect(() => report(robot, pointing(w, { exposureS: 0 }), 'api', NOW)).toThrow(/exposure must be > 0/);
@@ -136,6 +139,55 @@ describe('report', () => {
 		expect(db.select().from(table.observation).all()).toHaveLength(0);
 		// 4 minutes ahead is tolerated (clock skew).
 		expect(report(robot, pointing(w, { observedAt: '2026-12-02T03:04:00Z' }), 'api', NOW).observation.source).toBe('api');
+	});
+});
+
+describe('pointings that cannot be coverage', () => {
+	it('refuses a pointing one second before the merger, by API, form or CSV, and takes one at the merger', () => {
+		const w = world();
+		const robot = { user: null, telescopeId: w.telescopeId, tokenId: null };
+		const before = '2026-12-01T23:59:59Z';
+		for (const [who, source] of [[robot, 'api'], [{ user: w.observer }, 'form']] as const) {
+			let err: ObservationError | null = null;
+			try {
+				report(who, { ...pointing(w, { observedAt: before }), telescopeId: w.telescopeId }, source, NOW);
+			} catch (e) {
+				err = e as ObservationError;
+			}
+			expect(err).toBeInstanceOf(ObservationError);
+			expect(err!.status).toBe(422);
+			expect(err!.fields.observedAt).toBe('this pointing (2026-12-01T23:59:59Z) was taken before the merger at 2026-12-02T00:00:00Z; only pointings after the merger count');
+		}
+		const csv = reportMany({ user: w.observer }, [pointing(w), pointing(w, { observedAt: before })].map((p) => ({ ...p, telescopeId: w.telescopeId })), 'csv', { lines: [2, 3], now: NOW });
+		expect(csv.results).toEqual([]);
+		expect(csv.errors).toEqual([{ line: 3, message: expect.stringContaining('before the merger at 2026-12-02T00:00:00Z') }]);
+		expect(db.select().from(table.observation).all()).toHaveLength(0);
+		expect(report(robot, pointing(w, { observedAt: '2026-12-02T00:00:00Z' }), 'api', NOW).observation.observedAt.toISOString()).toBe('2026-12-02T00:00:00.000Z');
+	});
+
+	it('refuses every pointing on a retracted event, saying so, and stores none', () => {
+		const w = world();
+		db.update(table.gwEvent).set({ state: 'retracted', retractedAt: new Date('2026-12-02T01:00:00Z') }).where(eq(table.gwEvent.id, w.eventId)).run();
+		const robot = { user: null, telescopeId: w.telescopeId, tokenId: null };
+		let err: ObservationError | null = null;
+		try {
+			report(robot, pointing(w), 'api', NOW);
+		} catch (e) {
+			err = e as ObservationError;
+		}
+		expect(err).toMatchObject({ status: 409, code: 'event_retracted' });
+		expect(err!.message).toMatch(/^S-obs-\d+ was retracted by the source \(2026-12-02T01:00:00Z\): observations are no longer recorded for it/);
+		const csv = reportMany({ user: w.observer }, [{ ...pointing(w), telescopeId: w.telescopeId }], 'csv', { now: NOW });
+		expect(csv.errors[0].message).toMatch(/was retracted by the source/);
+		expect(db.select().from(table.observation).all()).toHaveLength(0);
+	});
+
+	it('without a merger time, keeps the one-day window before the event arrived', () => {
+		const w = world();
+		db.update(table.gwEvent).set({ eventTime: null, createdAt: new Date('2026-12-02T00:00:00Z') }).where(eq(table.gwEvent.id, w.eventId)).run();
+		const robot = { user: null, telescopeId: w.telescopeId, tokenId: null };
+		expect(() => report(robot, pointing(w, { observedAt: '2026-11-30T23:00:00Z' }), 'api', NOW)).toThrow(/more than 1 day before the event arrived/);
+		expect(report(robot, pointing(w, { observedAt: '2026-12-01T12:00:00Z' }), 'api', NOW).observation.source).toBe('api');
 	});
 });
 

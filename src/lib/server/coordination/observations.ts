@@ -52,7 +52,8 @@ export interface ReportResult {
 
 /**
  * Store one pointing and complete the open claims it covers. Validation beyond the schema:
- * the time is at most 5 minutes ahead of `now` and no earlier than the event time − 1 day; the
+ * the event is not retracted; the time is at most 5 minutes ahead of `now` and not before the
+ * merger (or, when the merger time is unknown, not more than 1 day before the event arrived); the
  * filter is one of the telescope's (compared case-sensitively, since 'r' and 'R' are different
  * bands in common practice).
  */
@@ -105,6 +106,11 @@ function invalidPointing(fields: Record<string, string>): ObservationError {
 	);
 }
 
+/** An instant as ISO-8601 UTC, without the milliseconds when there are none. */
+function isoUtc(at: Date): string {
+	return at.toISOString().replace('.000Z', 'Z');
+}
+
 /** Validate one pointing against its telescope and event; throws ObservationError. */
 function prepare(reporter: Reporter, raw: ObservationInput, now: Date): Prepared {
 	const parsed = observationInput.safeParse(raw);
@@ -120,12 +126,24 @@ function prepare(reporter: Reporter, raw: ObservationInput, now: Date): Prepared
 		throw new ObservationError(403, 'forbidden', `Telescope ${scope.name} belongs to a team you are not a member of.`);
 	const event = db.select().from(table.gwEvent).where(eq(table.gwEvent.id, input.eventId)).get();
 	if (!event) throw new ObservationError(404, 'not_found', `No event ${input.eventId}.`);
+	// A retracted event has nothing left to cover: a pointing reported now would only inflate its coverage.
+	if (event.state === 'retracted')
+		throw new ObservationError(
+			409,
+			'event_retracted',
+			`${event.sourceEventId} was retracted by the source${event.retractedAt ? ` (${isoUtc(event.retractedAt)})` : ''}: observations are no longer recorded for it. Stop follow-up for this event.`
+		);
 
 	const fields: Record<string, string> = {};
 	const observedAt = new Date(input.observedAt);
 	if (observedAt.getTime() > now.getTime() + 5 * MIN) fields.observedAt = 'observedAt is more than 5 minutes in the future';
-	const eventTime = event.eventTime ?? event.createdAt;
-	if (observedAt.getTime() < eventTime.getTime() - DAY) fields.observedAt = 'observedAt is more than 1 day before the event';
+	if (event.eventTime) {
+		// Light from before the merger cannot hold its counterpart: such a pointing is not coverage.
+		if (observedAt.getTime() < event.eventTime.getTime())
+			fields.observedAt = `this pointing (${isoUtc(observedAt)}) was taken before the merger at ${isoUtc(event.eventTime)}; only pointings after the merger count`;
+	} else if (observedAt.getTime() < event.createdAt.getTime() - DAY) {
+		fields.observedAt = 'observedAt is more than 1 day before the event arrived (its merger time is not known)';
+	}
 	if (!scope.filters.includes(input.filter))
 		fields.filter = `filter "${input.filter}" is not one of ${scope.name}'s filters (${scope.filters.join(', ')}; case-sensitive)`;
 

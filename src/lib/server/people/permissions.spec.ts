@@ -32,6 +32,7 @@ describe('permissions table', () => {
 			'catalogs.manage': ['admin', 'coordinator'],
 			'claims.create': ['observer', 'coordinator'],
 			'claims.manage': ['coordinator'],
+			'targets.catalog': ['coordinator'],
 			'observations.report': ['observer', 'coordinator'],
 			'candidates.report': ['observer', 'coordinator']
 		};

@@ -30,6 +30,8 @@ export const PERMISSIONS = {
 	'catalogs.manage': { roles: ['admin', 'coordinator'] },
 	'claims.create': { roles: ['observer', 'coordinator'] },
 	'claims.manage': { roles: ['coordinator'] },
+	/** Switch the galaxy catalogue an event is ranked against (re-ranks it). */
+	'targets.catalog': { roles: ['coordinator'] },
 	'observations.report': { roles: ['observer', 'coordinator'], robot: true },
 	'candidates.report': { roles: ['observer', 'coordinator'], robot: true }
 } as const satisfies Record<string, { roles: readonly Role[]; robot?: boolean }>;

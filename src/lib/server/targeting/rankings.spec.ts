@@ -273,3 +273,54 @@ describe('targets: filtered paging on the read side', () => {
 		expect(byRa).toEqual([...byRa].sort((a, b) => a - b));
 	}, 120_000);
 });
+
+describe('targets: a ranking lost in a crash is made again', () => {
+	const rankingOf = (eventId: string) => ({
+		meta: database.select().from(table.eventTargetsMeta).where(eq(table.eventTargetsMeta.eventId, eventId)).get() ?? null,
+		galaxies: database.select().from(table.eventGalaxy).where(eq(table.eventGalaxy.eventId, eventId)).all().length,
+		fields: database.select().from(table.eventField).where(eq(table.eventField.eventId, eventId)).all().length
+	});
+
+	it('on start: an event with an analysed map and no ranking (the process stopped before ranking it) is ranked', async () => {
+		expect.hasAssertions();
+		// The state a kill right after the notice's 201 leaves: event and analysed map stored, ranking never made.
+		for (const s of stop) s();
+		stop = [onRecorded((m) => log.push(m))];
+		const r = await ingestWithMap(notice('bns-update.xml'), demoMap);
+		const eventId = r.eventId!;
+		const skymapId = database.select().from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get()!.latestSkymapId!;
+		expect(skymapId).toBeTruthy();
+		expect(rankingOf(eventId)).toEqual({ meta: null, galaxies: 0, fields: 0 });
+
+		// Start-up (hooks.server.ts `init` installs the ranking job).
+		stop.push(installTargets());
+		await targetsIdle();
+		const after = rankingOf(eventId);
+		expect(after.meta).toMatchObject({ skymapId, catalogId });
+		expect(after.galaxies).toBeGreaterThan(0);
+		expect(after.fields).toBeGreaterThan(0);
+		expect(log.filter((m) => m.type === 'targets.ranked' && m.room === 'board').map((m) => (m.payload as { eventId: string }).eventId)).toEqual([eventId]);
+		// Installing again finds nothing missing and ranks nothing twice.
+		stop.push(installTargets());
+		await targetsIdle();
+		expect(log.filter((m) => m.type === 'targets.ranked' && m.room === 'board')).toHaveLength(1);
+	}, 120_000);
+
+	it('after each processed notice: any other event whose current map lost its ranking is ranked again', async () => {
+		expect.hasAssertions();
+		const first = (await ingestWithMap(notice('bns-update.xml'), demoMap)).eventId!;
+		expect(rankingOf(first).galaxies).toBeGreaterThan(0);
+		// The ranking is lost (a failed job, a crash inside it): nothing else would ever redo it.
+		database.delete(table.eventTargetsMeta).where(eq(table.eventTargetsMeta.eventId, first)).run();
+		database.delete(table.eventGalaxy).where(eq(table.eventGalaxy.eventId, first)).run();
+		database.delete(table.eventField).where(eq(table.eventField.eventId, first)).run();
+		log = [];
+		// Another event's notice arrives (a black-hole merger without a usable map here).
+		const c = commitNotice(notice('bbh-initial.xml'), 'upload');
+		await processInbox(c.inboxId, { fetch: { allowedHosts: ['127.0.0.1'], timeoutMs: 500 } });
+		await targetsIdle();
+		expect(rankingOf(first).meta).toMatchObject({ catalogId });
+		expect(rankingOf(first).galaxies).toBeGreaterThan(0);
+		expect(log.filter((m) => m.type === 'targets.ranked' && m.room === 'board').map((m) => (m.payload as { eventId: string }).eventId)).toEqual([first]);
+	}, 120_000);
+});

@@ -1,6 +1,6 @@
 /**
  * From sky map to targets: when an event's sky map has been analysed, rank the galaxies of the
- * active catalogue inside its 99% credible region (Singer et al. 2016 galaxy targeting, see
+ * event's catalogue inside its 99% credible region (Singer et al. 2016 galaxy targeting, see
  * `lib/targeting/galaxies.ts`) and, for each wide-field telescope, the fields of its fixed sky
  * tiling by enclosed probability (`lib/targeting/fields.ts`). The rankings of an event are kept
  * for its current map only: a new map replaces them in one transaction.
@@ -17,7 +17,7 @@ import { onRecorded, record, SYSTEM, type Actor } from '../platform/realtime';
 import { JobQueue } from '../platform/periodic';
 import { restartService, service } from '../platform/services';
 import { skyMapById } from '../alerts/skymap-cache';
-import { activeCatalog, getCatalog } from './catalogs';
+import { getCatalog } from './catalogs';
 import { SUN_ABS_MAG_B } from '../../targeting/catalog-csv.ts';
 import { buildCatalogIndex, INDEX_ORDER, rankGalaxies, type CatalogIndex, type GalaxyCatalog, type WeightSource } from '../../targeting/galaxies.ts';
 import { rankFields, tileSky, type Tiling } from '../../targeting/fields.ts';
@@ -134,7 +134,8 @@ export function rankEvent(eventId: string, opts: { skymapId?: string; catalogId?
 	const map = skyMapById(skymapId);
 	if (!map) return null;
 
-	const catalogId = opts.catalogId === undefined ? (activeCatalog()?.id ?? null) : opts.catalogId;
+	// The event's own catalogue (chosen when it arrived, or by a coordinator since), not whatever was imported last.
+	const catalogId = opts.catalogId === undefined ? event.catalogId : opts.catalogId;
 	let galaxyRows: (typeof table.eventGalaxy.$inferInsert)[] = [];
 	let meta: Omit<typeof table.eventTargetsMeta.$inferInsert, 'fieldCounts' | 'computedAt' | 'computeMs'> = {
 		eventId,
@@ -223,36 +224,69 @@ function rankNewMap(eventId: string, skymapId: string): void {
 	rankEvent(eventId, { skymapId });
 }
 
-/** A new catalogue becomes the active one: rank the open events again with it, one job per event so that requests are served between them. */
-function rankOpenEvents(): void {
-	const open = db
+/**
+ * Events whose current sky map has no ranking: never ranked (the process stopped between the
+ * map's analysis and its ranking), or ranked for an older map. Each gets one job of its own.
+ * Returns their ids.
+ */
+export function rankMissing(): string[] {
+	const missing = db
 		.select({ id: table.gwEvent.id })
 		.from(table.gwEvent)
-		.where(and(eq(table.gwEvent.state, 'active'), sql`${table.gwEvent.latestSkymapId} IS NOT NULL`))
-		.all();
-	for (const e of open) {
+		.innerJoin(table.skymap, eq(table.skymap.id, table.gwEvent.latestSkymapId))
+		.leftJoin(table.eventTargetsMeta, eq(table.eventTargetsMeta.eventId, table.gwEvent.id))
+		.where(
+			and(
+				sql`${table.skymap.error} IS NULL`,
+				sql`${table.skymap.filePath} IS NOT NULL`,
+				sql`(${table.eventTargetsMeta.skymapId} IS NULL OR ${table.eventTargetsMeta.skymapId} <> ${table.gwEvent.latestSkymapId})`
+			)
+		)
+		.orderBy(asc(table.gwEvent.createdAt))
+		.all()
+		.map((r) => r.id);
+	for (const id of missing) {
 		rankingJobs().enqueue(() => {
-			try {
-				rankEvent(e.id);
-			} catch (err) {
-				console.error(`re-ranking ${e.id} failed`, err);
-			}
+			// Ranked meanwhile by the job an analysed map queued: nothing to do.
+			const now = db
+				.select({ map: table.gwEvent.latestSkymapId, ranked: table.eventTargetsMeta.skymapId })
+				.from(table.gwEvent)
+				.leftJoin(table.eventTargetsMeta, eq(table.eventTargetsMeta.eventId, table.gwEvent.id))
+				.where(eq(table.gwEvent.id, id))
+				.get();
+			if (!now?.map || now.ranked === now.map) return;
+			rankEvent(id);
 		});
 	}
+	return missing;
 }
 
-/** Start reacting to analysed sky maps and new catalogues. Installing twice replaces the first. */
+/**
+ * Start reacting to analysed sky maps, catalogue switches and processed notices, and rank at once
+ * any event whose current map has no ranking (a ranking under way when the process stopped is lost
+ * with it). A newly imported catalogue re-ranks nothing: it is the default for events that arrive
+ * from now on, and a coordinator switches an event under way to it on purpose (event-catalog.ts).
+ * Installing twice replaces the first.
+ */
 export function installTargets(): () => void {
 	return restartService('targets', () => {
-		// Logged to the board and the event's room: react to the board copy only.
-		const offAnalysed = onRecorded('skymap.analysed', ({ eventId, skymapId }, m) => {
-			if (m.room === 'board') rankingJobs().enqueue(() => rankNewMap(eventId, skymapId));
-		});
-		const offImported = onRecorded('catalog.imported', () => rankingJobs().enqueue(rankOpenEvents));
+		rankingJobs().enqueue(rankMissing);
+		// Each is logged to the board and the event's room: react to the board copy only.
+		const offs = [
+			onRecorded('skymap.analysed', ({ eventId, skymapId }, m) => {
+				if (m.room === 'board') rankingJobs().enqueue(() => rankNewMap(eventId, skymapId));
+			}),
+			onRecorded('targets.catalog-switched', ({ eventId }, m) => {
+				if (m.room === 'board') rankingJobs().enqueue(() => void rankEvent(eventId));
+			}),
+			// After every notice: a ranking that a crash or an error lost is made again.
+			onRecorded('notice.processed', (_p, m) => {
+				if (m.room === 'board') rankingJobs().enqueue(rankMissing);
+			})
+		];
 		return {
 			stop() {
-				offAnalysed();
-				offImported();
+				for (const off of offs) off();
 			}
 		};
 	});

@@ -239,6 +239,11 @@ export const gwEvent = sqliteTable(
 		classification: text('classification', { mode: 'json' }).$type<Classification>(),
 		properties: text('properties', { mode: 'json' }).$type<Record<string, number | boolean | null>>(),
 		latestSkymapId: text('latest_skymap_id'),
+		/**
+		 * The galaxy catalogue this event's galaxies are ranked against: the one in use when the event
+		 * arrived, until a coordinator switches it (a new import does not re-rank events under way).
+		 */
+		catalogId: text('catalog_id').references(() => catalog.id, { onDelete: 'set null' }),
 		triage: text('triage', { mode: 'json' }).$type<TriageVerdict>(),
 		retractedAt: integer('retracted_at', { mode: 'timestamp_ms' }),
 		closedAt: integer('closed_at', { mode: 'timestamp_ms' }),

@@ -10,6 +10,7 @@ import { eventCoverage } from '$lib/server/coordination/event-coverage';
 import { eventSky } from '$lib/server/targeting/event-sky';
 import { telescopesFor } from '$lib/server/people/scope';
 import { isWideField } from '$lib/targeting/telescope';
+import { claimsOutsideRanking } from '$lib/server/targeting/event-catalog';
 
 export const load: PageServerLoad = ({ params, locals, depends }) => {
 	requirePermission('events.view');
@@ -40,7 +41,9 @@ export const load: PageServerLoad = ({ params, locals, depends }) => {
 			galaxies: covered.galaxies,
 			computeMs: covered.computeMs
 		},
-		claiming: { telescopes, canClaim: telescopes.length > 0 && event.state === 'active' }
+		claiming: { telescopes, canClaim: telescopes.length > 0 && event.state === 'active' },
+		// Claims a re-ranking (another catalogue, a new map) left outside the ranking: shown, never hidden.
+		outside: claimsOutsideRanking(event.id)
 	};
 };
 

@@ -6,14 +6,26 @@ import * as claims from '$lib/server/coordination/claims';
 import { failFromError, validateForm } from '$lib/server/platform/forms';
 import { parseTargetQuery, targetsPageData } from '$lib/server/targeting/filters';
 import { LAPSE_MINUTES_MAX, LAPSE_MINUTES_MIN } from '$lib/limits';
+import { claimsOutsideRanking, eventCatalogView, switchEventCatalog } from '$lib/server/targeting/event-catalog';
+import { can } from '$lib/server/people/permissions';
 
 export const load: PageServerLoad = ({ params, url, depends, locals }) => {
 	requirePermission('events.view');
 	depends('app:targets');
 	const data = targetsPageData(params.eventId, parseTargetQuery(url.searchParams), locals.user ?? null);
 	if (!data) error(404, 'No such event.');
-	return data;
+	return {
+		...data,
+		catalog: { ...eventCatalogView(params.eventId)!, canSwitch: can({ user: locals.user }, 'targets.catalog') },
+		// Claims whose targets a re-ranking left out: listed apart so that nobody loses sight of them.
+		outside: claimsOutsideRanking(params.eventId)
+	};
 };
+
+const catalogForm = z.object({
+	catalogId: z.string({ error: 'Choose a catalogue.' }).trim().min(1, 'Choose a catalogue.').max(64, 'Choose one of the catalogues listed.'),
+	confirm: z.literal('yes', { error: 'Confirm the switch.' }).optional()
+});
 
 const claimForm = z.object({
 	targetKind: z.enum(['galaxy', 'field']),
@@ -77,6 +89,18 @@ export const actions: Actions = {
 			return { ok: true, target: null };
 		} catch (e) {
 			return failClaim(form, e);
+		}
+	},
+	/** Rank the event against another catalogue; a live event asks for confirmation first (answered with `confirmCatalog`). */
+	catalog: async ({ request, params }) => {
+		const user = requireUser('targets.catalog');
+		const v = await validateForm(request, catalogForm);
+		if (v.failure) return v.failure;
+		try {
+			const out = switchEventCatalog(user, params.eventId, v.data.catalogId, { confirmed: v.data.confirm === 'yes' });
+			return out.switched ? { catalogSwitched: out.preview } : { confirmCatalog: out.preview };
+		} catch (e) {
+			return failFromError(v.form, e);
 		}
 	},
 	lapse: async ({ request, params }) => {
