@@ -115,7 +115,8 @@ test('an observer reports a candidate (a bad magnitude first); another team sees
 		data: { name: 'AN-0002', raDeg: 400, decDeg: 0, discoveredAt, magnitude: 19, filter: 'r' }
 	});
 	expect(bad.status()).toBe(422);
-	expect(await bad.json()).toEqual({ error: { code: 'invalid', message: 'raDeg: RA must be in [0, 360)', details: { raDeg: 'RA must be in [0, 360)' } } });
+	const raRange = 'RA (deg, J2000) must be from 0 up to (not including) 360.';
+	expect(await bad.json()).toEqual({ error: { code: 'invalid', message: raRange, details: { raDeg: raRange } } });
 
 	// Every event's candidates, newest first, each linking to its event's page.
 	await a.goto('/candidates');

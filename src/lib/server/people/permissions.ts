@@ -23,7 +23,10 @@ export const PERMISSIONS = {
 	'mailbox.view': { roles: ['admin', 'coordinator'] },
 	'notices.submit': { roles: ['admin', 'coordinator', 'duty'] },
 	'events.acknowledge': { roles: ['duty', 'coordinator'] },
+	'triage.view': { roles: ['admin', 'coordinator', 'duty'] },
 	'triage.manage': { roles: ['admin', 'coordinator'] },
+	'notices.inbox': { roles: ['admin', 'coordinator', 'duty'] },
+	'notices.retry': { roles: ['admin', 'coordinator'] },
 	'shifts.manage': { roles: ['admin', 'coordinator'] },
 	'catalogs.manage': { roles: ['admin', 'coordinator'] },
 	'claims.create': { roles: ['observer', 'coordinator'] },
@@ -44,6 +47,11 @@ export function can(principal: Principal | null | undefined, permission: Permiss
 	if (!principal) return false;
 	if (principal.user) return principal.user.roles.some((r) => rule.roles.includes(r));
 	return Boolean(principal.telescopeId && rule.robot);
+}
+
+/** Every permission the principal holds: what the layout hands to pages to decide which links and buttons to show. */
+export function permissionsOf(principal: Principal | null | undefined): Permission[] {
+	return (Object.keys(PERMISSIONS) as Permission[]).filter((p) => can(principal, p));
 }
 
 /** Roles that hold a permission, for pages that explain who may do what. */

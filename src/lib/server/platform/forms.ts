@@ -1,5 +1,6 @@
 import { fail, type ActionFailure } from '@sveltejs/kit';
 import { z } from 'zod';
+import '../../field-messages';
 
 export type FieldErrors = Record<string, string>;
 

@@ -21,15 +21,14 @@ export const load: PageServerLoad = ({ params, locals, depends }) => {
 	const covered = eventCoverage(event.id);
 	const user = locals.user;
 	const coordinator = Boolean(user?.roles.includes('coordinator'));
-	// Telescopes the viewer may claim with: their teams' (coordinators: every one).
-	const telescopes = user && can({ user, telescopeId: null }, 'claims.create')
-		? listTelescopes()
-				.filter((t) => coordinator || user.teamIds.includes(t.teamId))
-				.map((t) => ({ id: t.id, name: t.name, teamName: t.teamName, wide: isWideField(t) }))
-		: [];
+	// Telescopes the viewer may use: their teams' (coordinators: every one).
+	const own = user ? listTelescopes().filter((t) => coordinator || user.teamIds.includes(t.teamId)) : [];
+	const telescopes = user && can({ user, telescopeId: null }, 'claims.create') ? own.map((t) => ({ id: t.id, name: t.name, teamName: t.teamName, wide: isWideField(t) })) : [];
 	return {
 		event,
 		canAcknowledge: can({ user }, 'events.acknowledge'),
+		// The report page is only useful to someone with a telescope to report for.
+		mayReport: Boolean(user && own.length && can({ user }, 'observations.report')),
 		sky: eventSky(event.id, current?.id ?? null, user, covered),
 		coverage: covered && {
 			observations: covered.observations,
