@@ -61,7 +61,7 @@ const TYPE_WORDS: Record<string, string> = {
 	date: 'a date'
 };
 
-type Issue = Parameters<NonNullable<Parameters<typeof z.config>[0]['customError']>>[0];
+type Issue = z.core.$ZodRawIssue;
 
 const bound = (v: unknown) => (typeof v === 'bigint' ? v.toString() : String(v));
 

@@ -46,7 +46,7 @@ test('an observer reports a candidate (a bad magnitude first); another team sees
 	await formA.getByLabel('Filter').fill('r');
 	await formA.getByLabel('Telescope (optional)').selectOption({ label: 'Pardo 0.6 m (Altiplano Nightwatch; g, r, i)' });
 	await formA.getByRole('button', { name: 'Report candidate' }).click();
-	await expect(a.getByTestId('error-magnitude')).toHaveText('magnitude must be 5–30 (AB)');
+	await expect(a.getByTestId('error-magnitude')).toHaveText('Magnitude (AB) must be from 5 to 30.');
 	// Everything typed is still there, the bad value included, so only it needs fixing.
 	await expect(formA.getByLabel('Name')).toHaveValue('AN-0001');
 	await expect(formA.getByLabel('RA (deg, J2000)')).toHaveValue('123.45678');

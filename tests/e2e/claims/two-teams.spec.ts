@@ -137,7 +137,7 @@ test('two teams contend for one galaxy: the second sees it taken live and is ref
 	await reportForm.getByLabel('Exposure (s)').fill('300');
 	await reportForm.getByLabel('Limiting magnitude (AB)').fill('45');
 	await reportForm.getByRole('button', { name: 'Report pointing' }).click();
-	await expect(a.getByTestId('error-limitingMag')).toContainText('limiting magnitude must be 5–30');
+	await expect(a.getByTestId('error-limitingMag')).toContainText('Limiting magnitude (AB) must be from 5 to 30.');
 	await expect(reportForm.getByLabel('RA (deg, J2000)')).toHaveValue(raDeg);
 	await expect(reportForm.getByLabel('Filter')).toHaveValue('r');
 	await a.screenshot({ path: `${SCREENS}/claims-4-report-error.png`, fullPage: true });
@@ -175,6 +175,6 @@ test('two teams contend for one galaxy: the second sees it taken live and is ref
 	await a.getByTestId('csv-file').setInputFiles(csv);
 	await a.getByTestId('upload-form').getByRole('button', { name: 'Upload' }).click();
 	await expect(a.getByTestId('csv-errors')).toContainText('Line 3:');
-	await expect(a.getByTestId('csv-errors')).toContainText('RA must be in [0, 360)');
+	await expect(a.getByTestId('csv-errors')).toContainText('RA (deg, J2000) must be from 0 up to (not including) 360.');
 	await a.screenshot({ path: `${SCREENS}/claims-6-csv-refused.png`, fullPage: true });
 });
