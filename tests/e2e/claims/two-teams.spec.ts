@@ -58,6 +58,7 @@ test('two teams contend for one galaxy: the second sees it taken live and is ref
 
 	// B claims the same galaxy anyway (a plain form post, as from a page that had not yet heard): refused, holder named.
 	const targetId = await rowB.getByTestId('claim-cell').getAttribute('data-target-id');
+	const galaxyName = (await rowB.locator('td').nth(1).innerText()).trim();
 	expect(targetId).toMatch(/^\d+$/);
 	const telescopeId = await b.getByTestId('claim-telescope').inputValue();
 	await b.evaluate(
@@ -78,7 +79,8 @@ test('two teams contend for one galaxy: the second sees it taken live and is ref
 		{ targetId: targetId!, telescopeId }
 	);
 	await expect(b.getByTestId('claim-message')).toContainText('Already taken by Altiplano Nightwatch');
-	await expect(b.getByTestId('claim-message')).toContainText(`galaxy ${targetId}`);
+	// The galaxy is named as its row names it, not by its catalogue row id.
+	await expect(b.getByTestId('claim-message')).toContainText(`: ${galaxyName}.`);
 	await b.screenshot({ path: `${SCREENS}/claims-2b-refused.png`, fullPage: true });
 	await b.goto(`/events/${eventId}/targets`);
 	await expect(b.locator('[data-hydrated="yes"]')).toBeVisible();
