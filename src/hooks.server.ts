@@ -2,6 +2,8 @@ import type { Handle, HandleServerError, ServerInit } from '@sveltejs/kit';
 import { sequence } from '@sveltejs/kit/hooks';
 import { openDatabase } from '$lib/server/platform/db';
 import * as auth from '$lib/server/people/auth';
+import { apiError } from '$lib/server/platform/api';
+import '$lib/field-messages';
 import { startMail } from '$lib/server/platform/mail';
 import { installRealtime } from '$lib/server/platform/realtime';
 import { installDuty } from '$lib/server/duty/paging';
@@ -26,12 +28,17 @@ const handleAuth: Handle = async ({ event, resolve }) => {
 	event.locals.telescopeId = null;
 
 	const header = event.request.headers.get('authorization');
-	if (header?.startsWith('Bearer ')) {
-		const principal = auth.validateApiToken(header.slice(7).trim());
-		if (principal) {
-			event.locals.user = principal.user;
-			event.locals.telescopeId = principal.telescopeId;
+	const bearer = header?.match(/^Bearer\s+(.*)$/i);
+	if (bearer) {
+		const principal = auth.validateApiToken(bearer[1].trim());
+		// A program holding a wrong, revoked or mistyped token is told so, rather than treated as nobody.
+		if (!principal) {
+			const response = apiError(401, 'invalid_token', 'This API token is not valid: it is unknown, revoked, or its person’s account is disabled. Check the token, or ask an administrator for a new one.');
+			response.headers.set('WWW-Authenticate', 'Bearer error="invalid_token"');
+			return response;
 		}
+		event.locals.user = principal.user;
+		event.locals.telescopeId = principal.telescopeId;
 		return resolve(event);
 	}
 
@@ -63,7 +70,8 @@ const handleHeaders: Handle = async ({ event, resolve }) => {
 	return response;
 };
 
-export const handle = sequence(handleAuth, handleHeaders);
+// Headers first, so that they are set on every answer, the early refusal of a bad token included.
+export const handle = sequence(handleHeaders, handleAuth);
 
 export const handleError: HandleServerError = ({ error, event, status, message }) => {
 	const errorId = crypto.randomUUID().slice(0, 8);

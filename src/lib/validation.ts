@@ -1,5 +1,6 @@
 import { z } from 'zod';
 import { ROLES_LIST } from './roles';
+import './field-messages';
 
 /** Limits shared by the forms' HTML attributes and the server's checks. */
 export const LIMITS = {

@@ -46,7 +46,7 @@ test('an observer reports a candidate (a bad magnitude first); another team sees
 	await formA.getByLabel('Filter').fill('r');
 	await formA.getByLabel('Telescope (optional)').selectOption({ label: 'Pardo 0.6 m (Altiplano Nightwatch; g, r, i)' });
 	await formA.getByRole('button', { name: 'Report candidate' }).click();
-	await expect(a.getByTestId('error-magnitude')).toHaveText('magnitude must be 5–30 (AB)');
+	await expect(a.getByTestId('error-magnitude')).toHaveText('Magnitude (AB) must be from 5 to 30.');
 	// Everything typed is still there, the bad value included, so only it needs fixing.
 	await expect(formA.getByLabel('Name')).toHaveValue('AN-0001');
 	await expect(formA.getByLabel('RA (deg, J2000)')).toHaveValue('123.45678');
@@ -115,7 +115,8 @@ test('an observer reports a candidate (a bad magnitude first); another team sees
 		data: { name: 'AN-0002', raDeg: 400, decDeg: 0, discoveredAt, magnitude: 19, filter: 'r' }
 	});
 	expect(bad.status()).toBe(422);
-	expect(await bad.json()).toEqual({ error: { code: 'invalid', message: 'raDeg: RA must be in [0, 360)', details: { raDeg: 'RA must be in [0, 360)' } } });
+	const raRange = 'RA (deg, J2000) must be from 0 up to (not including) 360.';
+	expect(await bad.json()).toEqual({ error: { code: 'invalid', message: raRange, details: { raDeg: raRange } } });
 
 	// Every event's candidates, newest first, each linking to its event's page.
 	await a.goto('/candidates');

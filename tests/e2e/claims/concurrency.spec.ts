@@ -141,8 +141,10 @@ test('100 simultaneous claims: one 201, 99 × 409, one row, one live message; a 
 		});
 		expect(bad.status()).toBe(422);
 		const badBody = await bad.json();
-		expect(badBody.error.message).toContain('raDeg');
-		expect(badBody.error.message).toContain('exposureS');
+		// Named as the report form labels them, not by the JSON keys.
+		expect(badBody.error.message).toContain('RA (deg, J2000)');
+		expect(badBody.error.message).toContain('Exposure (s)');
+		expect(badBody.error.details).toMatchObject({ raDeg: expect.any(String), exposureS: expect.any(String) });
 
 		// A CSV upload by the same token: all rows or none.
 		const csvUrl = `/api/v1/observations?eventId=${encodeURIComponent(eventId)}`;
@@ -151,7 +153,7 @@ test('100 simultaneous claims: one 201, 99 × 409, one row, one live message; a 
 		const header = 'observed_at,ra_deg,dec_deg,filter,exposure_s,limiting_mag';
 		const badCsv = await request.post(csvUrl, { headers: csvHeaders, data: `${header}\n${at},10,10,${filter},60,20\n${at},10,95,${filter},60,20\n` });
 		expect(badCsv.status()).toBe(422);
-		expect((await badCsv.json()).error.details).toEqual([{ line: 3, message: expect.stringContaining('decDeg') }]);
+		expect((await badCsv.json()).error.details).toEqual([{ line: 3, message: expect.stringContaining('Dec (deg, J2000)') }]);
 		const goodCsv = await request.post(csvUrl, { headers: csvHeaders, data: `${header}\n${at},10,10,${filter},60,20\n${at},11,10,${filter},60,20\n` });
 		expect(goodCsv.status()).toBe(201);
 		expect((await goodCsv.json()).results).toHaveLength(2);

@@ -58,6 +58,7 @@ test('two teams contend for one galaxy: the second sees it taken live and is ref
 
 	// B claims the same galaxy anyway (a plain form post, as from a page that had not yet heard): refused, holder named.
 	const targetId = await rowB.getByTestId('claim-cell').getAttribute('data-target-id');
+	const galaxyName = (await rowB.locator('td').nth(1).innerText()).trim();
 	expect(targetId).toMatch(/^\d+$/);
 	const telescopeId = await b.getByTestId('claim-telescope').inputValue();
 	await b.evaluate(
@@ -78,7 +79,8 @@ test('two teams contend for one galaxy: the second sees it taken live and is ref
 		{ targetId: targetId!, telescopeId }
 	);
 	await expect(b.getByTestId('claim-message')).toContainText('Already taken by Altiplano Nightwatch');
-	await expect(b.getByTestId('claim-message')).toContainText(`galaxy ${targetId}`);
+	// The galaxy is named as its row names it, not by its catalogue row id.
+	await expect(b.getByTestId('claim-message')).toContainText(`: ${galaxyName}.`);
 	await b.screenshot({ path: `${SCREENS}/claims-2b-refused.png`, fullPage: true });
 	await b.goto(`/events/${eventId}/targets`);
 	await expect(b.locator('[data-hydrated="yes"]')).toBeVisible();
@@ -137,7 +139,7 @@ test('two teams contend for one galaxy: the second sees it taken live and is ref
 	await reportForm.getByLabel('Exposure (s)').fill('300');
 	await reportForm.getByLabel('Limiting magnitude (AB)').fill('45');
 	await reportForm.getByRole('button', { name: 'Report pointing' }).click();
-	await expect(a.getByTestId('error-limitingMag')).toContainText('limiting magnitude must be 5–30');
+	await expect(a.getByTestId('error-limitingMag')).toContainText('Limiting magnitude (AB) must be from 5 to 30.');
 	await expect(reportForm.getByLabel('RA (deg, J2000)')).toHaveValue(raDeg);
 	await expect(reportForm.getByLabel('Filter')).toHaveValue('r');
 	await a.screenshot({ path: `${SCREENS}/claims-4-report-error.png`, fullPage: true });
@@ -175,6 +177,6 @@ test('two teams contend for one galaxy: the second sees it taken live and is ref
 	await a.getByTestId('csv-file').setInputFiles(csv);
 	await a.getByTestId('upload-form').getByRole('button', { name: 'Upload' }).click();
 	await expect(a.getByTestId('csv-errors')).toContainText('Line 3:');
-	await expect(a.getByTestId('csv-errors')).toContainText('RA must be in [0, 360)');
+	await expect(a.getByTestId('csv-errors')).toContainText('RA (deg, J2000) must be from 0 up to (not including) 360.');
 	await a.screenshot({ path: `${SCREENS}/claims-6-csv-refused.png`, fullPage: true });
 });

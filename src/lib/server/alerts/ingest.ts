@@ -152,6 +152,22 @@ export async function retryPending(opts: IngestOptions = {}): Promise<IngestOutc
 	return out;
 }
 
+/**
+ * Process a refused or failed inbox row again, on a person's request (the notice inbox page):
+ * the row is opened again (attempts from zero) and goes through the same steps as a new one.
+ * A row whose notice was stored is left as it is and answers 'already-processed'; a row being
+ * processed now shares that run. Returns undefined when there is no such row.
+ */
+export async function reprocessNotice(inboxId: number, opts: IngestOptions = {}): Promise<IngestOutcome | undefined> {
+	const row = db.select().from(table.noticeInbox).where(eq(table.noticeInbox.id, inboxId)).get();
+	if (!row) return undefined;
+	const running = inFlight.get(inboxId);
+	if (running) return running;
+	const stored = db.select({ id: table.notice.id }).from(table.notice).where(eq(table.notice.inboxId, inboxId)).get();
+	if (!stored) db.update(table.noticeInbox).set({ processedAt: null, error: null, attempts: 0 }).where(eq(table.noticeInbox.id, inboxId)).run();
+	return processInbox(inboxId, opts);
+}
+
 function rooms(eventId: string) {
 	return ['board', `event:${eventId}`] as const;
 }

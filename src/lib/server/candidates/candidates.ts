@@ -16,6 +16,7 @@ import { can } from '../people/permissions';
 import { DomainError } from '../platform/errors';
 import { actsForEveryTeam, mayUseTeam, mayUseTelescope } from '../people/scope';
 import { getTelescope } from '../people/telescopes';
+import '../../field-messages';
 
 const MIN = 60_000;
 const DAY = 24 * 60 * MIN;
@@ -26,26 +27,29 @@ export const NEAR_ARCSEC = 2;
 
 export class CandidateError extends DomainError {}
 
-const num = (what: string) => z.number({ error: `${what} must be a number` });
+const RA_RANGE = 'RA (deg, J2000) must be from 0 up to (not including) 360.';
+const DEC_RANGE = 'Dec (deg, J2000) must be from −90 to 90.';
+const MAG_RANGE = 'Magnitude (AB) must be from 5 to 30.';
+const MAG_ERR_RANGE = 'Magnitude error must be from 0 to 5.';
 
 /** One candidate as reported. Numbers are numbers (forms convert first); times are ISO 8601. */
 export const candidateInput = z.object({
 	eventId: z.string().min(1).max(80),
 	name: z
-		.string({ error: 'name is required' })
+		.string({ error: 'Name is required.' })
 		.trim()
-		.min(1, 'name is required')
-		.max(40, 'name must be at most 40 characters')
-		.regex(/^[A-Za-z0-9._-]+$/, 'name may contain letters, digits, "-", "_" and "." only'),
-	raDeg: num('RA').min(0, 'RA must be in [0, 360)').lt(360, 'RA must be in [0, 360)'),
-	decDeg: num('Dec').min(-90, 'Dec must be in [−90, 90]').max(90, 'Dec must be in [−90, 90]'),
-	discoveredAt: z.iso.datetime({ offset: true, error: 'discoveredAt must be an ISO 8601 time, e.g. 2026-12-02T03:04:05Z' }),
-	magnitude: num('magnitude').min(5, 'magnitude must be 5–30 (AB)').max(30, 'magnitude must be 5–30 (AB)'),
-	magnitudeErr: num('magnitude error').min(0, 'magnitude error must be ≥ 0').max(5, 'magnitude error must be at most 5').optional(),
-	filter: z.string({ error: 'filter is required' }).trim().min(1, 'filter is required').max(10, 'filter must be at most 10 characters'),
+		.min(1, 'Name is required.')
+		.max(40, 'Name may be at most 40 characters.')
+		.regex(/^[A-Za-z0-9._-]+$/, 'Name may contain letters, digits, "-", "_" and "." only.'),
+	raDeg: z.number().min(0, RA_RANGE).lt(360, RA_RANGE),
+	decDeg: z.number().min(-90, DEC_RANGE).max(90, DEC_RANGE),
+	discoveredAt: z.iso.datetime({ offset: true }),
+	magnitude: z.number().min(5, MAG_RANGE).max(30, MAG_RANGE),
+	magnitudeErr: z.number().min(0, MAG_ERR_RANGE).max(5, MAG_ERR_RANGE).optional(),
+	filter: z.string({ error: 'Filter is required.' }).trim().min(1, 'Filter is required.').max(10, 'Filter may be at most 10 characters.'),
 	telescopeId: z.string().min(1).max(80).optional(),
 	teamId: z.string().min(1).max(80).optional(),
-	notes: z.string().max(2000, 'notes must be at most 2000 characters').optional()
+	notes: z.string().max(2000, 'Notes may be at most 2000 characters.').optional()
 });
 export type CandidateInput = z.input<typeof candidateInput>;
 
@@ -128,10 +132,7 @@ function fieldErrorsOf(e: z.ZodError): Record<string, string> {
 	return out;
 }
 
-const joinFields = (fields: Record<string, string>) =>
-	Object.entries(fields)
-		.map(([k, v]) => `${k}: ${v}`)
-		.join('; ');
+const joinFields = (fields: Record<string, string>) => Object.values(fields).join(' ');
 
 /** The candidate already holding this name in the event (case-insensitive), with its team. */
 function holderOfName(eventId: string, name: string) {
@@ -176,26 +177,26 @@ function resolveScope(reporter: CandidateReporter, input: z.output<typeof candid
 	const coordinator = reporter.user ? actsForEveryTeam(reporter.user) : false;
 	if (telescopeId) {
 		const scope = getTelescope(telescopeId);
-		if (!scope) throw new CandidateError(404, 'not_found', `No telescope ${telescopeId}.`, { telescopeId: 'unknown telescope' });
+		if (!scope) throw new CandidateError(404, 'not_found', `No telescope ${telescopeId}.`, { telescopeId: 'Telescope is not known.' });
 		if (reporter.user && !mayUseTelescope(reporter.user, scope))
-			throw new CandidateError(403, 'forbidden', `Telescope ${scope.name} belongs to a team you are not a member of.`, { telescopeId: 'not one of your teams’ telescopes' });
+			throw new CandidateError(403, 'forbidden', `Telescope ${scope.name} belongs to a team you are not a member of.`, { telescopeId: 'Telescope is not one of your teams’ telescopes.' });
 		if (input.teamId && input.teamId !== scope.teamId)
-			throw new CandidateError(422, 'invalid', `teamId: ${scope.name} belongs to another team; leave teamId out or give the telescope's team`, {
-				teamId: `${scope.name} belongs to another team`
+			throw new CandidateError(422, 'invalid', `${scope.name} belongs to another team; leave the team out or give the telescope's team.`, {
+				teamId: `${scope.name} belongs to another team.`
 			});
 		return { scope, teamId: scope.teamId };
 	}
 	const user = reporter.user!;
 	if (input.teamId) {
 		if (!mayUseTeam(user, input.teamId))
-			throw new CandidateError(403, 'forbidden', 'You may report only for a team you are a member of.', { teamId: 'not one of your teams' });
+			throw new CandidateError(403, 'forbidden', 'You may report only for a team you are a member of.', { teamId: 'Team is not one of yours.' });
 		if (!db.select({ id: table.team.id }).from(table.team).where(eq(table.team.id, input.teamId)).get())
-			throw new CandidateError(404, 'not_found', `No team ${input.teamId}.`, { teamId: 'unknown team' });
+			throw new CandidateError(404, 'not_found', `No team ${input.teamId}.`, { teamId: 'Team is not known.' });
 		return { scope: null, teamId: input.teamId };
 	}
 	if (!coordinator && user.teamIds.length === 1) return { scope: null, teamId: user.teamIds[0] };
 	if (!coordinator && user.teamIds.length === 0) throw new CandidateError(403, 'forbidden', 'You are not a member of any team, so there is no team to report for.');
-	throw new CandidateError(422, 'invalid', 'teamId: choose the team this candidate is reported for (or the telescope)', { teamId: 'choose the team (or the telescope)' });
+	throw new CandidateError(422, 'invalid', 'Team is missing: choose the team this candidate is reported for (or the telescope).', { teamId: 'Team is missing: choose the team (or the telescope).' });
 }
 
 /**
@@ -226,15 +227,15 @@ export function reportCandidate(reporter: CandidateReporter, raw: CandidateInput
 	const fields: Record<string, string> = {};
 	const discoveredAt = new Date(input.discoveredAt);
 	const eventTime = event.eventTime ?? event.createdAt;
-	if (discoveredAt.getTime() > now.getTime() + 5 * MIN) fields.discoveredAt = 'discoveredAt is more than 5 minutes in the future';
-	else if (discoveredAt.getTime() < eventTime.getTime() - DAY) fields.discoveredAt = 'discoveredAt is more than 1 day before the merger';
+	if (discoveredAt.getTime() > now.getTime() + 5 * MIN) fields.discoveredAt = 'Discovered (UTC) is more than 5 minutes in the future.';
+	else if (discoveredAt.getTime() < eventTime.getTime() - DAY) fields.discoveredAt = 'Discovered (UTC) is more than 1 day before the merger.';
 	if (scope && !scope.filters.includes(input.filter))
-		fields.filter = `filter "${input.filter}" is not one of ${scope.name}'s filters (${scope.filters.join(', ')}; case-sensitive)`;
+		fields.filter = `The filter "${input.filter}" is not one of ${scope.name}'s filters (${scope.filters.join(', ')}; case-sensitive).`;
 	if (Object.keys(fields).length) throw new CandidateError(422, 'invalid', joinFields(fields), fields);
 
 	const taken = (holder: { name: string; teamName: string } | undefined) =>
 		new CandidateError(409, 'name_taken', `Candidate ${holder?.name ?? input.name} is already reported for this event by ${holder?.teamName ?? 'another team'}.`, {
-			name: `already reported by ${holder?.teamName ?? 'another team'}`
+			name: `Name already reported by ${holder?.teamName ?? 'another team'}.`
 		});
 	const holder = holderOfName(event.id, input.name);
 	if (holder) throw taken(holder);

@@ -146,6 +146,9 @@ describe('claim', () => {
 		expect(err).toBeInstanceOf(claims.ClaimTaken);
 		expect((err as claims.ClaimTaken).status).toBe(409);
 		expect((err as Error).message).toMatch(/^Already taken by North Ridge \(test\) \(Ridge 1m \(test\)\)/);
+		// The target is named as the targets table names it (the galaxy's name), not by its row id.
+		expect((err as Error).message).toMatch(/: TG \d+\.$/);
+		expect((err as Error).message).not.toContain(`galaxy ${s.galaxyId}`);
 		expect(heard.filter((m) => m.type === 'claim.claimed')).toHaveLength(1);
 		expect(heard[0].room).toBe(`event:${s.eventId}`);
 	});

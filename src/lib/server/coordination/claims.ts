@@ -145,7 +145,7 @@ function payloadOf(c: table.Claim): ClaimFields {
 export function claim(user: SessionUser, input: ClaimInput, now = new Date()): table.Claim {
 	const filter = input.filter ?? '';
 	const epoch = input.epoch ?? 1;
-	if (!Number.isInteger(epoch) || epoch < 1) throw new ClaimError(422, 'invalid', 'epoch must be an integer ≥ 1.');
+	if (!Number.isInteger(epoch) || epoch < 1) throw new ClaimError(422, 'invalid', 'Epoch must be a whole number from 1 up.');
 	const scope = telescopeOf(input.telescopeId);
 	if (!mayUseTelescope(user, scope))
 		throw new ClaimError(403, 'forbidden', `Telescope ${scope.name} belongs to a team you are not a member of.`);
@@ -153,10 +153,14 @@ export function claim(user: SessionUser, input: ClaimInput, now = new Date()): t
 		throw new ClaimError(422, 'invalid', `Telescope ${scope.name} has no filter "${filter}" (filters are case-sensitive: ${scope.filters.join(', ')}).`);
 	const key = { eventId: input.eventId, targetKind: input.targetKind, targetId: input.targetId, filter, epoch };
 	let row: table.Claim;
+	// What the targets table calls it: the galaxy's name, the field's label.
+	let targetName = `${input.targetKind} ${input.targetId}`;
 	try {
 		row = db.transaction((tx) => {
 			openEvent(input.eventId);
-			checkSun(checkTarget(input.eventId, input.targetKind, input.targetId), scope, now);
+			const target = checkTarget(input.eventId, input.targetKind, input.targetId);
+			targetName = input.targetKind === 'galaxy' ? target.name : `field ${target.name}`;
+			checkSun(target, scope, now);
 			return tx
 				.insert(table.claim)
 				.values({ id: randomId(), ...key, telescopeId: scope.id, teamId: scope.teamId, userId: user.id, state: 'claimed', claimedAt: now, note: input.note ?? '' })
@@ -168,7 +172,7 @@ export function claim(user: SessionUser, input: ClaimInput, now = new Date()): t
 		const holder = holderOf(key);
 		const who = holder ? `${holder.teamName} (${holder.telescopeName})` : 'another team';
 		throw new ClaimTaken(
-			`Already taken by ${who}${holder ? `, ${holder.state}` : ''}: ${input.targetKind} ${input.targetId}${filter ? ` in ${filter}` : ''}, epoch ${epoch}.`,
+			`Already taken by ${who}${holder ? `, ${holder.state}` : ''}: ${targetName}${filter ? ` in ${filter}` : ''}${epoch > 1 ? `, epoch ${epoch}` : ''}.`,
 			holder ?? { claimId: '', teamName: '', telescopeName: '', state: '' }
 		);
 	}

@@ -129,13 +129,13 @@ describe('report', () => {
 		expect(err!.fields.filter).toMatch(/case-sensitive/);
 		// Before the merger (00:00 UTC): refused with both times, in ISO UTC.
 		expect(() => report(robot, pointing(w, { observedAt: '2026-11-30T23:00:00Z' }), 'api', NOW)).toThrow(
-			'observedAt: this pointing (2026-11-30T23:00:00Z) was taken before the merger at 2026-12-02T00:00:00Z; only pointings after the merger count'
+			'This pointing (2026-11-30T23:00:00Z) was taken before the merger at 2026-12-02T00:00:00Z; only pointings after the merger count.'
 		);
-		expect(() => report(robot, pointing(w, { raDeg: 360 }), 'api', NOW)).toThrow(/RA must be in/);
-		expect(() => report(robot, pointing(w, { decDeg: -91 }), 'api', NOW)).toThrow(/Dec must be in/);
-		expect(() => report(robot, pointing(w, { exposureS: 0 }), 'api', NOW)).toThrow(/exposure must be > 0/);
-		expect(() => report(robot, pointing(w, { limitingMag: 31 }), 'api', NOW)).toThrow(/limiting magnitude/);
-		expect(() => report(robot, pointing(w, { seeingArcsec: 25 }), 'api', NOW)).toThrow(/seeing/);
+		expect(() => report(robot, pointing(w, { raDeg: 360 }), 'api', NOW)).toThrow(/RA \(deg, J2000\) must be from 0/);
+		expect(() => report(robot, pointing(w, { decDeg: -91 }), 'api', NOW)).toThrow(/Dec \(deg, J2000\) must be from −90 to 90/);
+		expect(() => report(robot, pointing(w, { exposureS: 0 }), 'api', NOW)).toThrow(/Exposure \(s\) must be greater than 0/);
+		expect(() => report(robot, pointing(w, { limitingMag: 31 }), 'api', NOW)).toThrow(/Limiting magnitude \(AB\) must be from 5 to 30/);
+		expect(() => report(robot, pointing(w, { seeingArcsec: 25 }), 'api', NOW)).toThrow(/Seeing \(arcsec\) must be greater than 0/);
 		expect(db.select().from(table.observation).all()).toHaveLength(0);
 		// 4 minutes ahead is tolerated (clock skew).
 		expect(report(robot, pointing(w, { observedAt: '2026-12-02T03:04:00Z' }), 'api', NOW).observation.source).toBe('api');
@@ -156,7 +156,7 @@ describe('pointings that cannot be coverage', () => {
 			}
 			expect(err).toBeInstanceOf(ObservationError);
 			expect(err!.status).toBe(422);
-			expect(err!.fields.observedAt).toBe('this pointing (2026-12-01T23:59:59Z) was taken before the merger at 2026-12-02T00:00:00Z; only pointings after the merger count');
+			expect(err!.fields.observedAt).toBe('This pointing (2026-12-01T23:59:59Z) was taken before the merger at 2026-12-02T00:00:00Z; only pointings after the merger count.');
 		}
 		const csv = reportMany({ user: w.observer }, [pointing(w), pointing(w, { observedAt: before })].map((p) => ({ ...p, telescopeId: w.telescopeId })), 'csv', { lines: [2, 3], now: NOW });
 		expect(csv.results).toEqual([]);
@@ -231,9 +231,9 @@ describe('parseObservationCsv', () => {
 		);
 		expect(out.rows).toEqual([]);
 		expect(out.errors.map((e) => e.line)).toEqual([3, 4, 4, 5]);
-		expect(out.errors[0].message).toMatch(/raDeg: RA must be in/);
-		expect(out.errors[1].message).toMatch(/observedAt/);
-		expect(out.errors[2].message).toMatch(/exposure must be > 0/);
+		expect(out.errors[0].message).toMatch(/^RA \(deg, J2000\) must be from 0/);
+		expect(out.errors[1].message).toMatch(/^Time \(UTC\) must be an ISO 8601 time/);
+		expect(out.errors[2].message).toMatch(/^Exposure \(s\) must be greater than 0/);
 		expect(out.errors[3].message).toMatch(/4 cells, header has 8/);
 	});
 	it('names missing and unknown columns on line 1', () => {

@@ -16,28 +16,35 @@ import { splitCsvLine } from '../../csv';
 import { DomainError } from '../platform/errors';
 import { mayUseTelescope } from '../people/scope';
 import { getTelescope } from '../people/telescopes';
+import '../../field-messages';
 
 const MIN = 60_000;
 const DAY = 24 * 60 * MIN;
 
 export class ObservationError extends DomainError {}
 
+const RA_RANGE = 'RA (deg, J2000) must be from 0 up to (not including) 360.';
+const DEC_RANGE = 'Dec (deg, J2000) must be from −90 to 90.';
+const EXPOSURE_RANGE = 'Exposure (s) must be greater than 0 and at most 86 400 (one day).';
+const MAG_RANGE = 'Limiting magnitude (AB) must be from 5 to 30.';
+const SEEING_RANGE = 'Seeing (arcsec) must be greater than 0 and at most 20.';
+
 /** One pointing as reported; either (raDeg, decDeg) or fieldId must be given. */
 const pointingShape = z.object({
 		eventId: z.string().min(1).max(80),
 		telescopeId: z.string().min(1).max(80).optional(),
-		observedAt: z.iso.datetime({ offset: true, message: 'observedAt must be an ISO 8601 time, e.g. 2026-12-02T03:04:05Z' }),
-		raDeg: z.number().min(0, 'RA must be in [0, 360)').lt(360, 'RA must be in [0, 360)').optional(),
-		decDeg: z.number().min(-90, 'Dec must be in [−90, 90]').max(90, 'Dec must be in [−90, 90]').optional(),
+		observedAt: z.iso.datetime({ offset: true }),
+		raDeg: z.number().min(0, RA_RANGE).lt(360, RA_RANGE).optional(),
+		decDeg: z.number().min(-90, DEC_RANGE).max(90, DEC_RANGE).optional(),
 		fieldId: z.string().min(1).max(80).optional(),
 		filter: z.string().min(1).max(20),
-		exposureS: z.number().gt(0, 'exposure must be > 0 s').max(86_400),
-		limitingMag: z.number().min(5, 'limiting magnitude must be 5–30').max(30, 'limiting magnitude must be 5–30'),
-		seeingArcsec: z.number().gt(0, 'seeing must be in (0, 20] arcsec').max(20, 'seeing must be in (0, 20] arcsec').optional(),
+		exposureS: z.number().gt(0, EXPOSURE_RANGE).max(86_400, EXPOSURE_RANGE),
+		limitingMag: z.number().min(5, MAG_RANGE).max(30, MAG_RANGE),
+		seeingArcsec: z.number().gt(0, SEEING_RANGE).max(20, SEEING_RANGE).optional(),
 		notes: z.string().max(2000).optional()
 	});
 export const observationInput = pointingShape.refine((o) => (o.raDeg !== undefined && o.decDeg !== undefined) || o.fieldId !== undefined, {
-		message: 'give raDeg and decDeg, or fieldId',
+		message: 'Give RA and Dec, or a field id.',
 		path: ['raDeg']
 	});
 export type ObservationInput = z.infer<typeof observationInput>;
@@ -99,9 +106,7 @@ function invalidPointing(fields: Record<string, string>): ObservationError {
 	return new ObservationError(
 		422,
 		'invalid',
-		Object.entries(fields)
-			.map(([k, v]) => `${k}: ${v}`)
-			.join('; '),
+		Object.values(fields).join(' '),
 		fields
 	);
 }
@@ -117,7 +122,7 @@ function prepare(reporter: Reporter, raw: ObservationInput, now: Date): Prepared
 	if (!parsed.success) throw invalidPointing(fieldErrors(parsed.error));
 	const input = parsed.data;
 	const telescopeId = reporter.user ? input.telescopeId : reporter.telescopeId;
-	if (!telescopeId) throw new ObservationError(422, 'invalid', 'telescopeId: required when a person reports', { telescopeId: 'required' });
+	if (!telescopeId) throw new ObservationError(422, 'invalid', 'Telescope is missing: say which telescope made the pointing.', { telescopeId: 'Telescope is missing: say which telescope made the pointing.' });
 	if (!reporter.user && input.telescopeId && input.telescopeId !== reporter.telescopeId)
 		throw new ObservationError(403, 'forbidden', "A telescope token reports for its own telescope only.");
 	const scope = getTelescope(telescopeId);
@@ -136,16 +141,16 @@ function prepare(reporter: Reporter, raw: ObservationInput, now: Date): Prepared
 
 	const fields: Record<string, string> = {};
 	const observedAt = new Date(input.observedAt);
-	if (observedAt.getTime() > now.getTime() + 5 * MIN) fields.observedAt = 'observedAt is more than 5 minutes in the future';
+	if (observedAt.getTime() > now.getTime() + 5 * MIN) fields.observedAt = 'Time (UTC) is more than 5 minutes in the future.';
 	if (event.eventTime) {
 		// Light from before the merger cannot hold its counterpart: such a pointing is not coverage.
 		if (observedAt.getTime() < event.eventTime.getTime())
-			fields.observedAt = `this pointing (${isoUtc(observedAt)}) was taken before the merger at ${isoUtc(event.eventTime)}; only pointings after the merger count`;
+			fields.observedAt = `This pointing (${isoUtc(observedAt)}) was taken before the merger at ${isoUtc(event.eventTime)}; only pointings after the merger count.`;
 	} else if (observedAt.getTime() < event.createdAt.getTime() - DAY) {
-		fields.observedAt = 'observedAt is more than 1 day before the event arrived (its merger time is not known)';
+		fields.observedAt = 'Time (UTC) is more than 1 day before the event arrived (its merger time is not known).';
 	}
 	if (!scope.filters.includes(input.filter))
-		fields.filter = `filter "${input.filter}" is not one of ${scope.name}'s filters (${scope.filters.join(', ')}; case-sensitive)`;
+		fields.filter = `The filter "${input.filter}" is not one of ${scope.name}'s filters (${scope.filters.join(', ')}; case-sensitive).`;
 
 	let raDeg = input.raDeg;
 	let decDeg = input.decDeg;
@@ -155,7 +160,7 @@ function prepare(reporter: Reporter, raw: ObservationInput, now: Date): Prepared
 			.from(table.eventField)
 			.where(and(eq(table.eventField.eventId, event.id), eq(table.eventField.telescopeId, scope.id), eq(table.eventField.fieldId, input.fieldId!)))
 			.get();
-		if (!f) fields.fieldId = `field ${input.fieldId} is not among this event's fields for ${scope.name}; give raDeg/decDeg`;
+		if (!f) fields.fieldId = `Field ${input.fieldId} is not among this event's fields for ${scope.name}; give RA and Dec instead.`;
 		else ({ raDeg, decDeg } = f);
 	}
 	if (Object.keys(fields).length) throw invalidPointing(fields);
@@ -318,7 +323,7 @@ export function parseObservationCsv(
 		};
 		const parsed = schema.safeParse(candidate);
 		if (!parsed.success) {
-			for (const [k, v] of Object.entries(fieldErrors(parsed.error))) errors.push({ line: n + 1, message: `${k}: ${v}` });
+			for (const message of Object.values(fieldErrors(parsed.error))) errors.push({ line: n + 1, message });
 			continue;
 		}
 		if ((parsed.data.raDeg === undefined || parsed.data.decDeg === undefined) && !parsed.data.fieldId) {

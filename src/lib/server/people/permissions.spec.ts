@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { can, PERMISSIONS, rolesOutOfReach, type Permission } from './permissions';
+import { can, PERMISSIONS, permissionsOf, rolesOutOfReach, type Permission } from './permissions';
 import { ROLES, type Role } from '../platform/db/schema';
 
 const person = (...roles: Role[]) => ({ user: { id: 'u', email: 'u@x.test', name: 'U', roles, teamIds: [] } });
@@ -27,7 +27,10 @@ describe('permissions table', () => {
 			'mailbox.view': ['admin'],
 			'notices.submit': ['admin', 'coordinator', 'duty'],
 			'events.acknowledge': ['duty', 'coordinator'],
+			'triage.view': ['admin', 'coordinator', 'duty'],
 			'triage.manage': ['admin', 'coordinator'],
+			'notices.inbox': ['admin', 'coordinator', 'duty'],
+			'notices.retry': ['admin', 'coordinator'],
 			'shifts.manage': ['admin', 'coordinator'],
 			'catalogs.manage': ['admin', 'coordinator'],
 			'claims.create': ['observer', 'coordinator'],
@@ -40,6 +43,15 @@ describe('permissions table', () => {
 		for (const [perm, roles] of Object.entries(expected) as [Permission, Role[]][]) {
 			for (const r of ROLES) expect(can(person(r), perm), `${r} → ${perm}`).toBe(roles.includes(r));
 		}
+	});
+	it('lists what a person may do, for the pages to show only those links and buttons', () => {
+		const duty = permissionsOf(person('duty'));
+		expect(duty).toContain('triage.view');
+		expect(duty).toContain('notices.inbox');
+		expect(duty).not.toContain('triage.manage');
+		expect(duty).not.toContain('notices.retry');
+		expect(permissionsOf(person('viewer')).every((p) => can(person('viewer'), p))).toBe(true);
+		expect(permissionsOf(null)).toEqual([]);
 	});
 	it('grants the union of several roles', () => {
 		expect(can(person('viewer', 'coordinator'), 'people.invite')).toBe(true);

@@ -25,7 +25,10 @@ export const PERMISSIONS = {
 	'mailbox.view': { roles: ['admin'] },
 	'notices.submit': { roles: ['admin', 'coordinator', 'duty'] },
 	'events.acknowledge': { roles: ['duty', 'coordinator'] },
+	'triage.view': { roles: ['admin', 'coordinator', 'duty'] },
 	'triage.manage': { roles: ['admin', 'coordinator'] },
+	'notices.inbox': { roles: ['admin', 'coordinator', 'duty'] },
+	'notices.retry': { roles: ['admin', 'coordinator'] },
 	'shifts.manage': { roles: ['admin', 'coordinator'] },
 	'catalogs.manage': { roles: ['admin', 'coordinator'] },
 	'claims.create': { roles: ['observer', 'coordinator'] },
@@ -58,6 +61,11 @@ export function can(principal: Principal | null | undefined, permission: Permiss
 export function rolesOutOfReach(granterRoles: readonly Role[], roles: readonly Role[]): Role[] {
 	const reach = Math.max(-1, ...granterRoles.map((r) => ROLE_RANK[r]));
 	return [...new Set(roles)].filter((r) => ROLE_RANK[r] > reach);
+}
+
+/** Every permission the principal holds: what the layout hands to pages to decide which links and buttons to show. */
+export function permissionsOf(principal: Principal | null | undefined): Permission[] {
+	return (Object.keys(PERMISSIONS) as Permission[]).filter((p) => can(principal, p));
 }
 
 /** Roles that hold a permission, for pages that explain who may do what. */

@@ -6,6 +6,7 @@ import * as table from './db/schema';
 import { hashToken, type SessionUser } from '../people/auth';
 import { DomainError } from './errors';
 import { API_JSON_MAX_BYTES } from '../../limits.ts';
+import '../../field-messages';
 
 /** The API's error body: `{ error: { code, message } }`. */
 export function apiError(status: number, code: string, message: string, details?: unknown) {
@@ -45,7 +46,7 @@ export function apiRoute(handler: (event: RequestEvent) => Promise<Response> | R
 	};
 }
 
-/** Parse a JSON body against a schema, or answer 400/422 with the field problems. */
+/** Parse a JSON body against a schema, or answer 400/422 with the field problems: one sentence per field (naming it as the forms do), and `details` `{ field: message }`. */
 export async function readJson<S extends z.ZodType>(request: Request, schema: S, maxBytes = API_JSON_MAX_BYTES) {
 	const text = await request.text();
 	if (text.length > maxBytes) return { response: apiError(413, 'too_large', `Body over ${maxBytes} bytes.`) };
@@ -56,15 +57,11 @@ export async function readJson<S extends z.ZodType>(request: Request, schema: S,
 		return { response: apiError(400, 'bad_json', 'The body is not valid JSON.') };
 	}
 	const parsed = schema.safeParse(body);
-	if (!parsed.success)
-		return {
-			response: apiError(
-				422,
-				'invalid',
-				parsed.error.issues.map((i) => `${i.path.join('.') || 'body'}: ${i.message}`).join('; '),
-				parsed.error.issues
-			)
-		};
+	if (!parsed.success) {
+		const details: Record<string, string> = {};
+		for (const i of parsed.error.issues) details[i.path.join('.') || 'body'] ??= i.message;
+		return { response: apiError(422, 'invalid', Object.values(details).join(' '), details) };
+	}
 	return { data: parsed.data as z.infer<S> };
 }
 

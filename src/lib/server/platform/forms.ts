@@ -1,6 +1,7 @@
 import { fail, type ActionFailure } from '@sveltejs/kit';
 import { z } from 'zod';
 import { DomainError } from './errors';
+import '../../field-messages';
 
 export type FieldErrors = Record<string, string>;
 

@@ -9,6 +9,7 @@ export const load: PageServerLoad = ({ locals }) => {
 	return {
 		events: listEvents(),
 		canSubmit: can(principal, 'notices.submit'),
-		canTriage: can(principal, 'triage.manage')
+		canTriage: can(principal, 'triage.view'),
+		canSeeInbox: can(principal, 'notices.inbox')
 	};
 };

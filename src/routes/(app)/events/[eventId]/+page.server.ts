@@ -29,6 +29,8 @@ export const load: PageServerLoad = ({ params, locals, depends }) => {
 	return {
 		event,
 		canAcknowledge: can({ user }, 'events.acknowledge'),
+		// The report page is only useful to someone with a telescope to report for.
+		mayReport: Boolean(user && telescopesFor(user).length && can({ user }, 'observations.report')),
 		sky: eventSky(event.id, current?.id ?? null, user, covered),
 		coverage: covered && {
 			observations: covered.observations,

@@ -25,6 +25,7 @@ export const load: PageServerLoad = ({ params, locals, depends }) => {
 		event: { id: event.eventId, sourceEventId: event.sourceEventId, state: event.state },
 		candidates: listCandidates(event.eventId),
 		canReport,
+		mayReportObservations: Boolean(locals.user && can({ user: locals.user }, 'observations.report') && choices(locals.user).telescopes.length),
 		...(canReport ? choices(locals.user) : { telescopes: [], teams: [] }),
 		now: new Date().toISOString().slice(0, 19) + 'Z'
 	};

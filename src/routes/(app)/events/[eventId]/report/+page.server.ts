@@ -13,7 +13,7 @@ function ownTelescopes(user: SessionUser | null) {
 }
 
 export const load: PageServerLoad = ({ params, locals }) => {
-	requirePermission('events.view');
+	requirePermission('observations.report');
 	const event = getEvent(params.eventId);
 	if (!event) error(404, 'No such event.');
 	return { event: { id: event.eventId, sourceEventId: event.sourceEventId, state: event.state, eventTime: event.eventTime, retractedAt: event.retractedAt }, telescopes: ownTelescopes(locals.user), now: new Date().toISOString().slice(0, 19) + 'Z' };
