@@ -4,7 +4,10 @@ import { join } from 'node:path';
 import { gunzipSync } from 'node:zlib';
 import { describe, expect, it } from 'vitest';
 import { farHzToPerYear, parseVoevent } from '../src/lib/alerts/voevent.ts';
-import { listScenarios, loadScenario, renderScenario, writeScenario } from './scenarios.ts';
+import { antisolarRaDeg, listScenarios, loadScenario, renderScenario, rotateSky, writeScenario } from './scenarios.ts';
+import { readSkyMap, summarise } from '../src/lib/sky/index.ts';
+import { angularSeparationDeg, nightWindow, observableWindow, sunSeparationDeg } from '../src/lib/targeting/night.ts';
+import { DEMO_TELESCOPES } from '../seeds/scenario.ts';
 
 const epoch = new Date('2030-04-12T07:31:00.000Z');
 const httpBase = 'http://127.0.0.1:8098';
@@ -89,4 +92,65 @@ describe('scenarios', () => {
 		expect(() => loadScenario('nope')).toThrow(/no scenario "nope" \(have: bbh, bns/);
 		expect(() => loadScenario('../etc')).toThrow(/bad scenario name/);
 	});
+
+	it('turns a scenario\'s sky rigidly: the anchor lands where asked and separations are kept', () => {
+		expect.hasAssertions();
+		const from = { raDeg: 197.9, decDeg: -23.3 };
+		const to = { raDeg: 12.5, decDeg: -10 };
+		const anchor = rotateSky(from, from, to);
+		expect(angularSeparationDeg(anchor, to)).toBeLessThan(1e-9);
+		const lobe = { raDeg: 232, decDeg: -45 };
+		expect(angularSeparationDeg(rotateSky(lobe, from, to), anchor)).toBeCloseTo(angularSeparationDeg(lobe, from), 9);
+	});
 });
+
+/** Observable by the telescope (above its altitude and airmass limits, in astronomical darkness) within 24 h of `time`. */
+function observableWithinADay(t: (typeof DEMO_TELESCOPES)[number], target: { raDeg: number; decDeg: number }, time: Date): boolean {
+	const site = { latitudeDeg: t.latitudeDeg, longitudeDeg: t.longitudeDeg, elevationM: t.elevationM };
+	const minAltitudeDeg = Math.max(t.minAltitudeDeg, (Math.asin(1 / t.maxAirmass) * 180) / Math.PI);
+	const start = time.getTime();
+	// The night in progress and the next one, by local mean solar date (as the targets page picks "tonight").
+	return [-12, 12].some((hours) => {
+		const date = new Date(start + (t.longitudeDeg / 15 + hours) * 3_600_000).toISOString().slice(0, 10);
+		const win = observableWindow(site, target, nightWindow(site, date), minAltitudeDeg);
+		return win.intervals.some((i) => Date.parse(i.end) > start && Date.parse(i.start) < start + 24 * 3_600_000);
+	});
+}
+
+describe('the demo sky is a night sky whenever it is played', () => {
+	// Twelve play times through a year, at different hours of the day.
+	const times = Array.from({ length: 12 }, (_, k) => new Date(Date.UTC(2027, k, 3 + 2 * k, (5 * k) % 24, 17)));
+
+	it.each(times.map((t) => [t.toISOString(), t] as const))('played at %s: every map peak of the neutron-star story is > 90° from the Sun and observable from ≥ 3 seeded telescopes', (_, epoch) => {
+		expect.hasAssertions();
+		const steps = renderScenario(loadScenario('bns'), { epoch, httpBase, seed: 1 });
+		for (const step of steps) {
+			const peak = summarise(readSkyMap(new Uint8Array(step.map!.build()))).peak;
+			const target = { raDeg: peak.ra, decDeg: peak.dec };
+			const sunDeg = sunSeparationDeg(target, epoch);
+			expect(sunDeg, `${step.kind} peak ${peak.ra.toFixed(1)}, ${peak.dec.toFixed(1)}`).toBeGreaterThan(90);
+			// Within ±20° of the equator, so that sites of both hemispheres reach it.
+			expect(Math.abs(peak.dec)).toBeLessThan(20);
+			const observers = DEMO_TELESCOPES.filter((t) => observableWithinADay(t, target, epoch)).map((t) => t.name);
+			expect(observers.length, `${step.kind}: ${observers.join(', ')}`).toBeGreaterThanOrEqual(3);
+			// Sites on both sides of the equator among them.
+			const lat = DEMO_TELESCOPES.filter((t) => observers.includes(t.name)).map((t) => t.latitudeDeg);
+			expect(lat.some((x) => x > 0) && lat.some((x) => x < 0)).toBe(true);
+		}
+		// The antisolar point the placement aims at is where night.ts says the Sun is not.
+		expect(sunSeparationDeg({ raDeg: antisolarRaDeg(epoch), decDeg: 0 }, epoch)).toBeGreaterThan(155);
+	}, 30_000);
+
+	it('places the other stories with maps opposite the Sun as well, apart from each other', () => {
+		expect.hasAssertions();
+		const epoch = times[6];
+		const peaks = ['bbh', 'retraction', 'test'].map((name) => {
+			const step = renderScenario(loadScenario(name), { epoch, httpBase, seed: 1 }).find((s) => s.map)!;
+			const p = summarise(readSkyMap(new Uint8Array(step.map!.build()))).peak;
+			return { raDeg: p.ra, decDeg: p.dec };
+		});
+		for (const p of peaks) expect(sunSeparationDeg(p, epoch)).toBeGreaterThan(90);
+		expect(angularSeparationDeg(peaks[0], peaks[1])).toBeGreaterThan(30);
+	}, 30_000);
+});
+

@@ -8,7 +8,8 @@ import { fileURLToPath } from 'node:url';
 import { z } from 'zod';
 import { BROKER_IVORN, buildNoticeXml } from './notices.ts';
 import { gaussian, mulberry32, seedFor } from './prng.ts';
-import { generateSkymap, skymapToFits, type SkymapSpec } from './skymap.ts';
+import { generateSkymap, radecToVec, skymapToFits, type SkymapSpec } from './skymap.ts';
+import { sunPosition } from '../src/lib/targeting/sun-moon.ts';
 
 export const SCENARIO_DIR = fileURLToPath(new URL('./scenarios/', import.meta.url));
 const SECONDS_PER_JULIAN_YEAR = 365.25 * 86400;
@@ -52,11 +53,54 @@ const stepSchema = z.object({
 	malformed: z.enum(['unclosed-tag', 'missing-event-id']).optional()
 });
 
+/**
+ * Where the sky of a scenario lies when it is played. A fixed sky position sits next to the Sun
+ * for part of every year, and then no telescope can follow the event up. With `nightSky`, every
+ * map of the scenario is turned rigidly on the sphere so that `anchor` (as written in the steps)
+ * lands at the antisolar right ascension at the play time plus `raOffsetDeg`, at `decDeg`: up
+ * around local midnight from every site, and from both hemispheres when |decDeg| ≲ 20°.
+ */
+const placementSchema = z.object({
+	anchor: z.object({ raDeg: z.number().min(0).max(360), decDeg: z.number().min(-90).max(90) }),
+	decDeg: z.number().min(-60).max(60),
+	/** Hours away from opposition, in degrees of RA (keeps several scenarios apart). */
+	raOffsetDeg: z.number().min(-90).max(90).default(0)
+});
+
 export const scenarioSchema = z.object({
 	name: z.string().regex(/^[a-z0-9-]+$/),
 	description: z.string(),
+	nightSky: placementSchema.optional(),
 	steps: z.array(stepSchema).min(1)
 });
+
+export type SkyPlacement = z.infer<typeof placementSchema>;
+
+const DEG = Math.PI / 180;
+
+/** Right ascension opposite the Sun at `time`, degrees (the Sun from the project's own night.ts). */
+export function antisolarRaDeg(time: Date): number {
+	return (sunPosition({ latitudeDeg: 0, longitudeDeg: 0, elevationM: 0 }, time).raDeg + 180) % 360;
+}
+
+/**
+ * The rotation of the sphere that takes `from` to `to` along the meridian route
+ * Rz(α_to) · Ry(δ_from − δ_to) · Rz(−α_from), applied to a direction: shapes and separations
+ * on the sky are kept (a mixture of blobs stays the same mixture).
+ */
+export function rotateSky(point: { raDeg: number; decDeg: number }, from: { raDeg: number; decDeg: number }, to: { raDeg: number; decDeg: number }) {
+	let [x, y, z] = radecToVec(point.raDeg - from.raDeg, point.decDeg);
+	const t = (from.decDeg - to.decDeg) * DEG;
+	[x, z] = [x * Math.cos(t) + z * Math.sin(t), -x * Math.sin(t) + z * Math.cos(t)];
+	const decDeg = Math.asin(Math.max(-1, Math.min(1, z))) / DEG;
+	const raDeg = ((((Math.atan2(y, x) / DEG + to.raDeg) % 360) + 360) % 360);
+	return { raDeg, decDeg };
+}
+
+/** Where a placement puts its anchor at `time`. */
+export function placedAnchor(p: SkyPlacement, time: Date): { raDeg: number; decDeg: number } {
+	return { raDeg: (((antisolarRaDeg(time) + p.raOffsetDeg) % 360) + 360) % 360, decDeg: p.decDeg };
+}
 
 export type Scenario = z.infer<typeof scenarioSchema>;
 export type ScenarioStep = z.infer<typeof stepSchema>;
@@ -106,7 +150,7 @@ export interface RenderedStep {
 }
 
 export interface RenderOptions {
-	/** Start of the scenario; Who/Date = epoch + atSeconds / speed. */
+	/** Start of the scenario; Who/Date = epoch + atSeconds / speed. A scenario with `nightSky` is placed opposite the Sun at this time. */
 	epoch: Date;
 	/** Base URL under which maps are served, e.g. http://127.0.0.1:8098 */
 	httpBase: string;
@@ -139,7 +183,8 @@ export function renderScenario(sc: Scenario, o: RenderOptions): RenderedStep[] {
 		if (s.skymap) {
 			const random = mulberry32(seedFor(seed, `${sc.name}:${i}:${cycle}`));
 			const spec: SkymapSpec = {
-				components: s.skymap.components.map((c) => {
+				components: s.skymap.components.map((written) => {
+					const c = sc.nightSky ? { ...written, ...rotateSky(written, sc.nightSky.anchor, placedAnchor(sc.nightSky, o.epoch)) } : written;
 					const dDec = s.skymap!.jitterDeg * gaussian(random);
 					const dRa = (s.skymap!.jitterDeg * gaussian(random)) / Math.max(0.1, Math.cos((c.decDeg * Math.PI) / 180));
 					return {

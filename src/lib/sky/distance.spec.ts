@@ -1,6 +1,9 @@
+import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import {
+	conditionalCdf,
 	conditionalMoments,
+	distancePValue,
 	conditionalPdf,
 	distanceNorm,
 	dPdV,
@@ -84,5 +87,54 @@ describe('Singer et al. 2016 distance ansatz', () => {
 	it('inverse refuses std/mean beyond the Gamma(3) limit 1/√3', () => {
 		expect.hasAssertions();
 		expect(() => parametersFromMoments(100, 60)).toThrow(/too large for the distance ansatz/);
+	});
+});
+
+describe('conditional distance CDF and two-sided tail probability', () => {
+	it.each(cases)('μ=%d σ=%d: the CDF equals direct numerical integration of r² N(r; μ, σ) to 1e-8', (mu, sigma) => {
+		expect.hasAssertions();
+		const hi = Math.max(mu, 0) + 40 * sigma;
+		const f = (r: number) => r * r * Math.exp(-0.5 * ((r - mu) / sigma) ** 2);
+		const total = simpson(f, hi);
+		const { meanMpc, stdMpc } = conditionalMoments(mu, sigma)!;
+		for (const R of [0.3 * meanMpc, meanMpc - stdMpc, meanMpc, meanMpc + stdMpc, meanMpc + 3 * stdMpc]) {
+			const direct = simpson(f, R) / total;
+			expect(Math.abs(conditionalCdf(R, mu, sigma)! - direct)).toBeLessThan(1e-8);
+			expect(Math.abs(distancePValue(R, mu, sigma)! - 2 * Math.min(direct, 1 - direct))).toBeLessThan(2e-8);
+		}
+	});
+
+	it('matches scipy.integrate.quad (tests/fixtures/sky/make_distance_cdf.py) to 1e-9, far tails to 1e-6 relative', () => {
+		expect.hasAssertions();
+		const ref = JSON.parse(readFileSync('tests/fixtures/sky/distance_cdf.json', 'utf8')) as { cases: { mu: number; sigma: number; r: number; cdf: number; sf: number; pValue: number }[] };
+		expect(ref.cases.length).toBeGreaterThan(20);
+		for (const c of ref.cases) {
+			const cdf = conditionalCdf(c.r, c.mu, c.sigma)!;
+			const p = distancePValue(c.r, c.mu, c.sigma)!;
+			expect(Math.abs(cdf - c.cdf), JSON.stringify(c)).toBeLessThan(1e-9);
+			expect(Math.abs(p / c.pValue - 1), JSON.stringify(c)).toBeLessThan(1e-6);
+		}
+	});
+
+	it('is 1 at the median, small far out on either side, and null without distance information', () => {
+		expect.hasAssertions();
+		const { meanMpc, stdMpc } = { meanMpc: 118, stdMpc: 24 };
+		const { mu, sigma } = parametersFromMoments(meanMpc, stdMpc);
+		// Bisection for the median: p = 1 there.
+		let lo = 0;
+		let hi = 1000;
+		for (let k = 0; k < 100; k++) {
+			const mid = (lo + hi) / 2;
+			if (conditionalCdf(mid, mu, sigma)! < 0.5) lo = mid;
+			else hi = mid;
+		}
+		expect(distancePValue(lo, mu, sigma)).toBeCloseTo(1, 8);
+		// 282 Mpc against 118 ± 24 Mpc: far outside.
+		expect(distancePValue(282, mu, sigma)!).toBeLessThan(1e-4);
+		expect(distancePValue(20, mu, sigma)!).toBeLessThan(1e-4);
+		expect(distancePValue(0, mu, sigma)).toBe(0);
+		expect(conditionalCdf(Infinity, mu, sigma)).toBe(1);
+		expect(distancePValue(100, Infinity, 10)).toBeNull();
+		expect(conditionalCdf(100, 50, 0)).toBeNull();
 	});
 });

@@ -130,6 +130,56 @@ export function conditionalPdf(rMpc: number, mu: number, sigma: number, norm: nu
 }
 
 /**
+ * ∫ r² N(r; μ, σ) dr over [0, R] (`lower`) and [R, ∞) (`upper`), both divided by σ². With
+ * t = (r − μ)/σ, a = −μ/σ, b = (R − μ)/σ and ∫ t φ = −φ, ∫ t² φ = Φ − t φ:
+ *   lower = x² [Φ]ₐᵇ − 2x [φ]ₐᵇ + [Φ]ₐᵇ − [tφ]ₐᵇ,   x = μ/σ,
+ *   upper = x² Q(b) + 2x φ(b) + Q(b) + b φ(b),       Q(b) = 1 − Φ(b) = Φ(−b).
+ * Each tail is summed on its own (not as 1 − the other), so a far tail keeps its digits.
+ */
+function ansatzTails(rMpc: number, mu: number, sigma: number): { lower: number; upper: number } {
+	const x = mu / sigma;
+	const a = -x;
+	const b = (rMpc - mu) / sigma;
+	// For μ < 0 both Φ(a) and Φ(b) are near 1: difference the upper tails instead.
+	const dP = a > 0 ? normalCdf(-a) - normalCdf(-b) : normalCdf(b) - normalCdf(a);
+	const dp = normalPdf(b) - normalPdf(a);
+	const dtp = b * normalPdf(b) - a * normalPdf(a);
+	const qb = normalCdf(-b);
+	return {
+		lower: Math.max(0, x * x * dP - 2 * x * dp + dP - dtp),
+		upper: Math.max(0, x * x * qb + 2 * x * normalPdf(b) + qb + b * normalPdf(b))
+	};
+}
+
+/**
+ * Conditional distance CDF P(r ≤ R | n) under p(r|n) = DISTNORM r² N(r; μ, σ), r > 0
+ * (Singer et al. 2016, ApJL 829 L15, eq. 1), in closed form (see `ansatzTails`).
+ * Null when the parameters carry no distance information.
+ */
+export function conditionalCdf(rMpc: number, mu: number, sigma: number): number | null {
+	if (!hasDistance(mu, sigma) || Number.isNaN(rMpc)) return null;
+	if (!(rMpc > 0)) return 0;
+	if (rMpc === Infinity) return 1;
+	const { lower, upper } = ansatzTails(rMpc, mu, sigma);
+	const total = lower + upper;
+	return total > 0 ? Math.min(1, lower / total) : null;
+}
+
+/**
+ * How consistent a distance is with the conditional distance posterior in its direction: the
+ * two-sided tail probability p = 2 · min(P(r ≤ R), P(r ≥ R)) under the ansatz of Singer et al. 2016,
+ * each tail computed directly. 1 at the median, → 0 far outside. Null without distance information.
+ */
+export function distancePValue(rMpc: number, mu: number, sigma: number): number | null {
+	if (!hasDistance(mu, sigma) || !Number.isFinite(rMpc)) return null;
+	if (!(rMpc > 0)) return 0;
+	const { lower, upper } = ansatzTails(rMpc, mu, sigma);
+	const total = lower + upper;
+	if (!(total > 0)) return null;
+	return Math.min(1, (2 * Math.min(lower, upper)) / total);
+}
+
+/**
  * dP/dV at a direction and distance, per Mpc³: ρ(n) · DISTNORM · N(r; μ, σ), with ρ the
  * probability density per steradian (Singer et al. 2016, ApJL 829 L15, eq. 2 context: dV = r² dr dΩ).
  */

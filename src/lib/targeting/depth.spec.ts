@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { conditionalMoments, normalPdf, parametersFromMoments } from '../sky/index.ts';
-import { ansatzCdf, apparentMagnitude, depthCheck, distanceModulus, distanceQuantile, KILONOVA_PEAK_ABS_MAG } from './depth.ts';
+import { conditionalCdf as ansatzCdf } from '../sky/index.ts';
+import { apparentMagnitude, depthCheck, distanceModulus, distanceQuantile, KILONOVA_PEAK_ABS_MAG } from './depth.ts';
 
 describe('distance modulus (standard definition m − M = 5 log10(d / 10 pc))', () => {
 	it('worked examples: M = −16 at 40 Mpc is m ≈ 17.0, at 100 Mpc m = 19.0', () => {

@@ -11,12 +11,12 @@
  *
  * Distances evaluated: the sky-marginal mean and mean ± std, and the 90% upper distance of the
  * distance ansatz with that mean and std (Singer et al. 2016: p(r) ∝ r² N(r; μ, σ); its CDF in closed
- * form below). Verdict:
+ * form in sky/distance.ts). Verdict:
  *   'deep enough'  m_lim ≥ m at the 90% upper distance;
  *   'marginal'     m at the mean ≤ m_lim < m at the 90% upper distance;
  *   'too shallow'  m_lim < m at the mean.
  */
-import { normalCdf, normalPdf, parametersFromMoments } from '../sky/index.ts';
+import { conditionalCdf, parametersFromMoments } from '../sky/index.ts';
 
 /** Peak absolute magnitude of a kilonova in r/i near 1 day (from memory; see module comment). */
 export const KILONOVA_PEAK_ABS_MAG = -16.0;
@@ -32,22 +32,6 @@ export function apparentMagnitude(absoluteMag: number, distanceMpc: number, exti
 	return absoluteMag + distanceModulus(distanceMpc) + extinctionMag;
 }
 
-/**
- * CDF of p(r) = DISTNORM r² N(r; μ, σ) on [0, R]: with t = (r − μ)/σ, a = −μ/σ, b = (R − μ)/σ,
- * ∫₀^R r² N dr = μ² [Φ]ₐᵇ − 2μσ [φ]ₐᵇ + σ² ([Φ]ₐᵇ − [tφ]ₐᵇ), normalised by the same at R = ∞.
- */
-export function ansatzCdf(rMpc: number, mu: number, sigma: number): number {
-	if (!(rMpc > 0)) return 0;
-	const a = -mu / sigma;
-	const part = (b: number) => {
-		const dP = (b === Infinity ? 1 : normalCdf(b)) - normalCdf(a);
-		const dp = (b === Infinity ? 0 : normalPdf(b)) - normalPdf(a);
-		const dtp = (b === Infinity ? 0 : b * normalPdf(b)) - a * normalPdf(a);
-		return mu * mu * dP - 2 * mu * sigma * dp + sigma * sigma * (dP - dtp);
-	};
-	return Math.min(1, part((rMpc - mu) / sigma) / part(Infinity));
-}
-
 /** Distance below which a fraction q of the ansatz with this mean and std lies (bisection on the CDF). */
 export function distanceQuantile(meanMpc: number, stdMpc: number, q: number): number {
 	if (!(q > 0 && q < 1)) throw new RangeError(`quantile ${q} is outside (0, 1)`);
@@ -56,7 +40,7 @@ export function distanceQuantile(meanMpc: number, stdMpc: number, q: number): nu
 	let hi = meanMpc + 50 * stdMpc;
 	for (let k = 0; k < 200 && hi - lo > 1e-12 * hi; k++) {
 		const mid = 0.5 * (lo + hi);
-		if (ansatzCdf(mid, mu, sigma) < q) lo = mid;
+		if (conditionalCdf(mid, mu, sigma)! < q) lo = mid;
 		else hi = mid;
 	}
 	return 0.5 * (lo + hi);

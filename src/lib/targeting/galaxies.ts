@@ -35,6 +35,7 @@
  */
 import {
 	credibleRegions,
+	distancePValue,
 	hasDistance,
 	marginalMoments,
 	nestedPixel,
@@ -151,6 +152,13 @@ export interface RankOptions {
 	limit?: number;
 }
 
+/**
+ * A galaxy whose catalogued distance has a two-sided tail probability below this under the map's
+ * distance posterior in its direction lies far outside the distance range the map allows: flagged
+ * on the targets page. 0.01 is a conventional significance level (common practice), not a fitted value.
+ */
+export const DISTANCE_OUTLIER_P = 0.01;
+
 export interface RankedGalaxy {
 	rank: number;
 	id: string;
@@ -164,6 +172,11 @@ export interface RankedGalaxy {
 	/** score / Σ scores over all candidates. */
 	probability: number;
 	cumulative: number;
+	/**
+	 * Two-sided tail probability of the catalogued distance under the map's conditional distance
+	 * posterior in the galaxy's pixel (`distancePValue`); null for a 2-D map.
+	 */
+	distancePValue: number | null;
 }
 
 export interface Completeness {
@@ -214,6 +227,7 @@ export function rankGalaxies(map: SkyMap, index: CatalogIndex, options: RankOpti
 
 	const candPos: number[] = [];
 	const candScore: number[] = [];
+	const candPix: number[] = [];
 	let withoutDistance = 0;
 	let zeroScore = 0;
 	let examined = 0;
@@ -234,6 +248,7 @@ export function rankGalaxies(map: SkyMap, index: CatalogIndex, options: RankOpti
 		if (s > 0) {
 			candPos.push(j);
 			candScore.push(s);
+			candPix.push(i);
 		} else zeroScore++;
 	};
 
@@ -297,7 +312,8 @@ export function rankGalaxies(map: SkyMap, index: CatalogIndex, options: RankOpti
 			distance: distanceMpc[j],
 			score: candScore[c],
 			probability: p,
-			cumulative: Math.min(1, cum)
+			cumulative: Math.min(1, cum),
+			distancePValue: threeD ? distancePValue(distanceMpc[j], mu![candPix[c]], sg![candPix[c]]) : null
 		};
 	}
 

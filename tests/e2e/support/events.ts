@@ -11,9 +11,9 @@ export function nightPeak(): { raDeg: number; decDeg: number } {
 	return { raDeg: (sunPosition({ latitudeDeg: 0, longitudeDeg: 0, elevationM: 0 }, new Date()).raDeg + 180) % 360, decDeg: 0 };
 }
 
-function skymapFile(sourceId: string): string {
+function skymapFile(sourceId: string, peak: { raDeg: number; decDeg: number } = nightPeak()): string {
 	mkdirSync(WORK, { recursive: true });
-	const fits = skymapToFits(generateSkymap({ components: [{ ...nightPeak(), widthDeg: 3 }], distance: { meanMpc: 118, stdMpc: 24 } }), {
+	const fits = skymapToFits(generateSkymap({ components: [{ ...peak, widthDeg: 3 }], distance: { meanMpc: 118, stdMpc: 24 } }), {
 		object: sourceId,
 		dateObs: new Date().toISOString().slice(0, 23)
 	});
@@ -31,13 +31,13 @@ function noticeXml(sourceId: string): string {
 		.replace('2030-04-12T08:02:00Z', new Date().toISOString().slice(0, 19) + 'Z');
 }
 
-/** Publish the event through the upload page as the signed-in coordinator; returns its id. */
-export async function publishNightEvent(coordinator: Page, sourceId: string): Promise<string> {
+/** Publish the event through the upload page as the signed-in coordinator (its map peaks opposite the Sun unless `peak` says otherwise); returns its id. */
+export async function publishNightEvent(coordinator: Page, sourceId: string, peak?: { raDeg: number; decDeg: number }): Promise<string> {
 	await coordinator.goto('/events/upload');
 	// Typing before hydration can be lost when the page hydrates under load: wait for it.
 	await expect(coordinator.locator('[data-hydrated="yes"]')).toBeVisible();
 	await coordinator.getByLabel('Notice XML').fill(noticeXml(sourceId));
-	await coordinator.getByLabel('Sky map (optional)').setInputFiles(skymapFile(sourceId));
+	await coordinator.getByLabel('Sky map (optional)').setInputFiles(skymapFile(sourceId, peak));
 	await coordinator.getByRole('button', { name: 'Submit the notice' }).click();
 	await expect(coordinator.getByTestId('event-page')).toBeVisible({ timeout: 30_000 });
 	return new URL(coordinator.url()).pathname.split('/')[2];

@@ -16,11 +16,11 @@ import { createTelescope, listTelescopes } from '../people/telescopes';
 import * as claims from '../coordination/claims';
 import { clearTargetCaches, eventGalaxies, HELD_CLAIM_STATES, installTargets, STORED_GALAXIES, targetsIdle } from './rankings';
 import type { TelescopeRow } from './visibility-view';
-import { parseTargetQuery, targetsPageData, type TargetQuery } from './filters';
+import { pageNumber, parseTargetQuery, targetsPageData, type TargetQuery } from './filters';
 import { altitudesNow, targetAltAz } from '../../targeting/apparent-place.ts';
 import { effectiveMinAltitudeDeg } from '../../targeting/telescope.ts';
 import { observableNowMask, skyNow, tonight, tonightFor, visibility } from '../../targeting/visibility.ts';
-import { sunSeparationDeg } from '../../targeting/sun-moon.ts';
+import { sunAvoidance, sunSeparationDeg } from '../../targeting/sun-moon.ts';
 import { DEMO_TEAMS, DEMO_TELESCOPES } from '../../../../seeds/scenario';
 import { mulberry32 } from '../../../../fake-alert-broker/prng.ts';
 
@@ -126,6 +126,38 @@ describe('the query string', () => {
 		});
 		const odd = parseTargetQuery(new URLSearchParams('observable=later&claim=mine&page=-4&sort=score&fpage=x'));
 		expect(odd).toMatchObject({ observableNow: false, unclaimed: false, teamId: null, galaxies: { page: 1, sort: 'rank', dir: 'asc' }, fields: { page: 1, sort: 'rank' } });
+	});
+});
+
+describe('page numbers from an edited link', () => {
+	it('become a whole page from 1 to the last: huge, infinite, negative, fractional and non-numeric values included', () => {
+		expect.hasAssertions();
+		const cases: [string | null, number][] = [
+			[null, 1],
+			['', 1],
+			['  ', 1],
+			['3', 3],
+			['2.9', 2],
+			['0', 1],
+			['-4', 1],
+			['-1e309', 1],
+			['1e309', 400],
+			['Infinity', 400],
+			['1e20', 400],
+			['99999999999999999999999', 400],
+			['NaN', 1],
+			['x', 1],
+			['0x10', 16],
+			['401', 400]
+		];
+		for (const [raw, page] of cases) expect(pageNumber(raw, 400), String(raw)).toBe(page);
+		for (const raw of ['1e309', '-1e309', '1.5e3', 'abc', '7.25', '-0']) {
+			const q = parseTargetQuery(new URLSearchParams({ page: raw, fpage: raw, sort: 'score; drop', dir: 'sideways', fsort: '', fdir: 'DESC' }));
+			expect(Number.isSafeInteger(q.galaxies.page) && q.galaxies.page >= 1 && q.galaxies.page <= 400, raw).toBe(true);
+			expect(Number.isSafeInteger(q.fields.page) && q.fields.page >= 1 && q.fields.page <= 12, raw).toBe(true);
+			expect(q.galaxies).toMatchObject({ sort: 'rank', dir: 'asc' });
+			expect(q.fields).toMatchObject({ sort: 'rank', dir: 'asc' });
+		}
 	});
 });
 
@@ -267,6 +299,70 @@ describe('targets page over 10 000 stored galaxies', () => {
 		expect(targetsPageData(eventId, query(`team=${karoo}&claim=unclaimed`), coordinator, now)!.paging.total).toBe(0);
 		// An unknown team is no filter.
 		expect(targetsPageData(eventId, query('team=nobody'), coordinator, now)!.paging.total).toBe(STORED_GALAXIES);
+	}, 60_000);
+
+	it('shows the last page for a page number past it (1e309 and the like), for galaxies and fields alike', () => {
+		expect.hasAssertions();
+		for (const raw of ['1e309', '1e20', '400', '9999']) {
+			const page = targetsPageData(eventId, query(`page=${raw}`), coordinator, now)!;
+			expect(page.paging.page, raw).toBe(400);
+			expect(page.galaxies.at(-1)!.rank).toBe(STORED_GALAXIES);
+		}
+		// Filtered to fewer rows: the last page of what matches.
+		const karoo = teamIds.karoo;
+		const byTeam = targetsPageData(eventId, query(`team=${karoo}&page=1e309`), coordinator, now)!;
+		expect(byTeam.paging.page).toBe(byTeam.paging.pages);
+		expect(byTeam.galaxies.length).toBeGreaterThan(0);
+		const wide = listTelescopes().find((t) => t.name === 'Karoo Schmidt 1.0 m')!;
+		const fields = targetsPageData(eventId, parseTargetQuery(new URLSearchParams(`telescope=${wide.id}&fpage=1e309`)), coordinator, now)!;
+		expect(fields.fieldPaging.page).toBe(fields.fieldPaging.pages);
+		expect(fields.fields.length).toBeGreaterThan(0);
+	}, 60_000);
+
+	it('shows each observer the visibility of their own team telescopes and offers Claim only where that telescope may take the target', () => {
+		expect.hasAssertions();
+		const scopes = listTelescopes();
+		const altiplano = person('Alma Observer', ['observer'], [teamIds.altiplano]);
+		const karoo = person('Kofi Observer', ['observer'], [teamIds.karoo]);
+		const viewer = person('Vic Viewer', ['viewer']);
+		const karooScope = scopes.find((t) => t.teamId === teamIds.karoo)!;
+		const pardo = scopes.find((t) => t.name === 'Pardo 0.6 m')!;
+		const q = (s: string) => parseTargetQuery(new URLSearchParams(s));
+
+		// By default: the observer's own narrow-field telescope; another team's telescope in the link is not taken.
+		const a = targetsPageData(eventId, q(''), altiplano, now)!;
+		expect(a.chosen!.id).toBe(pardo.id);
+		expect(targetsPageData(eventId, q(`telescope=${karooScope.id}`), altiplano, now)!.chosen!.id).toBe(pardo.id);
+		expect(a.lookableIds.sort()).toEqual(scopes.filter((t) => t.teamId === teamIds.altiplano).map((t) => t.id).sort());
+		expect(a.claiming.telescopes.map((t) => t.id).sort()).toEqual(a.lookableIds.sort());
+		const b = targetsPageData(eventId, q(`telescope=${pardo.id}`), karoo, now)!;
+		expect(b.chosen!.id).toBe(karooScope.id);
+		expect(b.lookableIds).toEqual([karooScope.id]);
+		expect(b.claiming.telescopeId).toBe(karooScope.id);
+		// A coordinator may look through any telescope; a viewer (no team) too, but claims with none.
+		expect(targetsPageData(eventId, q(`telescope=${karooScope.id}`), coordinator, now)!.chosen!.id).toBe(karooScope.id);
+		const v = targetsPageData(eventId, q(`telescope=${karooScope.id}`), viewer, now)!;
+		expect(v.chosen!.id).toBe(karooScope.id);
+		expect(v.claiming.telescopeId).toBeNull();
+
+		// Claim is offered exactly where the target is open and outside the claiming telescope's own Sun limit.
+		let blocked = 0;
+		let offered = 0;
+		for (const [page, scope] of [
+			...[1, 2, 3, 4].map((n) => [targetsPageData(eventId, q(`page=${n}`), altiplano, now)!, pardo] as const),
+			...[1, 2, 3, 4].map((n) => [targetsPageData(eventId, q(`page=${n}`), karoo, now)!, karooScope] as const)
+		]) {
+			for (const g of page.galaxies) {
+				const sunOk = sunAvoidance({ raDeg: g.ra, decDeg: g.dec }, now, scope.minSunSeparationDeg).ok;
+				expect(g.sunBlocked === null, g.name).toBe(sunOk);
+				expect(g.claimable, g.name).toBe(sunOk && g.claim === null);
+				if (!sunOk) blocked++;
+				if (g.claimable) offered++;
+			}
+			for (const g of v.galaxies) expect(g.claimable).toBe(false);
+		}
+		expect(blocked).toBeGreaterThan(0);
+		expect(offered).toBeGreaterThan(0);
 	}, 60_000);
 
 	it('"observable now" keeps the rows that night.ts says are up, dark and outside Sun avoidance; visibility() of the page rows agrees', () => {

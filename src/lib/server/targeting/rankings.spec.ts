@@ -15,7 +15,7 @@ import { createTelescope } from '../people/telescopes';
 import { clearTargetCaches, eventFields, eventFieldsPage, eventGalaxies, fieldsResponse, galaxiesResponse, installTargets, rankEvent, targetsIdle, targetsMeta } from './rankings';
 import { DEMO_TELESCOPES } from '../../../../seeds/scenario';
 import { isWideField } from '../../targeting/telescope.ts';
-import { credibleRegions, readSkyMap } from '../../sky/index';
+import { conditionalCdf, conditionalMoments, credibleRegions, pixelAt, readSkyMap } from '../../sky/index';
 import type { DB } from '../platform/db';
 
 const FIX = fileURLToPath(new URL('../../../../tests/fixtures/', import.meta.url));
@@ -157,6 +157,28 @@ describe('targets: ranking after skymap.analysed', () => {
 		expect(galaxies.slice(0, 5).map((g) => g.name)).not.toEqual(before);
 		expect(galaxies.length).toBe(rows.length);
 		expect(log.filter((m) => m.type === 'targets.ranked' && m.room === 'board')).toHaveLength(2);
+	}, 120_000);
+
+	it('stores with each ranked galaxy how consistent its catalogued distance is with the map there (two-sided tail probability)', async () => {
+		expect.hasAssertions();
+		const r = await ingestWithMap(notice('bns-update.xml'), demoMap);
+		const { galaxies } = eventGalaxies(r.eventId!, { limit: 2000 });
+		expect(galaxies.length).toBeGreaterThan(10);
+		const map = readSkyMap(new Uint8Array(demoMap));
+		let far = 0;
+		for (const g of galaxies) {
+			const i = pixelAt(map, g.ra, g.dec);
+			const cdf = conditionalCdf(g.distance, map.distMu![i], map.distSigma![i])!;
+			expect(g.distancePValue).not.toBeNull();
+			expect(Math.abs(g.distancePValue! - 2 * Math.min(cdf, 1 - cdf))).toBeLessThan(1e-9);
+			// More than three conditional standard deviations away: well below 0.01.
+			const c = conditionalMoments(map.distMu![i], map.distSigma![i])!;
+			if (Math.abs(g.distance - c.meanMpc) > 3 * c.stdMpc) {
+				far++;
+				expect(g.distancePValue!).toBeLessThan(0.01);
+			}
+		}
+		expect(far).toBeGreaterThan(0);
 	}, 120_000);
 
 	it('keeps the current ranking when a late map for an older notice is analysed, and ranks in 2-D maps without a catalogue as fields only', async () => {

@@ -159,7 +159,8 @@ export function rankEvent(eventId: string, opts: { skymapId?: string; catalogId?
 			galaxyId: galaxyIds[g.row],
 			score: g.score,
 			probability: g.probability,
-			cumulative: g.cumulative
+			cumulative: g.cumulative,
+			distancePValue: g.distancePValue
 		}));
 		const c = ranked.completeness;
 		meta = {
@@ -308,6 +309,8 @@ export interface GalaxyTarget {
 	score: number;
 	probability: number;
 	cumulative: number;
+	/** Two-sided tail probability of the catalogued distance under the map's distance posterior there (null: 2-D map, or ranked before it was kept). */
+	distancePValue: number | null;
 }
 
 export function targetsMeta(eventId: string) {
@@ -429,7 +432,8 @@ export function eventGalaxies(
 				distanceErr: table.galaxy.distanceErrMpc,
 				score: table.eventGalaxy.score,
 				probability: table.eventGalaxy.probability,
-				cumulative: table.eventGalaxy.cumulative
+				cumulative: table.eventGalaxy.cumulative,
+				distancePValue: table.eventGalaxy.distancePValue
 			})
 			.from(table.eventGalaxy)
 			.innerJoin(table.galaxy, eq(table.galaxy.id, table.eventGalaxy.galaxyId));

@@ -453,7 +453,9 @@ export const eventGalaxy = sqliteTable(
 			.references(() => galaxy.id, { onDelete: 'cascade' }),
 		score: real('score').notNull(),
 		probability: real('probability').notNull(),
-		cumulative: real('cumulative').notNull()
+		cumulative: real('cumulative').notNull(),
+		/** Two-sided tail probability of the catalogued distance under the map's distance posterior in its pixel; null for a 2-D map. */
+		distancePValue: real('distance_p_value')
 	},
 	(t) => [primaryKey({ columns: [t.eventId, t.rank] }), index('event_galaxy_event_idx').on(t.eventId)]
 );

@@ -1,0 +1,1 @@
+ALTER TABLE `event_galaxy` ADD `distance_p_value` real;

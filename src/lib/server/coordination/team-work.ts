@@ -1,0 +1,187 @@
+/**
+ * One event's work from a team's side: every claim the person's teams made (in any state, also on
+ * targets that a newer sky map no longer ranks), the pointings those teams reported, and every open
+ * claim of the network. Coordinators, and people in no team, see every team's claims and pointings.
+ */
+import { and, asc, desc, eq, inArray } from 'drizzle-orm';
+import { db } from '../platform/db';
+import * as table from '../platform/db/schema';
+import type { SessionUser } from '../people/auth';
+
+export interface WorkClaim {
+	id: string;
+	state: table.ClaimState;
+	targetKind: table.Claim['targetKind'];
+	targetId: string;
+	/** Galaxy name or field id; the bare id when the catalogue row is gone. */
+	targetName: string;
+	raDeg: number | null;
+	decDeg: number | null;
+	/** Whether the event's current ranking still lists the target. */
+	ranked: boolean;
+	/** Rank in the current ranking (galaxies; fields by their telescope's order), when ranked. */
+	rank: number | null;
+	filter: string;
+	epoch: number;
+	teamId: string;
+	teamName: string;
+	telescopeName: string;
+	claimedBy: string | null;
+	claimedAt: string;
+	startedAt: string | null;
+	doneAt: string | null;
+	endedAt: string | null;
+	/** Pointings reported against this claim. */
+	pointings: number;
+}
+
+export interface WorkPointing {
+	id: string;
+	observedAt: string;
+	teamName: string;
+	telescopeName: string;
+	raDeg: number;
+	decDeg: number;
+	fieldId: string | null;
+	filter: string;
+	exposureS: number;
+	limitingMag: number;
+	source: table.Observation['source'];
+	/** The claim this pointing completed, if any. */
+	claimId: string | null;
+}
+
+export interface TeamWork {
+	/** Whose work: the person's teams, or every team (coordinators and people in no team). */
+	scope: { teams: { id: string; name: string }[]; allTeams: boolean };
+	claims: WorkClaim[];
+	pointings: WorkPointing[];
+	/** Open claims (claimed or observing) of every team. */
+	openClaims: WorkClaim[];
+}
+
+const iso = (d: Date | null) => (d ? d.toISOString() : null);
+
+function claimRows(eventId: string, where: ReturnType<typeof and>): WorkClaim[] {
+	const rows = db
+		.select({ c: table.claim, teamName: table.team.name, telescopeName: table.telescope.name, userName: table.user.name })
+		.from(table.claim)
+		.innerJoin(table.team, eq(table.team.id, table.claim.teamId))
+		.innerJoin(table.telescope, eq(table.telescope.id, table.claim.telescopeId))
+		.leftJoin(table.user, eq(table.user.id, table.claim.userId))
+		.where(where)
+		.orderBy(desc(table.claim.claimedAt))
+		.all();
+	if (!rows.length) return [];
+
+	const galaxyIds = [...new Set(rows.filter((r) => r.c.targetKind === 'galaxy').map((r) => Number(r.c.targetId)).filter(Number.isSafeInteger))];
+	const galaxies = new Map(
+		(galaxyIds.length
+			? db.select({ id: table.galaxy.id, name: table.galaxy.name, raDeg: table.galaxy.raDeg, decDeg: table.galaxy.decDeg }).from(table.galaxy).where(inArray(table.galaxy.id, galaxyIds)).all()
+			: []
+		).map((g) => [String(g.id), g])
+	);
+	const galaxyRank = new Map(
+		(galaxyIds.length
+			? db
+					.select({ galaxyId: table.eventGalaxy.galaxyId, rank: table.eventGalaxy.rank })
+					.from(table.eventGalaxy)
+					.where(and(eq(table.eventGalaxy.eventId, eventId), inArray(table.eventGalaxy.galaxyId, galaxyIds)))
+					.all()
+			: []
+		).map((g) => [String(g.galaxyId), g.rank])
+	);
+	const fieldIds = [...new Set(rows.filter((r) => r.c.targetKind === 'field').map((r) => r.c.targetId))];
+	const fields = new Map(
+		(fieldIds.length
+			? db
+					.select({ fieldId: table.eventField.fieldId, raDeg: table.eventField.raDeg, decDeg: table.eventField.decDeg, rank: table.eventField.rank })
+					.from(table.eventField)
+					.where(and(eq(table.eventField.eventId, eventId), inArray(table.eventField.fieldId, fieldIds)))
+					.all()
+			: []
+		).map((f) => [f.fieldId, f])
+	);
+	const counts = new Map(
+		db
+			.select({ claimId: table.observation.claimId })
+			.from(table.observation)
+			.where(and(eq(table.observation.eventId, eventId), inArray(table.observation.claimId, rows.map((r) => r.c.id))))
+			.all()
+			.reduce((m, o) => m.set(o.claimId!, (m.get(o.claimId!) ?? 0) + 1), new Map<string, number>())
+	);
+
+	return rows.map(({ c, teamName, telescopeName, userName }) => {
+		const galaxy = c.targetKind === 'galaxy' ? galaxies.get(c.targetId) : undefined;
+		const field = c.targetKind === 'field' ? fields.get(c.targetId) : undefined;
+		const rank = c.targetKind === 'galaxy' ? (galaxyRank.get(c.targetId) ?? null) : (field?.rank ?? null);
+		return {
+			id: c.id,
+			state: c.state,
+			targetKind: c.targetKind,
+			targetId: c.targetId,
+			targetName: galaxy?.name ?? (c.targetKind === 'field' ? c.targetId : `galaxy ${c.targetId}`),
+			raDeg: galaxy?.raDeg ?? field?.raDeg ?? null,
+			decDeg: galaxy?.decDeg ?? field?.decDeg ?? null,
+			ranked: rank !== null,
+			rank,
+			filter: c.filter,
+			epoch: c.epoch,
+			teamId: c.teamId,
+			teamName,
+			telescopeName,
+			claimedBy: userName,
+			claimedAt: c.claimedAt.toISOString(),
+			startedAt: iso(c.startedAt),
+			doneAt: iso(c.doneAt),
+			endedAt: iso(c.endedAt),
+			pointings: counts.get(c.id) ?? 0
+		};
+	});
+}
+
+/** The work of the person's teams on one event (see the module comment for whose work that is). */
+export function teamWork(eventId: string, user: SessionUser): TeamWork {
+	const coordinator = user.roles.includes('coordinator');
+	const allTeams = coordinator || user.teamIds.length === 0;
+	const teams = db
+		.select({ id: table.team.id, name: table.team.name })
+		.from(table.team)
+		.where(allTeams ? undefined : inArray(table.team.id, user.teamIds))
+		.orderBy(asc(table.team.name))
+		.all();
+	const teamIds = teams.map((t) => t.id);
+	const ofEvent = eq(table.claim.eventId, eventId);
+
+	const pointings = teamIds.length
+		? db
+				.select({ o: table.observation, teamName: table.team.name, telescopeName: table.telescope.name })
+				.from(table.observation)
+				.innerJoin(table.team, eq(table.team.id, table.observation.teamId))
+				.innerJoin(table.telescope, eq(table.telescope.id, table.observation.telescopeId))
+				.where(and(eq(table.observation.eventId, eventId), inArray(table.observation.teamId, teamIds)))
+				.orderBy(desc(table.observation.observedAt))
+				.all()
+				.map(({ o, teamName, telescopeName }) => ({
+					id: o.id,
+					observedAt: o.observedAt.toISOString(),
+					teamName,
+					telescopeName,
+					raDeg: o.raDeg,
+					decDeg: o.decDeg,
+					fieldId: o.fieldId,
+					filter: o.filter,
+					exposureS: o.exposureS,
+					limitingMag: o.limitingMag,
+					source: o.source,
+					claimId: o.claimId
+				}))
+		: [];
+
+	return {
+		scope: { teams, allTeams },
+		claims: teamIds.length ? claimRows(eventId, and(ofEvent, inArray(table.claim.teamId, teamIds))) : [],
+		pointings,
+		openClaims: claimRows(eventId, and(ofEvent, inArray(table.claim.state, [...table.OPEN_CLAIM_STATES])))
+	};
+}
