@@ -2,7 +2,9 @@ import { describe, expect, it } from 'vitest';
 import {
 	conditionalMoments,
 	conditionalPdf,
+	distanceCdf,
 	distanceNorm,
+	distancePValue,
 	dPdV,
 	normalCdf,
 	parametersFromMoments
@@ -84,5 +86,64 @@ describe('Singer et al. 2016 distance ansatz', () => {
 	it('inverse refuses std/mean beyond the Gamma(3) limit 1/√3', () => {
 		expect.hasAssertions();
 		expect(() => parametersFromMoments(100, 60)).toThrow(/too large for the distance ansatz/);
+	});
+});
+
+describe('distanceCdf: cumulative probability of the distance ansatz', () => {
+	// Reference: direct numerical integration of r² N(r; μ, σ) on r > 0 (composite Simpson), each
+	// case's upper end 12σ past the larger of μ and 0, where the remaining tail is below 1e-30.
+	const integral = (mu: number, sigma: number, hi: number) =>
+		simpson((r) => r * r * Math.exp(-0.5 * ((r - mu) / sigma) ** 2), hi, 20000);
+	it('matches numerical integration of r² N(r; μ, σ) for well-measured, truncated and negative-μ cases', () => {
+		expect.hasAssertions();
+		for (const [mu, sigma] of cases) {
+			const end = Math.max(mu, 0) + 12 * sigma;
+			const total = integral(mu, sigma, end);
+			for (const q of [0.05, 0.3, 0.5, 0.8, 1.2, 2]) {
+				const r = Math.max(mu, sigma) * q;
+				const expected = integral(mu, sigma, r) / total;
+				expect(Math.abs(distanceCdf(r, mu, sigma) - expected), `μ=${mu} σ=${sigma} r=${r}`).toBeLessThan(1e-9);
+			}
+		}
+	});
+	it('keeps a far upper tail to relative precision instead of losing it to 1 − F', () => {
+		expect.hasAssertions();
+		const [mu, sigma] = [150, 20];
+		const r = 300; // 7.5σ above μ: 1 − F ≈ 1e-12, which 1 − F computed as a difference would resolve to a few digits at best
+		const f = (x: number) => x * x * Math.exp(-0.5 * ((x - mu) / sigma) ** 2);
+		// The tail integrated on its own interval [r, r + 40σ] (Simpson, shifted), not as a difference.
+		const tail = simpson((x) => f(r + x), 40 * sigma, 40000);
+		const total = simpson(f, 40 * sigma + mu, 40000);
+		const p = distancePValue(r, mu, sigma);
+		expect(p / 2 / (tail / total)).toBeCloseTo(1, 7);
+		expect(p).toBeGreaterThan(0);
+	});
+	it('is 0 at and below r = 0, 1 at infinity, increasing, and NaN without distance information', () => {
+		expect.hasAssertions();
+		expect(distanceCdf(0, 100, 30)).toBe(0);
+		expect(distanceCdf(-5, 100, 30)).toBe(0);
+		expect(distanceCdf(Infinity, 100, 30)).toBe(1);
+		let last = 0;
+		for (let r = 1; r < 400; r += 7) {
+			const f = distanceCdf(r, 100, 30);
+			expect(f).toBeGreaterThanOrEqual(last);
+			last = f;
+		}
+		expect(distanceCdf(100, Infinity, 30)).toBeNaN();
+		expect(distanceCdf(100, 100, 0)).toBeNaN();
+	});
+	it('gives a two-sided p-value of 1 at the median and 2·min(F, 1 − F) elsewhere', () => {
+		expect.hasAssertions();
+		const [mu, sigma] = [120, 35];
+		let lo = 0;
+		let hi = 1000;
+		for (let k = 0; k < 100; k++) {
+			const mid = (lo + hi) / 2;
+			if (distanceCdf(mid, mu, sigma) < 0.5) lo = mid;
+			else hi = mid;
+		}
+		expect(distancePValue(lo, mu, sigma)).toBeCloseTo(1, 9);
+		const f = distanceCdf(60, mu, sigma);
+		expect(distancePValue(60, mu, sigma)).toBeCloseTo(2 * Math.min(f, 1 - f), 15);
 	});
 });

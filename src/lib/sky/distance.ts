@@ -208,3 +208,49 @@ export function parametersFromMoments(meanMpc: number, stdMpc: number): { mu: nu
 	const mu = x * sigma;
 	return { mu, sigma, norm: distanceNorm(mu, sigma) };
 }
+
+/**
+ * Both tails of the distance ansatz p(r|n) ∝ r² N(r; μ, σ), r > 0 (Singer et al. 2016) at R:
+ * `cdf` = F(R) = ∫₀^R p dr and `sf` = 1 − F(R) = ∫_R^∞ p dr. With t = (r − μ)/σ and r = μ + σt,
+ * r² N(r) dr = (μ² + 2μσt + σ²t²) φ(t) dt, and ∫φ = Φ, ∫tφ = −φ, ∫t²φ = Φ − tφ give the antiderivative
+ *   G(t) = (μ² + σ²) Φ(t) − σ φ(t) (μ + r),
+ * so the upper part is U(R) = (μ² + σ²) Q(b) + σ φ(b) (μ + R), b = (R − μ)/σ, Q = 1 − Φ,
+ * the whole is U(0) = (μ² + σ²) Q(a) + σ φ(a) μ, a = −μ/σ, and the lower part is G(b) − G(a).
+ * The smaller tail is computed directly and the other as 1 minus it, so a tail probability keeps
+ * its relative precision far out. Q(x) = Φ(−x) comes from `normalCdf`, accurate in both tails.
+ * NaN when the parameters carry no distance information or the normalisation underflows
+ * (μ/σ below about −37).
+ */
+export function distanceTails(rMpc: number, mu: number, sigma: number): { cdf: number; sf: number } {
+	if (!hasDistance(mu, sigma) || Number.isNaN(rMpc)) return { cdf: NaN, sf: NaN };
+	if (rMpc <= 0) return { cdf: 0, sf: 1 };
+	if (rMpc === Infinity) return { cdf: 1, sf: 0 };
+	const s2 = mu * mu + sigma * sigma;
+	const a = -mu / sigma;
+	const b = (rMpc - mu) / sigma;
+	const total = s2 * normalCdf(-a) + sigma * normalPdf(a) * mu;
+	if (!(total > 0)) return { cdf: NaN, sf: NaN };
+	const upper = s2 * normalCdf(-b) + sigma * normalPdf(b) * (mu + rMpc);
+	const lower = s2 * (normalCdf(b) - normalCdf(a)) - sigma * (normalPdf(b) * (mu + rMpc) - normalPdf(a) * mu);
+	if (upper < lower) {
+		const sf = Math.min(1, Math.max(0, upper / total));
+		return { cdf: 1 - sf, sf };
+	}
+	const cdf = Math.min(1, Math.max(0, lower / total));
+	return { cdf, sf: 1 - cdf };
+}
+
+/** Cumulative probability F(R) of the distance ansatz (see `distanceTails`); 0 for R ≤ 0, 1 at R = ∞. */
+export function distanceCdf(rMpc: number, mu: number, sigma: number): number {
+	return distanceTails(rMpc, mu, sigma).cdf;
+}
+
+/**
+ * Two-sided tail probability of a distance under the ansatz: 2·min(F, 1 − F), the chance that a
+ * distance drawn from the posterior lies at least as far out in either tail (common practice for a
+ * two-sided test). 1 at the median, → 0 far from it; the smaller tail is taken as computed, not as 1 − F.
+ */
+export function distancePValue(rMpc: number, mu: number, sigma: number): number {
+	const t = distanceTails(rMpc, mu, sigma);
+	return Number.isNaN(t.cdf) ? NaN : Math.min(1, 2 * Math.min(t.cdf, t.sf));
+}
