@@ -158,6 +158,9 @@ export interface VettingInputs {
 	mergerTimeMs: number | null;
 	/** The direction looked up in the event's current map; null without a usable map. */
 	sky: SkyLookup | null;
+	/** Which map the lookup came from, and why there is none when `sky` is null (for people). */
+	skymapId?: string | null;
+	skyNote?: string | null;
 	galaxies: readonly RankedGalaxy[];
 	photometry: readonly PhotometryPoint[];
 	thresholds: KilonovaThresholds;
@@ -166,7 +169,10 @@ export interface VettingInputs {
 
 export interface CandidateVetting {
 	computedAt: string;
+	skymapId: string | null;
 	sky: SkyLookup | null;
+	/** Why the sky lookup is missing (no map yet, the map could not be read), else null. */
+	skyNote: string | null;
 	hosts: HostAssociation;
 	timing: {
 		mergerTime: string | null;
@@ -232,7 +238,9 @@ export function vetCandidate(inputs: VettingInputs): CandidateVetting {
 	);
 	return {
 		computedAt: new Date(inputs.nowMs).toISOString(),
+		skymapId: inputs.skymapId ?? null,
 		sky,
+		skyNote: sky ? null : (inputs.skyNote ?? 'the event has no sky map'),
 		hosts,
 		timing: {
 			mergerTime: mergerTimeMs === null ? null : new Date(mergerTimeMs).toISOString(),
