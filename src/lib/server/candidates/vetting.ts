@@ -329,7 +329,7 @@ export function vetEvent(eventId: string, opts: { candidateIds?: string[]; force
 					.set({ kilonovaLikeAt: now })
 					.where(and(eq(table.candidateVetting.candidateId, c.id), sql`${table.candidateVetting.kilonovaLikeAt} IS NULL`))
 					.run().changes === 1;
-			if (first) announceKilonovaLike(event, c, vetting);
+			if (first) announceKilonovaLike(event, c, vetting, now);
 		}
 		outcomes.push({ candidateId: c.id, verdict, recomputed: true, firstKilonovaLike: first });
 	});
@@ -348,7 +348,7 @@ const pct = (x: number) => `${(x * 100).toFixed(x < 0.1 ? 1 : 0)}%`;
 
 let pendingMail: Promise<unknown> = Promise.resolve();
 
-function announceKilonovaLike(event: table.GwEvent, c: table.Candidate, v: CandidateVetting): void {
+function announceKilonovaLike(event: table.GwEvent, c: table.Candidate, v: CandidateVetting, now: Date): void {
 	const payload = {
 		candidateId: c.id,
 		eventId: event.id,
@@ -366,7 +366,7 @@ function announceKilonovaLike(event: table.GwEvent, c: table.Candidate, v: Candi
 		.join(' · ');
 	pendingMail = pendingMail.then(() =>
 		mailRecipients(
-			candidateRecipients(),
+			candidateRecipients(now),
 			(r) => ({
 				subject,
 				text: [

@@ -4,6 +4,7 @@ import { and, eq, isNull } from 'drizzle-orm';
 import { db } from './db';
 import * as table from './db/schema';
 import { hashToken, type SessionUser } from '../people/auth';
+import { DomainError } from './errors';
 
 /** The API's error body: `{ error: { code, message } }`. */
 export function apiError(status: number, code: string, message: string, details?: unknown) {
@@ -69,4 +70,16 @@ export function reporterOf(principal: { user: SessionUser | null; telescopeId?: 
 		.where(and(eq(table.apiToken.tokenHash, hashToken(secret)), isNull(table.apiToken.revokedAt)))
 		.get();
 	return { user: null, telescopeId: principal.telescopeId!, tokenId: token?.id ?? null };
+}
+
+/**
+ * A DomainError as the API's error answer: its status, code and message, and `details` — the
+ * refusal's own list (e.g. numbered CSV lines) when it carries one, else its per-field messages.
+ * Anything else is thrown on to `handleError`.
+ */
+export function domainErrorResponse(e: unknown): Response {
+	if (!(e instanceof DomainError)) throw e;
+	const own = (e as { details?: unknown }).details;
+	const details = own !== undefined ? own : Object.keys(e.fields).length ? e.fields : undefined;
+	return apiError(e.status, e.code, e.message, details);
 }
