@@ -20,7 +20,10 @@ export const decisionInput = z.discriminatedUnion(
 	[
 		z.object({ state: z.literal('rejected'), reason: z.enum(REJECTION_REASONS, { error: `reason must be one of ${REJECTION_REASONS.join(', ')}` }), note: note.optional() }),
 		z.object({ state: z.literal('promoted'), note: note.optional() }),
-		z.object({ state: z.literal('open'), note: note.min(1, 'say why the candidate is reopened') })
+		z.object({
+			state: z.literal('open'),
+			note: z.string({ error: 'say why the candidate is reopened' }).trim().min(1, 'say why the candidate is reopened').max(2000, 'the note must be at most 2000 characters')
+		})
 	],
 	{ error: 'state must be rejected, promoted or open' }
 );

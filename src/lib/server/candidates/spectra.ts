@@ -54,7 +54,12 @@ export function uploadSpectrum(user: SessionUser, candidateId: string, file: { b
 	if (!meta.success) throw new CandidateError(422, 'invalid', meta.error.issues[0].message, { [String(meta.error.issues[0].path[0] ?? 'file')]: meta.error.issues[0].message });
 	const name = meta.data.fileName || 'spectrum';
 	if (file.bytes.length > MAX_SPECTRUM_BYTES)
-		throw new CandidateError(413, 'too_large', `${name} is ${megabytes(file.bytes.length)}, over the limit of ${megabytes(MAX_SPECTRUM_BYTES)} for a spectrum.`, { file: 'over the size limit' });
+		throw new CandidateError(
+			413,
+			'too_large',
+			`${name} is ${megabytes(file.bytes.length)} (${file.bytes.length.toLocaleString('en')} bytes), over the limit of ${megabytes(MAX_SPECTRUM_BYTES)} (${MAX_SPECTRUM_BYTES.toLocaleString('en')} bytes) for a spectrum.`,
+			{ file: 'over the size limit' }
+		);
 	const empty = fileSizeProblem(file.bytes.length, MAX_SPECTRUM_BYTES);
 	if (empty) throw new CandidateError(422, 'invalid_spectrum', `${name} cannot be read as a spectrum: ${empty}.`, { file: empty });
 	let summary: SpectrumSummary;
