@@ -9,6 +9,7 @@ import { installRealtime } from '$lib/server/platform/realtime';
 import { installDuty } from '$lib/server/duty/paging';
 import { installTargets } from '$lib/server/targeting/rankings';
 import { installClaims } from '$lib/server/coordination/claims';
+import { installVetting } from '$lib/server/candidates/vetting';
 import { startAlerts } from '$lib/server/alerts/service';
 
 export const init: ServerInit = async () => {
@@ -17,6 +18,7 @@ export const init: ServerInit = async () => {
 	installDuty();
 	installTargets();
 	installClaims();
+	installVetting();
 	await startMail();
 	// Last: the broker listener may start processing notices at once.
 	await startAlerts();

@@ -11,6 +11,15 @@ import type { NoticeKind, NoticeRole, TriageVerdict } from './event-view.ts';
 import type { SkymapSummary } from './sky/index.ts';
 import type { TriagePolicyInput } from './alerts/triage.ts';
 import type { RoleName } from './roles.ts';
+import type { CandidateState, ClassificationLabel, Confidence, RejectionReason } from './candidates/labels.ts';
+import type { KilonovaVerdict, ThresholdChanges } from './candidates/rules.ts';
+
+/** The candidate a message is about. */
+export type CandidateRef = {
+	candidateId: string;
+	eventId: string;
+	name: string;
+};
 
 /** Rooms: the board (everything of interest to every signed-in client) or one event. */
 export type Room = 'board' | `event:${string}`;
@@ -122,6 +131,33 @@ export interface LivePayloads {
 		nearCandidateIds: string[];
 	};
 
+	'candidate.photometry': CandidateRef & { added: number; filters: string[]; detections: number; upperLimits: number };
+	'candidate.vetted': CandidateRef & { verdict: KilonovaVerdict; previousVerdict: KilonovaVerdict | null; credibleLevel: number | null; hostGalaxyId: string | null };
+	/** The rules called the candidate kilonova-like for the first time. */
+	'candidate.kilonova-like': CandidateRef & { credibleLevel: number | null; hostGalaxyId: string | null; reasons: string[] };
+	'candidate.taken': CandidateRef & { takeId: string; userId: string; note: string };
+	'candidate.released': CandidateRef & { takeId: string; userId: string };
+	'candidate.spectrum': CandidateRef & {
+		spectrumId: string;
+		format: 'ascii' | 'fits-table' | 'fits-image';
+		points: number;
+		wavelengthMin: number;
+		wavelengthMax: number;
+		completedTakeId: string | null;
+	};
+	'candidate.classified': CandidateRef & {
+		classificationId: string;
+		label: ClassificationLabel;
+		confidence: Confidence;
+		redshift: number | null;
+		summary: string;
+		status: string;
+	};
+	'candidate.decided': CandidateRef & { state: CandidateState; from: CandidateState; reason: RejectionReason | null; summary: string };
+	'candidate.comment': CandidateRef & { commentId: string };
+	'candidate.mail-failed': { eventId: string; candidateId: string; userId: string; error: string };
+	'kilonova.thresholds-changed': { changes: ThresholdChanges };
+
 	// ── people ──
 	'person.invited': { invitationId: string; email: string; roles: RoleName[] };
 	'person.invitation-withdrawn': { invitationId: string };
@@ -185,6 +221,17 @@ export const ACTION_TOPIC: { readonly [A in LiveAction]: LiveTopic } = {
 	'claim.settings': 'claims',
 	'observation.reported': 'observations',
 	'candidate.reported': 'candidates',
+	'candidate.photometry': 'candidates',
+	'candidate.vetted': 'candidates',
+	'candidate.kilonova-like': 'candidates',
+	'candidate.taken': 'candidates',
+	'candidate.released': 'candidates',
+	'candidate.spectrum': 'candidates',
+	'candidate.classified': 'candidates',
+	'candidate.decided': 'candidates',
+	'candidate.comment': 'candidates',
+	'candidate.mail-failed': 'candidates',
+	'kilonova.thresholds-changed': 'candidates',
 	'person.invited': 'people',
 	'person.invitation-withdrawn': 'people',
 	'person.joined': 'people',

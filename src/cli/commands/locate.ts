@@ -37,13 +37,23 @@ const command: CommandModule = {
 			distanceMean: r.distanceMean,
 			distanceStd: r.distanceStd
 		};
-		if (distance !== undefined) json.dPdV = r.dPdV ?? null;
+		if (distance !== undefined) {
+			json.dPdV = r.dPdV ?? null;
+			json.distanceCdf = r.distanceCdf ?? null;
+			json.distancePValue = r.distancePValue ?? null;
+		}
 		const text = [
 			`direction          RA ${ra}°, Dec ${dec}°`,
 			`credible level     ${(r.credibleLevel * 100).toFixed(2)}%`,
 			`density            ${r.probabilityDensity.toPrecision(6)} per sr`,
 			`distance           ${r.distanceMean === null ? 'no distance information' : `${r.distanceMean.toFixed(1)} ± ${r.distanceStd!.toFixed(1)} Mpc`}`,
-			...(distance !== undefined ? [`dP/dV at ${distance} Mpc ${r.dPdV === null || r.dPdV === undefined ? 'n/a' : r.dPdV.toPrecision(6) + ' per Mpc³'}`] : [])
+			...(distance !== undefined
+				? [
+						`dP/dV at ${distance} Mpc ${r.dPdV === null || r.dPdV === undefined ? 'n/a' : r.dPdV.toPrecision(6) + ' per Mpc³'}`,
+						`distance CDF       ${r.distanceCdf === null || r.distanceCdf === undefined ? 'n/a' : r.distanceCdf.toPrecision(6)}`,
+						`two-sided p        ${r.distancePValue === null || r.distancePValue === undefined ? 'n/a' : r.distancePValue.toPrecision(6)}`
+					]
+				: [])
 		].join('\n');
 		return { json, text };
 	}

@@ -138,3 +138,62 @@ describe('conditional distance CDF and two-sided tail probability', () => {
 		expect(conditionalCdf(100, 50, 0)).toBeNull();
 	});
 });
+
+describe('conditionalCdf (closed-form tails): cumulative probability of the distance ansatz', () => {
+	// Reference: direct numerical integration of r² N(r; μ, σ) on r > 0 (composite Simpson), each
+	// case's upper end 12σ past the larger of μ and 0, where the remaining tail is below 1e-30.
+	const integral = (mu: number, sigma: number, hi: number) =>
+		simpson((r) => r * r * Math.exp(-0.5 * ((r - mu) / sigma) ** 2), hi, 20000);
+	it('matches numerical integration of r² N(r; μ, σ) for well-measured, truncated and negative-μ cases', () => {
+		expect.hasAssertions();
+		for (const [mu, sigma] of cases) {
+			const end = Math.max(mu, 0) + 12 * sigma;
+			const total = integral(mu, sigma, end);
+			for (const q of [0.05, 0.3, 0.5, 0.8, 1.2, 2]) {
+				const r = Math.max(mu, sigma) * q;
+				const expected = integral(mu, sigma, r) / total;
+				expect(Math.abs(conditionalCdf(r, mu, sigma)! - expected), `μ=${mu} σ=${sigma} r=${r}`).toBeLessThan(1e-9);
+			}
+		}
+	});
+	it('keeps a far upper tail to relative precision instead of losing it to 1 − F', () => {
+		expect.hasAssertions();
+		const [mu, sigma] = [150, 20];
+		const r = 300; // 7.5σ above μ: 1 − F ≈ 1e-12, which 1 − F computed as a difference would resolve to a few digits at best
+		const f = (x: number) => x * x * Math.exp(-0.5 * ((x - mu) / sigma) ** 2);
+		// The tail integrated on its own interval [r, r + 40σ] (Simpson, shifted), not as a difference.
+		const tail = simpson((x) => f(r + x), 40 * sigma, 40000);
+		const total = simpson(f, 40 * sigma + mu, 40000);
+		const p = distancePValue(r, mu, sigma)!;
+		expect(p / 2 / (tail / total)).toBeCloseTo(1, 7);
+		expect(p).toBeGreaterThan(0);
+	});
+	it('is 0 at and below r = 0, 1 at infinity, increasing, and NaN without distance information', () => {
+		expect.hasAssertions();
+		expect(conditionalCdf(0, 100, 30)).toBe(0);
+		expect(conditionalCdf(-5, 100, 30)).toBe(0);
+		expect(conditionalCdf(Infinity, 100, 30)).toBe(1);
+		let last = 0;
+		for (let r = 1; r < 400; r += 7) {
+			const f = conditionalCdf(r, 100, 30)!;
+			expect(f).toBeGreaterThanOrEqual(last);
+			last = f;
+		}
+		expect(conditionalCdf(100, Infinity, 30)).toBeNull();
+		expect(conditionalCdf(100, 100, 0)).toBeNull();
+	});
+	it('gives a two-sided p-value of 1 at the median and 2·min(F, 1 − F) elsewhere', () => {
+		expect.hasAssertions();
+		const [mu, sigma] = [120, 35];
+		let lo = 0;
+		let hi = 1000;
+		for (let k = 0; k < 100; k++) {
+			const mid = (lo + hi) / 2;
+			if (conditionalCdf(mid, mu, sigma)! < 0.5) lo = mid;
+			else hi = mid;
+		}
+		expect(distancePValue(lo, mu, sigma)).toBeCloseTo(1, 9);
+		const f = conditionalCdf(60, mu, sigma)!;
+		expect(distancePValue(60, mu, sigma)).toBeCloseTo(2 * Math.min(f, 1 - f), 15);
+	});
+});

@@ -157,12 +157,8 @@ function ansatzTails(rMpc: number, mu: number, sigma: number): { lower: number; 
  * Null when the parameters carry no distance information.
  */
 export function conditionalCdf(rMpc: number, mu: number, sigma: number): number | null {
-	if (!hasDistance(mu, sigma) || Number.isNaN(rMpc)) return null;
-	if (!(rMpc > 0)) return 0;
-	if (rMpc === Infinity) return 1;
-	const { lower, upper } = ansatzTails(rMpc, mu, sigma);
-	const total = lower + upper;
-	return total > 0 ? Math.min(1, lower / total) : null;
+	const { cdf } = distanceTails(rMpc, mu, sigma);
+	return Number.isNaN(cdf) ? null : cdf;
 }
 
 /**
@@ -171,12 +167,9 @@ export function conditionalCdf(rMpc: number, mu: number, sigma: number): number 
  * each tail computed directly. 1 at the median, → 0 far outside. Null without distance information.
  */
 export function distancePValue(rMpc: number, mu: number, sigma: number): number | null {
-	if (!hasDistance(mu, sigma) || !Number.isFinite(rMpc)) return null;
-	if (!(rMpc > 0)) return 0;
-	const { lower, upper } = ansatzTails(rMpc, mu, sigma);
-	const total = lower + upper;
-	if (!(total > 0)) return null;
-	return Math.min(1, (2 * Math.min(lower, upper)) / total);
+	if (!Number.isFinite(rMpc)) return null;
+	const { cdf, sf } = distanceTails(rMpc, mu, sigma);
+	return Number.isNaN(cdf) ? null : Math.min(1, 2 * Math.min(cdf, sf));
 }
 
 /**
@@ -257,4 +250,20 @@ export function parametersFromMoments(meanMpc: number, stdMpc: number): { mu: nu
 	const sigma = meanMpc / (m.m3 / m.m2);
 	const mu = x * sigma;
 	return { mu, sigma, norm: distanceNorm(mu, sigma) };
+}
+
+/**
+ * Both tails of the distance ansatz p(r|n) ∝ r² N(r; μ, σ), r > 0 (Singer et al. 2016) at R:
+ * `cdf` = F(R) = ∫₀^R p dr and `sf` = 1 − F(R) = ∫_R^∞ p dr, each summed on its own in closed form
+ * (`ansatzTails`), so a far tail keeps its relative precision. NaN when the parameters carry no
+ * distance information or the normalisation underflows.
+ */
+export function distanceTails(rMpc: number, mu: number, sigma: number): { cdf: number; sf: number } {
+	if (!hasDistance(mu, sigma) || Number.isNaN(rMpc)) return { cdf: NaN, sf: NaN };
+	if (!(rMpc > 0)) return { cdf: 0, sf: 1 };
+	if (rMpc === Infinity) return { cdf: 1, sf: 0 };
+	const { lower, upper } = ansatzTails(rMpc, mu, sigma);
+	const total = lower + upper;
+	if (!(total > 0)) return { cdf: NaN, sf: NaN };
+	return { cdf: Math.min(1, lower / total), sf: Math.min(1, upper / total) };
 }

@@ -3,7 +3,7 @@
  * optionally gzip) and answer the questions follow-up planning asks of it.
  */
 import { credibleLevelAt, credibleRegions, peak as peakOf } from './credible.ts';
-import { conditionalMoments, dPdV, hasDistance, marginalMoments } from './distance.ts';
+import { conditionalMoments, distanceTails, dPdV, hasDistance, marginalMoments } from './distance.ts';
 import { areaTable, pixelAt, readSkyMap, type ReadSkyMapOptions, type SkyMap } from './moc.ts';
 import { pixelAreaSr } from './coords.ts';
 
@@ -82,12 +82,17 @@ export interface LocateResult {
 	distanceStd: number | null;
 	/** Per Mpc³; present only when a distance was given. */
 	dPdV?: number | null;
+	/** F(distance) of the conditional distance posterior in this direction; present only when a distance was given. */
+	distanceCdf?: number | null;
+	/** Two-sided tail probability 2·min(F, 1 − F); present only when a distance was given. */
+	distancePValue?: number | null;
 }
 
 /**
  * What the map says about one direction (RA/Dec degrees) and optionally a distance (Mpc):
  * credible level (probability in all denser pixels), density per sr, the conditional distance
- * posterior's mean/std, and dP/dV (Singer et al. 2016).
+ * posterior's mean/std, and at a distance dP/dV (Singer et al. 2016) with the posterior's cumulative
+ * probability F there and the two-sided tail probability 2·min(F, 1 − F).
  */
 export function locate(map: SkyMap, raDeg: number, decDeg: number, distanceMpc?: number): LocateResult {
 	if (!Number.isFinite(raDeg) || !Number.isFinite(decDeg) || decDeg < -90 || decDeg > 90) {
@@ -99,6 +104,8 @@ export function locate(map: SkyMap, raDeg: number, decDeg: number, distanceMpc?:
 	let mean: number | null = null;
 	let std: number | null = null;
 	let dpdv: number | null = null;
+	let cdf: number | null = null;
+	let pValue: number | null = null;
 	if (i >= 0 && map.distMu && map.distSigma) {
 		const mu = map.distMu[i];
 		const sigma = map.distSigma[i];
@@ -106,9 +113,20 @@ export function locate(map: SkyMap, raDeg: number, decDeg: number, distanceMpc?:
 		const c = hasDistance(mu, sigma, norm) ? conditionalMoments(mu, sigma) : null;
 		mean = c?.meanMpc ?? null;
 		std = c?.stdMpc ?? null;
-		if (distanceMpc !== undefined && c) dpdv = dPdV(density, distanceMpc, mu, sigma, norm);
+		if (distanceMpc !== undefined && c) {
+			dpdv = dPdV(density, distanceMpc, mu, sigma, norm);
+			const t = distanceTails(distanceMpc, mu, sigma);
+			if (!Number.isNaN(t.cdf)) {
+				cdf = t.cdf;
+				pValue = Math.min(1, 2 * Math.min(t.cdf, t.sf));
+			}
+		}
 	}
 	const result: LocateResult = { credibleLevel: level, probabilityDensity: density, distanceMean: mean, distanceStd: std };
-	if (distanceMpc !== undefined) result.dPdV = dpdv;
+	if (distanceMpc !== undefined) {
+		result.dPdV = dpdv;
+		result.distanceCdf = cdf;
+		result.distancePValue = pValue;
+	}
 	return result;
 }

@@ -82,7 +82,10 @@ export interface CandidateRow {
 	/** The person's name, or 'telescope <name>' for a token. */
 	reportedBy: string;
 	notes: string;
+	/** The label every current classification agrees on, 'disputed', or null before any. */
 	classification: string | null;
+	/** Open, rejected (with a reason, see the decisions) or promoted for a spectrum. */
+	state: table.Candidate['state'];
 	createdAt: string;
 	/** Other candidates of the event within NEAR_ARCSEC, nearest first. */
 	near: NearCandidate[];
@@ -118,7 +121,8 @@ export function angularSeparationDeg(ra1Deg: number, dec1Deg: number, ra2Deg: nu
 	return Math.atan2(Math.hypot(a, b), sd1 * sd2 + cd1 * cd2 * cda) / DEG;
 }
 
-function uniqueViolation(e: unknown): boolean {
+/** Whether a database error is a unique-index violation (the index decided a race). */
+export function uniqueViolation(e: unknown): boolean {
 	for (let c: unknown = e; c && typeof c === 'object'; c = (c as { cause?: unknown }).cause) {
 		if ((c as { code?: unknown }).code === 'SQLITE_CONSTRAINT_UNIQUE') return true;
 		if ((c as { cause?: unknown }).cause === c) break;
@@ -126,13 +130,14 @@ function uniqueViolation(e: unknown): boolean {
 	return false;
 }
 
-function fieldErrorsOf(e: z.ZodError): Record<string, string> {
+export function fieldErrorsOf(e: z.ZodError): Record<string, string> {
 	const out: Record<string, string> = {};
 	for (const i of e.issues) out[i.path.join('.') || 'body'] ??= i.message;
 	return out;
 }
 
-const joinFields = (fields: Record<string, string>) => Object.values(fields).join(' ');
+/** Every field's message, one sentence after another (the messages name their fields in people's words). */
+export const joinFields = (fields: Record<string, string>) => Object.values(fields).join(' ');
 
 /** The candidate already holding this name in the event (case-insensitive), with its team. */
 function holderOfName(eventId: string, name: string) {
@@ -324,6 +329,7 @@ function candidateRows(where: SQL | undefined, limit?: number): CandidateRow[] {
 		reportedBy: userName ?? (tokenTelescope ? `telescope ${tokenTelescope}` : c.reportedByTokenId ? 'a telescope token' : '—'),
 		notes: c.notes,
 		classification: c.classification,
+		state: c.state,
 		createdAt: c.createdAt.toISOString(),
 		near: nearTo(c.eventId, c.raDeg, c.decDeg, c.id)
 	}));
@@ -364,4 +370,55 @@ export function listAllCandidates(limit = 500): { candidates: (CandidateRow & { 
 	const sourceOf = new Map(events.map((e) => [e.eventId, e.sourceEventId]));
 	const candidates = candidateRows(undefined, limit).map((c) => ({ ...c, sourceEventId: sourceOf.get(c.eventId) ?? c.eventId }));
 	return { candidates, events };
+}
+
+/** A candidate and its event, for the work that follows the report (photometry, spectra, classification, decisions). */
+export interface CandidateInWork {
+	candidate: table.Candidate;
+	event: table.GwEvent;
+}
+
+/**
+ * The candidate a change is about, refused as CandidateError: 404 when there is no such candidate,
+ * 409 `event_retracted` when its event was retracted (`doing` completes the sentence, e.g.
+ * "photometry is not taken"), so that no effort goes to a false alert.
+ */
+export function candidateForWork(candidateId: string, doing: string): CandidateInWork {
+	const found = db
+		.select({ candidate: table.candidate, event: table.gwEvent })
+		.from(table.candidate)
+		.innerJoin(table.gwEvent, eq(table.gwEvent.id, table.candidate.eventId))
+		.where(eq(table.candidate.id, candidateId))
+		.get();
+	if (!found) throw new CandidateError(404, 'not_found', `No candidate ${candidateId || '(none given)'}.`);
+	if (found.event.state === 'retracted')
+		throw new CandidateError(
+			409,
+			'event_retracted',
+			`Event ${found.event.sourceEventId} was retracted by its source; ${doing} for its candidates, so that no telescope time goes to a false alert.`
+		);
+	return found;
+}
+
+/** The actor a log entry names: the person, or the telescope behind a token. */
+export function actorOfReporter(reporter: CandidateReporter): Actor {
+	if (reporter.user) return actorOf(reporter.user);
+	const name = db.select({ name: table.telescope.name }).from(table.telescope).where(eq(table.telescope.id, reporter.telescopeId)).get()?.name;
+	return { userId: null, label: `telescope ${name ?? reporter.telescopeId}` };
+}
+
+/** One candidate as pages show it, or null. */
+export function candidateRow(candidateId: string): CandidateRow | null {
+	return candidateRows(eq(table.candidate.id, candidateId))[0] ?? null;
+}
+
+/** The candidate of an event by name (case-insensitive), or null. */
+export function candidateIdByName(eventId: string, name: string): string | null {
+	return (
+		db
+			.select({ id: table.candidate.id })
+			.from(table.candidate)
+			.where(and(eq(table.candidate.eventId, eventId), sql`lower(${table.candidate.name}) = lower(${name})`))
+			.get()?.id ?? null
+	);
 }

@@ -37,7 +37,13 @@ describe('permissions table', () => {
 			'claims.manage': ['coordinator'],
 			'targets.catalog': ['coordinator'],
 			'observations.report': ['observer', 'coordinator'],
-			'candidates.report': ['observer', 'coordinator']
+			'candidates.report': ['observer', 'coordinator'],
+			'candidates.photometry': ['observer', 'spectroscopist', 'coordinator'],
+			'candidates.spectroscopy': ['spectroscopist', 'coordinator'],
+			'candidates.classify': ['spectroscopist', 'coordinator'],
+			'candidates.decide': ['duty', 'observer', 'spectroscopist', 'coordinator'],
+			'candidates.discuss': ['admin', 'coordinator', 'duty', 'observer', 'spectroscopist'],
+			'kilonova.thresholds': ['coordinator']
 		};
 		expect(Object.keys(PERMISSIONS).sort()).toEqual(Object.keys(expected).sort());
 		for (const [perm, roles] of Object.entries(expected) as [Permission, Role[]][]) {

@@ -36,7 +36,16 @@ export const PERMISSIONS = {
 	/** Switch the galaxy catalogue an event is ranked against (re-ranks it). */
 	'targets.catalog': { roles: ['coordinator'] },
 	'observations.report': { roles: ['observer', 'coordinator'], robot: true },
-	'candidates.report': { roles: ['observer', 'coordinator'], robot: true }
+	'candidates.report': { roles: ['observer', 'coordinator'], robot: true },
+	// After the report: light curves come from the teams (and their robots); spectra and
+	// classifications from spectroscopists; anyone who works the event may set a candidate aside
+	// or promote it, and discuss it; the kilonova thresholds are the coordinators'.
+	'candidates.photometry': { roles: ['observer', 'spectroscopist', 'coordinator'], robot: true },
+	'candidates.spectroscopy': { roles: ['spectroscopist', 'coordinator'] },
+	'candidates.classify': { roles: ['spectroscopist', 'coordinator'] },
+	'candidates.decide': { roles: ['duty', 'observer', 'spectroscopist', 'coordinator'] },
+	'candidates.discuss': { roles: ['admin', 'coordinator', 'duty', 'observer', 'spectroscopist'] },
+	'kilonova.thresholds': { roles: ['coordinator'] }
 } as const satisfies Record<string, { roles: readonly Role[]; robot?: boolean }>;
 
 export type Permission = keyof typeof PERMISSIONS;

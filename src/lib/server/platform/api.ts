@@ -31,7 +31,9 @@ const CODES: Record<number, string> = {
  */
 export function apiErrorFrom(e: unknown): Response {
 	if (!(e instanceof DomainError)) throw e;
-	return apiError(e.status, e.code, e.message, Object.keys(e.fields).length ? e.fields : undefined);
+	// An error may carry richer details than its field messages (numbered CSV lines, say).
+	const own = (e as { details?: unknown }).details;
+	return apiError(e.status, e.code, e.message, own !== undefined ? own : Object.keys(e.fields).length ? e.fields : undefined);
 }
 
 /** Wrap a `+server.ts` handler so expected failures (`error(...)`, a DomainError) come out in the API's error shape. */
@@ -79,3 +81,4 @@ export function reporterOf(principal: { user: SessionUser | null; telescopeId?: 
 		.get();
 	return { user: null, telescopeId: principal.telescopeId!, tokenId: token?.id ?? null };
 }
+

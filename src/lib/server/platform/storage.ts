@@ -3,7 +3,7 @@
  * Rows keep paths relative to that folder, so the folder can move with the database.
  */
 import { createHash, randomBytes } from 'node:crypto';
-import { mkdirSync, readFileSync, renameSync, writeFileSync, existsSync } from 'node:fs';
+import { mkdirSync, readFileSync, renameSync, rmSync, writeFileSync, existsSync } from 'node:fs';
 import { dirname, isAbsolute, relative, resolve, sep } from 'node:path';
 import { config } from './config';
 
@@ -54,6 +54,11 @@ export function saveFile(folder: string, name: string, bytes: Uint8Array): Store
 
 export function readStoredFile(relativePath: string): Buffer {
 	return readFileSync(storagePath(relativePath));
+}
+
+/** Remove a stored file (a row that was to point at it could not be written); absent files are fine. */
+export function deleteStoredFile(relativePath: string): void {
+	rmSync(storagePath(relativePath), { force: true });
 }
 
 export function storedFileExists(relativePath: string): boolean {

@@ -2,6 +2,10 @@ import { sql } from 'drizzle-orm';
 import { ROLES_LIST } from '../../../roles';
 import type { SkymapSummary } from '../../../sky/index';
 import type { Classification, TriageVerdict } from '../../../event-view';
+import type { KilonovaVerdict, ThresholdChanges } from '../../../candidates/rules';
+import type { CandidateVetting } from '../../../candidates/vetting';
+import type { SpectrumFormat, SpectrumSummary } from '../../../candidates/spectrum';
+import { CANDIDATE_STATES, CLASSIFICATION_LABELS, CONFIDENCE_LEVELS, REJECTION_REASONS } from '../../../candidates/labels';
 import { sqliteTable, text, integer, real, primaryKey, index, uniqueIndex, check } from 'drizzle-orm/sqlite-core';
 
 /** Roles a person can hold; one person may hold several. */
@@ -644,8 +648,10 @@ export const candidate = sqliteTable(
 		reportedByUserId: text('reported_by_user_id').references(() => user.id, { onDelete: 'set null' }),
 		reportedByTokenId: text('reported_by_token_id').references(() => apiToken.id, { onDelete: 'set null' }),
 		notes: text('notes').notNull().default(''),
-		/** Set by spectroscopic classification (not yet built); null until then. */
+		/** The label every current classification agrees on, 'disputed' when they disagree, null before any. */
 		classification: text('classification'),
+		/** Where the candidate stands: open, rejected (with a reason) or promoted for a spectrum; history in candidate_decision. */
+		state: text('state', { enum: CANDIDATE_STATES }).notNull().default('open'),
 		createdAt: createdAt()
 	},
 	(t) => [
@@ -660,3 +666,163 @@ export const candidate = sqliteTable(
 );
 
 export type Candidate = typeof candidate.$inferSelect;
+
+export const PHOTOMETRY_SOURCES = ['json', 'csv', 'form'] as const;
+export const SPECTRUM_TAKE_STATES = ['taken', 'released', 'done'] as const;
+export type SpectrumTakeState = (typeof SPECTRUM_TAKE_STATES)[number];
+
+/** One measurement of a candidate: a detection (mag, mag_err) or an upper limit (limit_mag). */
+export const candidatePhotometry = sqliteTable(
+	'candidate_photometry',
+	{
+		id: text('id').primaryKey(),
+		candidateId: text('candidate_id')
+			.notNull()
+			.references(() => candidate.id, { onDelete: 'cascade' }),
+		observedAt: integer('observed_at', { mode: 'timestamp_ms' }).notNull(),
+		filter: text('filter').notNull(),
+		mag: real('mag'),
+		magErr: real('mag_err'),
+		limitMag: real('limit_mag'),
+		/** The reported pointing the measurement was made on, when the reporter names it. */
+		observationId: text('observation_id').references(() => observation.id, { onDelete: 'set null' }),
+		reportedByUserId: text('reported_by_user_id').references(() => user.id, { onDelete: 'set null' }),
+		reportedByTokenId: text('reported_by_token_id').references(() => apiToken.id, { onDelete: 'set null' }),
+		source: text('source', { enum: PHOTOMETRY_SOURCES }).notNull(),
+		createdAt: createdAt()
+	},
+	(t) => [
+		// One measurement per filter and instant: a second upload of the same file is refused, not doubled.
+		uniqueIndex('candidate_photometry_uq').on(t.candidateId, t.filter, t.observedAt),
+		check('candidate_photometry_kind', sql`${t.mag} IS NOT NULL OR ${t.limitMag} IS NOT NULL`),
+		check('candidate_photometry_err', sql`${t.mag} IS NULL OR ${t.magErr} > 0`)
+	]
+);
+
+/** A 1-D spectrum file of a candidate, read and summarised before it was stored. */
+export const candidateSpectrum = sqliteTable(
+	'candidate_spectrum',
+	{
+		id: text('id').primaryKey(),
+		candidateId: text('candidate_id')
+			.notNull()
+			.references(() => candidate.id, { onDelete: 'cascade' }),
+		/** Relative to the storage folder (never under static/). */
+		filePath: text('file_path').notNull(),
+		originalName: text('original_name').notNull(),
+		bytes: integer('bytes').notNull(),
+		sha256: text('sha256').notNull(),
+		format: text('format').$type<SpectrumFormat>().notNull(),
+		summary: text('summary', { mode: 'json' }).$type<SpectrumSummary>().notNull(),
+		notes: text('notes').notNull().default(''),
+		uploadedByUserId: text('uploaded_by_user_id').references(() => user.id, { onDelete: 'set null' }),
+		createdAt: createdAt()
+	},
+	(t) => [index('candidate_spectrum_idx').on(t.candidateId, t.createdAt)]
+);
+
+/** Who is getting a spectrum of a candidate: at most one open take per candidate (the index decides). */
+export const spectrumTake = sqliteTable(
+	'spectrum_take',
+	{
+		id: text('id').primaryKey(),
+		candidateId: text('candidate_id')
+			.notNull()
+			.references(() => candidate.id, { onDelete: 'cascade' }),
+		userId: text('user_id')
+			.notNull()
+			.references(() => user.id, { onDelete: 'cascade' }),
+		state: text('state', { enum: SPECTRUM_TAKE_STATES }).notNull().default('taken'),
+		/** Instrument, night, expected time: whatever helps others plan. */
+		note: text('note').notNull().default(''),
+		takenAt: integer('taken_at', { mode: 'timestamp_ms' }).notNull(),
+		endedAt: integer('ended_at', { mode: 'timestamp_ms' })
+	},
+	(t) => [uniqueIndex('spectrum_take_open_uq').on(t.candidateId).where(sql`state = 'taken'`), index('spectrum_take_candidate_idx').on(t.candidateId, t.takenAt)]
+);
+
+/** One person's verdict on what a candidate is. Several may disagree; each author's latest counts. */
+export const candidateClassification = sqliteTable(
+	'candidate_classification',
+	{
+		id: text('id').primaryKey(),
+		candidateId: text('candidate_id')
+			.notNull()
+			.references(() => candidate.id, { onDelete: 'cascade' }),
+		label: text('label', { enum: CLASSIFICATION_LABELS }).notNull(),
+		confidence: text('confidence', { enum: CONFIDENCE_LEVELS }).notNull(),
+		redshift: real('redshift'),
+		notes: text('notes').notNull().default(''),
+		/** The spectrum it rests on, when named. */
+		spectrumId: text('spectrum_id').references(() => candidateSpectrum.id, { onDelete: 'set null' }),
+		authorUserId: text('author_user_id').references(() => user.id, { onDelete: 'set null' }),
+		createdAt: createdAt()
+	},
+	(t) => [index('candidate_classification_idx').on(t.candidateId, t.createdAt), check('candidate_classification_z', sql`${t.redshift} IS NULL OR ${t.redshift} BETWEEN -0.01 AND 10`)]
+);
+
+/** A person setting a candidate's state, with the reason: its history, newest last. */
+export const candidateDecision = sqliteTable(
+	'candidate_decision',
+	{
+		id: text('id').primaryKey(),
+		candidateId: text('candidate_id')
+			.notNull()
+			.references(() => candidate.id, { onDelete: 'cascade' }),
+		state: text('state', { enum: CANDIDATE_STATES }).notNull(),
+		/** Required for 'rejected'. */
+		reason: text('reason', { enum: REJECTION_REASONS }),
+		note: text('note').notNull().default(''),
+		userId: text('user_id').references(() => user.id, { onDelete: 'set null' }),
+		createdAt: createdAt()
+	},
+	(t) => [
+		index('candidate_decision_idx').on(t.candidateId, t.createdAt),
+		check('candidate_decision_reason', sql`(${t.state} = 'rejected') = (${t.reason} IS NOT NULL)`)
+	]
+);
+
+/** The discussion thread of a candidate. */
+export const candidateComment = sqliteTable(
+	'candidate_comment',
+	{
+		id: text('id').primaryKey(),
+		candidateId: text('candidate_id')
+			.notNull()
+			.references(() => candidate.id, { onDelete: 'cascade' }),
+		userId: text('user_id').references(() => user.id, { onDelete: 'set null' }),
+		body: text('body').notNull(),
+		createdAt: createdAt()
+	},
+	(t) => [index('candidate_comment_idx').on(t.candidateId, t.createdAt)]
+);
+
+/** The coordinators' changes to the kilonova-likeness thresholds (one row, id = 1); the rest are the defaults in code. */
+export const kilonovaRules = sqliteTable('kilonova_rules', {
+	id: integer('id').primaryKey(),
+	changes: text('changes', { mode: 'json' }).$type<ThresholdChanges>().notNull(),
+	updatedBy: text('updated_by').references(() => user.id, { onDelete: 'set null' }),
+	updatedAt: integer('updated_at', { mode: 'timestamp_ms' }).notNull()
+});
+
+/** The latest vetting of a candidate, recomputed when its inputs change (`inputs_key` names them). */
+export const candidateVetting = sqliteTable('candidate_vetting', {
+	candidateId: text('candidate_id')
+		.primaryKey()
+		.references(() => candidate.id, { onDelete: 'cascade' }),
+	inputsKey: text('inputs_key').notNull(),
+	vetting: text('vetting', { mode: 'json' }).$type<CandidateVetting>().notNull(),
+	verdict: text('verdict').$type<KilonovaVerdict>().notNull(),
+	computedAt: integer('computed_at', { mode: 'timestamp_ms' }).notNull(),
+	/** When the rules first called it kilonova-like; the announcement goes out once, guarded on this. */
+	kilonovaLikeAt: integer('kilonova_like_at', { mode: 'timestamp_ms' })
+});
+
+export type CandidatePhotometry = typeof candidatePhotometry.$inferSelect;
+export type CandidateSpectrum = typeof candidateSpectrum.$inferSelect;
+export type SpectrumTake = typeof spectrumTake.$inferSelect;
+export type CandidateClassification = typeof candidateClassification.$inferSelect;
+export type CandidateDecision = typeof candidateDecision.$inferSelect;
+export type CandidateComment = typeof candidateComment.$inferSelect;
+export type KilonovaRules = typeof kilonovaRules.$inferSelect;
+export type CandidateVettingRow = typeof candidateVetting.$inferSelect;
