@@ -6,7 +6,9 @@ import { describe, expect, it } from 'vitest';
 import { farHzToPerYear, parseVoevent } from '../src/lib/alerts/voevent.ts';
 import { antisolarRaDeg, listScenarios, loadScenario, renderScenario, rotateSky, writeScenario } from './scenarios.ts';
 import { readSkyMap, summarise } from '../src/lib/sky/index.ts';
-import { angularSeparationDeg, nightWindow, observableWindow, sunSeparationDeg } from '../src/lib/targeting/night.ts';
+import { nightWindow, observableWindow } from '../src/lib/targeting/night.ts';
+import { sunSeparationDeg } from '../src/lib/targeting/sun-moon.ts';
+import { angularSeparationDeg } from '../src/lib/targeting/sky-geometry.ts';
 import { DEMO_TELESCOPES } from '../seeds/scenario.ts';
 
 const epoch = new Date('2030-04-12T07:31:00.000Z');

@@ -142,8 +142,8 @@ describe('photometry by JSON', () => {
 	});
 	it('refuses a body without rows in plain words', () => {
 		expect.hasAssertions();
-		expect(() => addPhotometryRows({ user: w.observer }, w.candidateId, { points: [] }, NOW)).toThrow(/rows: rows must be a list of measurements/);
-		expect(() => addPhotometryRows({ user: w.observer }, w.candidateId, { rows: [] }, NOW)).toThrow(/rows: rows is empty/);
+		expect(() => addPhotometryRows({ user: w.observer }, w.candidateId, { points: [] }, NOW)).toThrow(/rows must be a list of measurements/);
+		expect(() => addPhotometryRows({ user: w.observer }, w.candidateId, { rows: [] }, NOW)).toThrow(/rows is empty/);
 	});
 });
 

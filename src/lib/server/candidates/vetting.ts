@@ -22,7 +22,7 @@ import { readSkyMap, type SkyMap } from '../../sky/index.ts';
 import { checkThresholds, DEFAULT_KILONOVA_THRESHOLDS, RULES, withDefaults, type KilonovaThresholds, type RuleId, type ThresholdChanges } from '../../candidates/rules.ts';
 import { lookUpDirections, vetCandidate, type CandidateVetting, type RankedGalaxy } from '../../candidates/vetting.ts';
 import type { PhotometryPoint } from '../../candidates/photometry.ts';
-import { CandidateError, fieldErrorsOf, joinFields } from './candidates';
+import { CandidateError, fieldErrorsOf } from './candidates';
 import { candidateLink, candidateRecipients, mailRecipients } from './notify';
 
 // ───────────────────────────── Thresholds ─────────────────────────────
@@ -112,7 +112,9 @@ export function setThresholds(user: SessionUser, raw: unknown, now = new Date())
 	const parsed = thresholdChangesInput.safeParse(raw ?? {});
 	if (!parsed.success) {
 		const fields = fieldErrorsOf(parsed.error);
-		throw new CandidateError(422, 'invalid', joinFields(fields), fields);
+		// The keys are the rule names a coordinator edits (fastFade, reddening, …): name them.
+		const message = Object.entries(fields).map(([rule, problem]) => `${rule}: ${problem}`).join(' ');
+		throw new CandidateError(422, 'invalid', message, fields);
 	}
 	const changes = parsed.data as ThresholdChanges;
 	const problems = checkThresholds(withDefaults(changes));
