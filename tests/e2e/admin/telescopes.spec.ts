@@ -62,5 +62,5 @@ test('an admin issues a telescope token (shown once) and revokes it', async ({ p
 	await expect(page.getByTestId('tokens-table').locator('tr', { hasText: 'robot feed' })).toContainText('revoked');
 	const after = await request.get('/api/v1/me', { headers: { authorization: `Bearer ${secret}` } });
 	expect(after.status()).toBe(401);
-	expect(await after.json()).toEqual({ error: { code: 'unauthenticated', message: expect.any(String) } });
+	expect(await after.json()).toEqual({ error: { code: 'invalid_token', message: expect.any(String) } });
 });

@@ -65,7 +65,7 @@ test('a retraction is carried through: reason shown, clock stopped, stood down o
 	await report.getByLabel('Exposure (s)').fill('60');
 	await report.getByLabel('Limiting magnitude (AB)').fill('20');
 	await report.getByRole('button', { name: 'Report pointing' }).click();
-	await expect(report.getByTestId('error-observedAt')).toHaveText(`this pointing (${early}) was taken before the merger at ${mergerIso}; only pointings after the merger count`, { timeout: 15_000 });
+	await expect(report.getByTestId('error-observedAt')).toHaveText(`This pointing (${early}) was taken before the merger at ${mergerIso}; only pointings after the merger count.`, { timeout: 15_000 });
 
 	// The source retracts the event (the notice is given by hand here, as the upload page allows).
 	await coordinator.goto('/events/upload');
