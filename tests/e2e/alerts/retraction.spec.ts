@@ -98,17 +98,19 @@ test('a retraction is carried through: reason shown, clock stopped, stood down o
 	await coordinator.screenshot({ path: `${SCREENS}/retraction-2-board.png`, fullPage: true });
 
 	// The claiming team's members were e-mailed, with the reason and the released target.
+	// (the development mailbox is for administrators only)
 	const kenji = demo('observer');
-	await coordinator.goto('/mailbox');
-	const mail = coordinator.getByTestId('mail').filter({ hasText: `to ${kenji.email}` }).filter({ hasText: `RETRACTED ${SOURCE_ID} · your claims were released` });
+	const admin = await signedIn(browser, 'admin');
+	await admin.goto('/mailbox');
+	const mail = admin.getByTestId('mail').filter({ hasText: `to ${kenji.email}` }).filter({ hasText: `RETRACTED ${SOURCE_ID} · your claims were released` });
 	await expect(async () => {
-		await coordinator.reload();
+		await admin.reload();
 		await expect(mail).toHaveCount(1, { timeout: 1000 });
 	}).toPass({ timeout: 15_000 });
 	await expect(mail).toContainText(REASON);
 	await expect(mail).toContainText('Altiplano Nightwatch');
 	// A member of another team, who held nothing, was not.
-	await expect(coordinator.getByTestId('mail').filter({ hasText: `to ${demo('spectroscopist').email}` }).filter({ hasText: `RETRACTED ${SOURCE_ID} · your claims` })).toHaveCount(0);
+	await expect(admin.getByTestId('mail').filter({ hasText: `to ${demo('spectroscopist').email}` }).filter({ hasText: `RETRACTED ${SOURCE_ID} · your claims` })).toHaveCount(0);
 
 	// Pointings on a retracted event are refused, saying why.
 	await observer.goto(`/events/${eventId}/report`);

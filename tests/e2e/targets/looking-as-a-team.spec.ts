@@ -41,13 +41,14 @@ test('observers of two teams each see their own telescope’s night, claim with 
 	await openTargets(a, eventId);
 	await openTargets(b, eventId);
 	await expect(a.getByTestId('chosen-telescope')).toContainText('Visibility below is for Pardo 0.6 m (Altiplano Nightwatch)');
-	await expect(b.getByTestId('chosen-telescope')).toContainText('Visibility below is for Karoo Schmidt 1.0 m (Karoo Wide Field)');
+	// One of Karoo Wide Field's own telescopes (an earlier test may have given the team another one).
+	await expect(b.getByTestId('chosen-telescope')).toContainText(/Visibility below is for .+ \(Karoo Wide Field\)/);
 	// Another team's telescope is not offered, in the table or through an edited link.
 	await expect(a.getByTestId('telescope-row').filter({ hasText: 'Karoo Schmidt 1.0 m' }).getByRole('link')).toHaveCount(0);
 	await expect(a.getByTestId('telescope-row').filter({ hasText: 'Pardo Wide 0.3 m' }).getByRole('link')).toHaveCount(1);
 	const pardo = await telescopeId(a, 'Pardo 0.6 m');
 	await openTargets(b, eventId, `?telescope=${pardo}`);
-	await expect(b.getByTestId('chosen-telescope')).toContainText('Karoo Schmidt 1.0 m');
+	await expect(b.getByTestId('chosen-telescope')).toContainText('(Karoo Wide Field)');
 	// The event is opposite the Sun: Claim is offered on open rows, with the telescope that is shown.
 	await expect(a.getByTestId('claim-telescope')).toHaveValue(pardo);
 	await expect(a.locator('[data-testid="galaxy-row"][data-rank="1"]').getByRole('button', { name: /^Claim / })).toBeVisible();
