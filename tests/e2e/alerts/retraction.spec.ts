@@ -94,6 +94,9 @@ test('a retraction is carried through: reason shown, clock stopped, stood down o
 	await expect(card).toBeVisible({ timeout: 15_000 });
 	await expect(card.getByTestId('retraction-reason')).toContainText(REASON);
 	await expect(card.getByTestId('since-merger')).toHaveText(stopped);
+	// Nobody is asked to acknowledge a withdrawn alert: the open page is shown as stopped.
+	await expect(card.getByTestId('paging-stopped')).toBeVisible();
+	await expect(card.getByRole('button', { name: /^Acknowledge/ })).toHaveCount(0);
 	await expect(coordinator.getByTestId('board-events').locator(`[data-source-id="${SOURCE_ID}"]`)).toHaveCount(0);
 	await coordinator.screenshot({ path: `${SCREENS}/retraction-2-board.png`, fullPage: true });
 
