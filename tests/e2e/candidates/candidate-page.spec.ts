@@ -1,5 +1,6 @@
 import { test, expect, type Browser, type Page } from '@playwright/test';
 import { mkdirSync } from 'node:fs';
+import Database from 'better-sqlite3';
 import { signIn, signInAs } from '../support/people';
 import { DEMO_PEOPLE } from '../../../seeds/scenario';
 import { nightPeak, publishNightEvent } from '../support/events';
@@ -17,13 +18,24 @@ async function personPage(browser: Browser, email: string, width = 1280): Promis
 	return page;
 }
 
+let eventId = '';
+// Other specs count the candidates on the shared board: remove this spec's event (its candidate goes with it).
+test.afterAll(() => {
+	if (!eventId) return;
+	const sqlite = new Database(process.env.DATABASE_URL ?? 'tests/e2e/.artifacts/e2e.sqlite');
+	sqlite.pragma('busy_timeout = 5000');
+	sqlite.pragma('foreign_keys = ON');
+	sqlite.prepare('DELETE FROM gw_event WHERE id = ?').run(eventId);
+	sqlite.close();
+});
+
 const iso = (ms: number) => new Date(ms).toISOString().slice(0, 19) + 'Z';
 
 test('an observer reports a candidate and its fading photometry; a spectroscopist takes it, uploads a spectrum and classifies it; the observer sees the classification live', async ({ browser }) => {
 	test.setTimeout(150_000);
 	const coordinator = await (await browser.newContext()).newPage();
 	await signInAs(coordinator, 'coordinator');
-	const eventId = await publishNightEvent(coordinator, SOURCE_ID);
+	eventId = await publishNightEvent(coordinator, SOURCE_ID);
 	await coordinator.context().close();
 
 	// The observer reports a candidate at the map's peak.
