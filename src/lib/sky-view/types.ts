@@ -26,6 +26,8 @@ export interface SkyCandidate {
 	decDeg: number;
 	label?: string;
 	details?: string[];
+	/** The candidate's page: a click on the marker opens it. */
+	href?: string;
 }
 
 /** The Sun or Moon with the radius of the zone telescopes avoid round it. */

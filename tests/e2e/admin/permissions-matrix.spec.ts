@@ -10,9 +10,9 @@ import { BASE_URL } from '../../../playwright.config';
  * gets past the permission check and is stopped by validation (400); a role that may not gets 403;
  * nobody signed in is sent to sign in (303 to /sign-in) without the action running. `ok` marks actions that need no input (they succeed: 200).
  * A row with `form` sends that form instead: it passes validation, and a role allowed to act is
- * stopped later (400) without anything changing.
+ * stopped later (400) without anything changing. `allowedStatus` replaces 400 where an allowed role is refused otherwise.
  */
-const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean; form?: Record<string, string> }[] = [
+const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean; allowedStatus?: number; form?: Record<string, string> }[] = [
 	{ path: '/admin?/invite', allowed: ['admin', 'coordinator'] },
 	// Only an administrator may make an administrator: a coordinator is refused before anything is sent;
 	// the admin gets as far as "this address already has an account".
@@ -49,7 +49,17 @@ const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean; form?: 
 	{ path: '/events/{eventId}/targets?/catalog', allowed: ['coordinator'] },
 	{ path: '/events/{eventId}/report?/report', allowed: ['observer', 'coordinator'] },
 	{ path: '/events/{eventId}/report?/upload', allowed: ['observer', 'coordinator'] },
-	{ path: '/events/{eventId}/candidates?/report', allowed: ['observer', 'coordinator'] }
+	{ path: '/events/{eventId}/candidates?/report', allowed: ['observer', 'coordinator'] },
+	// The candidate page, on the matrix's candidate.
+	{ path: '/events/{eventId}/candidates/AT-matrix?/photometry', allowed: ['observer', 'spectroscopist', 'coordinator'] },
+	// A note over 500 characters: an allowed role is refused it and takes nothing.
+	{ path: '/events/{eventId}/candidates/AT-matrix?/take', allowed: ['spectroscopist', 'coordinator'], form: { note: 'x'.repeat(600) } },
+	// Nobody holds the candidate: an allowed role is told so (404) and nothing changes.
+	{ path: '/events/{eventId}/candidates/AT-matrix?/release', allowed: ['spectroscopist', 'coordinator'], allowedStatus: 404 },
+	{ path: '/events/{eventId}/candidates/AT-matrix?/spectrum', allowed: ['spectroscopist', 'coordinator'] },
+	{ path: '/events/{eventId}/candidates/AT-matrix?/classify', allowed: ['spectroscopist', 'coordinator'] },
+	{ path: '/events/{eventId}/candidates/AT-matrix?/decide', allowed: ['duty', 'observer', 'spectroscopist', 'coordinator'] },
+	{ path: '/events/{eventId}/candidates/AT-matrix?/comment', allowed: ['admin', 'coordinator', 'duty', 'observer', 'spectroscopist'] }
 ];
 
 /**
@@ -121,7 +131,7 @@ for (const role of [...ROLES_LIST, null] as const) {
 		for (const row of MATRIX) {
 			const res = await ctx.post(row.path.replace('{telescopeId}', telescopeId).replace('{eventId}', eventId), { form: row.form ?? {}, maxRedirects: 0 });
 			const allowed = role !== null && (row.allowed === 'all' || row.allowed.includes(role));
-			const expected = role === null ? '303 /sign-in' : !allowed ? 403 : row.ok ? 200 : 400;
+			const expected = role === null ? '303 /sign-in' : !allowed ? 403 : row.ok ? 200 : (row.allowedStatus ?? 400);
 			const location = res.headers()['location']?.split('?')[0];
 			const label = row.form ? `${row.path} ${JSON.stringify(row.form)}` : row.path;
 			seen.push(`${label} ${res.status()}${location ? ' ' + location : ''}`);

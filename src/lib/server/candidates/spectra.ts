@@ -142,3 +142,45 @@ export function spectrumFile(candidateId: string, spectrumId: string): { bytes: 
 	if (!s) return null;
 	return { bytes: readStoredFile(s.filePath), originalName: s.originalName, format: s.format };
 }
+
+/** Points of one spectrum for a chart: at most `maxPoints`, evenly thinned (every k-th sample) when the file has more. */
+export interface SpectrumPoints {
+	id: string;
+	wavelength: number[];
+	flux: number[];
+	error: number[] | null;
+	wavelengthUnit: string | null;
+	fluxUnit: string | null;
+	/** Samples in the file; more than wavelength.length when thinned. */
+	totalPoints: number;
+}
+
+/** The parsed samples of one stored spectrum, thinned to `maxPoints`; null when there is no such spectrum or it no longer reads. */
+export function spectrumPoints(candidateId: string, spectrumId: string, maxPoints = 4000): SpectrumPoints | null {
+	const file = spectrumFile(candidateId, spectrumId);
+	if (!file) return null;
+	let s;
+	try {
+		s = readSpectrum(new Uint8Array(file.bytes));
+	} catch (e) {
+		if (e instanceof SpectrumError) return null;
+		throw e;
+	}
+	const n = s.wavelength.length;
+	// Plain striding keeps the shape of a smooth spectrum well enough for a look; the download has every sample.
+	const step = Math.max(1, Math.ceil(n / maxPoints));
+	const pick = (a: Float64Array) => {
+		const out: number[] = [];
+		for (let i = 0; i < n; i += step) out.push(a[i]);
+		return out;
+	};
+	return {
+		id: spectrumId,
+		wavelength: pick(s.wavelength),
+		flux: pick(s.flux),
+		error: s.error ? pick(s.error) : null,
+		wavelengthUnit: s.wavelengthUnit,
+		fluxUnit: s.fluxUnit,
+		totalPoints: n
+	};
+}

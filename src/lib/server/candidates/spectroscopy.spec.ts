@@ -10,13 +10,13 @@ import { storagePath, useStorageRoot } from '../platform/storage';
 import { receivedMail, stopFakeSmtp, type ReceivedMail } from '../platform/fake-smtp';
 import { CandidateError } from './candidates';
 import { CandidateTaken, currentTake, releaseCandidate, takeCandidate } from './takers';
-import { MAX_SPECTRUM_BYTES, listSpectra, spectrumFile, uploadSpectrum } from './spectra';
+import { MAX_SPECTRUM_BYTES, listSpectra, spectrumFile, spectrumPoints, uploadSpectrum } from './spectra';
 import { classificationMailIdle, classifyCandidate } from './classifications';
 import { decideCandidate } from './decisions';
 import { addComment } from './discussion';
 import { getCandidateDetail } from './detail';
 import { addPhotometryCsv } from './photometry';
-import { clearVettingCache, vettingIdle } from './vetting';
+import { clearVettingCache, vettingIdle, vettingSummaries } from './vetting';
 import { fixture, kilonovaCsv, NOW, world, type World } from './testing';
 
 let storage: string;
@@ -240,5 +240,32 @@ describe('decisions, discussion and the candidate detail', () => {
 		);
 		expect(getCandidateDetail(w.eventId, 'no-such-name')).toBeNull();
 		await vettingIdle();
+	});
+});
+
+describe('what the pages draw and list', () => {
+	it('a stored spectrum comes back as points, thinned evenly to the limit with its errors', () => {
+		const s = uploadSpectrum(w.spectroA, w.candidateId, { bytes: fixture('candidates/spectra/ascii-basic.txt'), fileName: 'ascii-basic.txt' }, NOW);
+		const all = spectrumPoints(w.candidateId, s.id)!;
+		expect(all.totalPoints).toBe(300);
+		expect(all.wavelength).toHaveLength(300);
+		expect(all.wavelength[0]).toBe(3600);
+		expect(all.error).toHaveLength(300);
+		const thin = spectrumPoints(w.candidateId, s.id, 100)!;
+		expect(thin.wavelength).toHaveLength(100);
+		expect(thin.wavelength[1]).toBe(all.wavelength[3]);
+		expect(spectrumPoints(w.candidateId, 'no-such-spectrum')).toBeNull();
+	});
+
+	it('the lists get each candidate\'s verdict, credible level and spectra count', () => {
+		addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
+		getCandidateDetail(w.eventId, w.candidateName, NOW);
+		uploadSpectrum(w.spectroA, w.candidateId, { bytes: fixture('candidates/spectra/ascii-basic.txt'), fileName: 'a.txt' }, NOW);
+		const s = vettingSummaries([w.candidateId]).get(w.candidateId)!;
+		const detail = getCandidateDetail(w.eventId, w.candidateName, NOW)!;
+		expect(s.verdict).toBe(detail.vetting!.rules.verdict);
+		expect(s.credibleLevel).toBe(detail.vetting!.sky?.credibleLevel ?? null);
+		expect(s.spectra).toBe(1);
+		expect(vettingSummaries([])).toEqual(new Map());
 	});
 });

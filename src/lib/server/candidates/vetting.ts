@@ -19,7 +19,7 @@ import { restartService } from '../platform/services';
 import type { SessionUser } from '../people/auth';
 import { can } from '../people/permissions';
 import { readSkyMap, type SkyMap } from '../../sky/index.ts';
-import { checkThresholds, DEFAULT_KILONOVA_THRESHOLDS, RULES, withDefaults, type KilonovaThresholds, type RuleId, type ThresholdChanges } from '../../candidates/rules.ts';
+import { checkThresholds, DEFAULT_KILONOVA_THRESHOLDS, RULES, withDefaults, type KilonovaThresholds, type KilonovaVerdict, type RuleId, type ThresholdChanges } from '../../candidates/rules.ts';
 import { lookUpDirections, vetCandidate, type CandidateVetting, type RankedGalaxy } from '../../candidates/vetting.ts';
 import type { PhotometryPoint } from '../../candidates/photometry.ts';
 import { CandidateError, fieldErrorsOf } from './candidates';
@@ -445,4 +445,50 @@ export function installVetting(): () => void {
 			}
 		};
 	});
+}
+
+/** What the candidate lists show of each vetting, and how many spectra each candidate has. */
+export interface VettingSummary {
+	verdict: KilonovaVerdict | null;
+	credibleLevel: number | null;
+	hostPValue: number | null;
+	spectra: number;
+}
+
+/**
+ * The stored vettings of many candidates, as the lists show them (not recomputed here: the list of
+ * one event vets it first, and the log keeps vettings current between). Candidates never vetted
+ * have a null verdict.
+ */
+export function vettingSummaries(candidateIds: readonly string[]): Map<string, VettingSummary> {
+	const out = new Map<string, VettingSummary>();
+	if (candidateIds.length === 0) return out;
+	for (const id of candidateIds) out.set(id, { verdict: null, credibleLevel: null, hostPValue: null, spectra: 0 });
+	for (const chunk of chunks(candidateIds, 500)) {
+		const rows = db
+			.select({ id: table.candidateVetting.candidateId, verdict: table.candidateVetting.verdict, vetting: table.candidateVetting.vetting })
+			.from(table.candidateVetting)
+			.where(inArray(table.candidateVetting.candidateId, chunk))
+			.all();
+		for (const r of rows) {
+			const s = out.get(r.id)!;
+			s.verdict = r.verdict;
+			s.credibleLevel = r.vetting.sky?.credibleLevel ?? null;
+			s.hostPValue = r.vetting.hosts.host?.distancePValue ?? null;
+		}
+		const spectra = db
+			.select({ id: table.candidateSpectrum.candidateId, n: count() })
+			.from(table.candidateSpectrum)
+			.where(inArray(table.candidateSpectrum.candidateId, chunk))
+			.groupBy(table.candidateSpectrum.candidateId)
+			.all();
+		for (const r of spectra) out.get(r.id)!.spectra = r.n;
+	}
+	return out;
+}
+
+function chunks<T>(xs: readonly T[], size: number): T[][] {
+	const out: T[][] = [];
+	for (let i = 0; i < xs.length; i += size) out.push(xs.slice(i, i + size));
+	return out;
 }

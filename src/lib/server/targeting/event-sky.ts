@@ -118,6 +118,7 @@ export function eventSky(
 		raDeg: c.raDeg,
 		decDeg: c.decDeg,
 		label: `Candidate ${c.name}`,
+		href: `/events/${eventId}/candidates/${encodeURIComponent(c.name)}`,
 		details: [
 			`${c.magnitude.toFixed(2)}${c.magnitudeErr != null ? ` ± ${c.magnitudeErr.toFixed(2)}` : ''} mag in ${c.filter}, found ${c.discoveredAt.slice(11, 16)} UTC`,
 			`${c.teamName}${c.telescopeName ? ` · ${c.telescopeName}` : ''}`,

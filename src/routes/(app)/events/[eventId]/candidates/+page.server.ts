@@ -7,6 +7,7 @@ import { getEvent } from '$lib/server/alerts/events';
 import { teamsFor, telescopesFor } from '$lib/server/people/scope';
 import { listCandidates, reportCandidate, type CandidateInput } from '$lib/server/candidates/candidates';
 import type { SessionUser } from '$lib/server/people/auth';
+import { vetEvent, vettingSummaries } from '$lib/server/candidates/vetting';
 
 /** The telescopes and teams a person may report for (coordinators: all). */
 function choices(user: SessionUser | null) {
@@ -21,9 +22,13 @@ export const load: PageServerLoad = ({ params, locals, depends }) => {
 	const event = getEvent(params.eventId);
 	if (!event) error(404, 'No such event.');
 	const canReport = can({ user: locals.user, telescopeId: locals.telescopeId }, 'candidates.report');
+	// Vet whatever changed since the last look (cheap when nothing did), so the columns are current.
+	vetEvent(event.eventId);
+	const candidates = listCandidates(event.eventId);
+	const vetted = vettingSummaries(candidates.map((c) => c.id));
 	return {
 		event: { id: event.eventId, sourceEventId: event.sourceEventId, state: event.state },
-		candidates: listCandidates(event.eventId),
+		candidates: candidates.map((c) => ({ ...c, ...vetted.get(c.id)! })),
 		canReport,
 		mayReportObservations: Boolean(locals.user && can({ user: locals.user }, 'observations.report') && choices(locals.user).telescopes.length),
 		...(canReport ? choices(locals.user) : { telescopes: [], teams: [] }),
