@@ -1,5 +1,6 @@
 import { test, expect, type Page } from '@playwright/test';
 import { mkdirSync, readFileSync, writeFileSync } from 'node:fs';
+import Database from 'better-sqlite3';
 import { signInAs } from '../support/people';
 import { generateSkymap, skymapToFits } from '../../../fake-alert-broker/skymap';
 import { sunPosition } from '../../../src/lib/targeting/sun-moon';
@@ -8,6 +9,16 @@ const SCREENS = 'test-results/screens';
 mkdirSync(SCREENS, { recursive: true });
 const WORK = 'test-results/targets-e2e';
 mkdirSync(WORK, { recursive: true });
+
+// The imported catalogue would otherwise stay the one new events are ranked against, and later
+// specs place events where its 30 galaxies are not: remove it (its galaxies go with it).
+test.afterAll(() => {
+	const sqlite = new Database(process.env.DATABASE_URL ?? 'tests/e2e/.artifacts/e2e.sqlite');
+	sqlite.pragma('busy_timeout = 5000');
+	sqlite.pragma('foreign_keys = ON');
+	sqlite.prepare('DELETE FROM catalog WHERE name = ?').run('Browser-test galaxies');
+	sqlite.close();
+});
 
 /** How many telescopes the network has now, read from the telescopes page in another tab. */
 async function telescopeCount(page: Page): Promise<number> {
