@@ -6,6 +6,7 @@ import { apiError } from '$lib/server/platform/api';
 import '$lib/field-messages';
 import { startMail } from '$lib/server/platform/mail';
 import { installRealtime } from '$lib/server/platform/realtime';
+import { liveAccess } from '$lib/server/people/live-access';
 import { installDuty } from '$lib/server/duty/paging';
 import { installTargets } from '$lib/server/targeting/rankings';
 import { installClaims } from '$lib/server/coordination/claims';
@@ -14,7 +15,7 @@ import { startAlerts } from '$lib/server/alerts/service';
 
 export const init: ServerInit = async () => {
 	openDatabase();
-	installRealtime();
+	installRealtime(liveAccess);
 	installDuty();
 	installTargets();
 	installClaims();

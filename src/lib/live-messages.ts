@@ -52,8 +52,8 @@ type EventNotice = { eventId: string; noticeId: string };
 export interface LivePayloads {
 	// ── alerts ──
 	'event.created': { eventId: string; sourceEventId: string };
-	/** `freedClaimIds`: the open claims the retraction released, so that their teams can be told. */
-	'event.retracted': { eventId: string; noticeId: string | null; reason: string | null; freedClaimIds: string[] };
+	/** `reason`: the source's stated reason, when the notice gives one. */
+	'event.retracted': { eventId: string; noticeId: string | null; reason: string | null };
 	'notice.rejected': { inboxId: number; ivorn: string; error: string };
 	'notice.processed': EventNotice & {
 		ivorn: string;

@@ -159,3 +159,19 @@ export function getEvent(eventId: string): EventDetail | null {
 export function skymapDisplay(skymapId: string): Record<string, unknown> | null {
 	return db.select({ display: table.skymap.display }).from(table.skymap).where(eq(table.skymap.id, skymapId)).get()?.display ?? null;
 }
+
+/**
+ * Id of the galaxy catalogue a new event is ranked against: the newest ready one. Ingestion stamps
+ * it on the event as it arrives; targeting/catalogs.ts `activeCatalog` reads the same rule.
+ */
+export function catalogInUse(): string | null {
+	return (
+		db
+			.select({ id: table.catalog.id })
+			.from(table.catalog)
+			.where(eq(table.catalog.state, 'ready'))
+			.orderBy(desc(table.catalog.readyAt), desc(table.catalog.createdAt))
+			.limit(1)
+			.get()?.id ?? null
+	);
+}

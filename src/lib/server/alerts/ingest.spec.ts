@@ -234,7 +234,7 @@ describe('ingest: history, supersede chain and retraction', () => {
 		const retracted = log.filter((m) => m.type === 'event.retracted');
 		expect(retracted.map((m) => m.room).sort()).toEqual(['board', 'event:sx30041207']);
 		// The source's stated reason and the claims freed (none here) travel with the message.
-		expect(retracted[0].payload).toEqual({ eventId: 'sx30041207', noticeId: r.noticeId, reason: 'Retracted: instrumental artefact.', freedClaimIds: [] });
+		expect(retracted[0].payload).toEqual({ eventId: 'sx30041207', noticeId: r.noticeId, reason: 'Retracted: instrumental artefact.' });
 		const processed = log.filter((m) => m.type === 'notice.processed' && m.room === 'board').at(-1)!.payload;
 		expect(processed).toMatchObject({ kind: 'retraction', significant: false, latest: true });
 

@@ -17,11 +17,10 @@ import { fetchSkymap, SkymapFetchError, skymapReadError, skymapReadOptions, type
 import { keepSkyMap } from './skymap-cache';
 import { readStoredFile, saveSkymapFile } from '../platform/storage';
 import { policyInput, factsOf } from './triage-policy';
+import { catalogInUse } from './events';
 import { parseVoevent, sniffIvorn, type Notice as ParsedNotice } from '../../alerts/voevent.ts';
 import { evaluateTriage } from '../../alerts/triage.ts';
 import { analyseSkymap, skyRaster, type SkyMap } from '../../sky/index.ts';
-import { cancelOpenClaims as releaseOpenClaims, releaseForRetraction } from '../coordination/claims';
-import { activeCatalog } from '../targeting/catalogs';
 
 export type InboxVia = table.NoticeInboxRow['via'];
 
@@ -93,14 +92,6 @@ export interface IngestOptions {
 	/** Called after each durable step; a throw here behaves like a crash at that point (tests). */
 	onStage?: (stage: IngestStage, ids: { eventId: string; noticeId: string }) => void;
 	now?: () => Date;
-}
-
-/**
- * A retraction releases the event's open claims (reason 'event retracted', each logged);
- * returns how many.
- */
-export function cancelOpenClaims(eventId: string): number {
-	return releaseOpenClaims(eventId);
 }
 
 /** URL-safe event id from the source's id: lower case, `[a-z0-9_-]`, at most 64 characters. */
@@ -197,10 +188,9 @@ async function runProcess(inboxId: number, opts: IngestOptions): Promise<IngestO
 	const stored = storeNotice(parsed, inboxId);
 	if (stored.eventCreated) record(actor, 'event.created', 'board', { eventId: stored.eventId, sourceEventId: parsed.sourceEventId });
 	if (stored.becameRetracted) {
-		const freed = releaseForRetraction(stored.eventId, actor);
 		const reason = parsed.kind === 'retraction' ? (parsed.reason ?? null) : null;
-		// The freed claims travel with the message so that their teams can be told (claims.ts).
-		const retracted = { eventId: stored.eventId, noticeId: stored.retractionNoticeId, reason, freedClaimIds: freed.map((c) => c.id) };
+		// Claims are released, and their teams told, by coordination/claims.ts reacting to this message.
+		const retracted = { eventId: stored.eventId, noticeId: stored.retractionNoticeId, reason };
 		for (const room of rooms(stored.eventId)) record(actor, 'event.retracted', room, retracted);
 	}
 	opts.onStage?.('stored', { eventId: stored.eventId, noticeId: stored.noticeId });
@@ -260,7 +250,7 @@ function storeNotice(n: ParsedNotice, inboxId: number): Stored {
 			event = tx
 				.insert(table.gwEvent)
 				// Ranked against the catalogue in use as it arrives, whatever is imported later (rankings.ts).
-				.values({ id: uniqueEventId(n.sourceEventId), sourceEventId: n.sourceEventId, role: n.role, state: 'active', catalogId: activeCatalog()?.id ?? null })
+				.values({ id: uniqueEventId(n.sourceEventId), sourceEventId: n.sourceEventId, role: n.role, state: 'active', catalogId: catalogInUse() })
 				.returning()
 				.get();
 			eventCreated = true;

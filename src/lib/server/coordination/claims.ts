@@ -422,17 +422,20 @@ export function listClaims(eventId: string, o: { openOnly?: boolean } = {}): Cla
 }
 
 /**
- * Start the periodic lapse check (null: none) and the e-mails to teams whose claims a retraction
- * freed. Installing twice replaces the first.
+ * Start the periodic lapse check (null: none), and the release of a retracted event's claims with
+ * the e-mails to the teams that held them. Installing twice replaces the first.
  */
 export function installClaims(o: { everyMs?: number | null } = {}): () => void {
 	const everyMs = o.everyMs === undefined ? LAPSE_CHECK_MS : o.everyMs;
 	return restartService('claim-lapse', () => {
 		const stop = everyMs === null ? null : every(everyMs, () => lapseOverdue(), 'claim lapse check');
 		// Logged to the board and the event's room: react to the board copy only.
-		const off = onRecorded('event.retracted', ({ eventId, freedClaimIds, reason }, m) => {
+		// A retraction releases the event's open claims (each logged) and tells their teams; reacting
+		// to the board copy only, as the retraction is logged to the event's room too.
+		const off = onRecorded('event.retracted', ({ eventId, reason }, m) => {
 			if (m.room !== 'board') return;
-			tellRetractedClaims(eventId, freedClaimIds, reason).catch((e) => console.error(`retraction notices for ${eventId} failed`, e));
+			const freed = releaseForRetraction(eventId, SYSTEM);
+			tellRetractedClaims(eventId, freed.map((c) => c.id), reason).catch((e) => console.error(`retraction notices for ${eventId} failed`, e));
 		});
 		return {
 			stop() {

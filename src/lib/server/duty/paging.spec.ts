@@ -304,8 +304,8 @@ describe('retraction', () => {
 		processed(ev.eventId, ev.noticeId, true);
 		expect(await mailTo(onShift.email)).toHaveLength(1);
 
-		record(SYSTEM, 'event.retracted', 'board', { eventId: ev.eventId, noticeId: ev.noticeId, reason: null, freedClaimIds: [] });
-		record(SYSTEM, 'event.retracted', `event:${ev.eventId}`, { eventId: ev.eventId, noticeId: ev.noticeId, reason: null, freedClaimIds: [] });
+		record(SYSTEM, 'event.retracted', 'board', { eventId: ev.eventId, noticeId: ev.noticeId, reason: null });
+		record(SYSTEM, 'event.retracted', `event:${ev.eventId}`, { eventId: ev.eventId, noticeId: ev.noticeId, reason: null });
 		const until = Date.now() + 3000;
 		let mails: ReceivedMail[] = [];
 		while (Date.now() < until && mails.length < 2) {

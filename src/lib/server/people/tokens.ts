@@ -1,7 +1,7 @@
 import { asc, eq, and, isNull } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
-import { hashToken, randomId, randomToken } from './auth';
+import { hashToken, randomId, randomToken, type SessionUser } from './auth';
 import { record, type Actor } from '../platform/realtime';
 import { InputError } from '../platform/errors';
 
@@ -58,3 +58,19 @@ export function listTokens() {
 		.orderBy(asc(table.apiToken.createdAt))
 		.all();
 }
+
+/** Who reports through the API: a person, or a robotic telescope by its own token (recorded by token id). */
+export type ApiReporter = { user: SessionUser; telescopeId?: null; tokenId?: null } | { user: null; telescopeId: string; tokenId: string | null };
+
+export function reporterOf(principal: { user: SessionUser | null; telescopeId?: string | null }, request: Request): ApiReporter {
+	if (principal.user) return { user: principal.user };
+	// The hook resolved the telescope; the token row is looked up again only to record who reported.
+	const secret = (request.headers.get('authorization') ?? '').slice(7).trim();
+	const token = db
+		.select({ id: table.apiToken.id })
+		.from(table.apiToken)
+		.where(and(eq(table.apiToken.tokenHash, hashToken(secret)), isNull(table.apiToken.revokedAt)))
+		.get();
+	return { user: null, telescopeId: principal.telescopeId!, tokenId: token?.id ?? null };
+}
+

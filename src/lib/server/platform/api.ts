@@ -1,9 +1,5 @@
 import { isHttpError, json, type RequestEvent, type RequestHandler } from '@sveltejs/kit';
 import type { z } from 'zod';
-import { and, eq, isNull } from 'drizzle-orm';
-import { db } from './db';
-import * as table from './db/schema';
-import { hashToken, type SessionUser } from '../people/auth';
 import { DomainError } from './errors';
 import { API_JSON_MAX_BYTES } from '../../limits.ts';
 import '../../field-messages';
@@ -66,19 +62,3 @@ export async function readJson<S extends z.ZodType>(request: Request, schema: S,
 	}
 	return { data: parsed.data as z.infer<S> };
 }
-
-/** Who reports through the API: a person, or a robotic telescope by its own token (recorded by token id). */
-export type ApiReporter = { user: SessionUser; telescopeId?: null; tokenId?: null } | { user: null; telescopeId: string; tokenId: string | null };
-
-export function reporterOf(principal: { user: SessionUser | null; telescopeId?: string | null }, request: Request): ApiReporter {
-	if (principal.user) return { user: principal.user };
-	// The hook resolved the telescope; the token row is looked up again only to record who reported.
-	const secret = (request.headers.get('authorization') ?? '').slice(7).trim();
-	const token = db
-		.select({ id: table.apiToken.id })
-		.from(table.apiToken)
-		.where(and(eq(table.apiToken.tokenHash, hashToken(secret)), isNull(table.apiToken.revokedAt)))
-		.get();
-	return { user: null, telescopeId: principal.telescopeId!, tokenId: token?.id ?? null };
-}
-

@@ -5,6 +5,7 @@ import { io as connect, type Socket } from 'socket.io-client';
 import { createTestDatabase } from './testing/database';
 import { attachSocketIO, realtimeSlot } from './socket-host.js';
 import { installRealtime, latestSeq, record as recordAction, SYSTEM, watchers, PRESENCE_INTERVAL_MS, type Actor, type PresenceMessage, type Room } from './realtime';
+import { liveAccess } from '../people/live-access';
 import * as auth from '../people/auth';
 import { createUser } from '../people/people';
 import { issueToken } from '../people/tokens';
@@ -42,7 +43,7 @@ beforeAll(async () => {
 	auth.createSession(sessionToken, userId);
 	server = http.createServer((_req, res) => res.end('ok'));
 	attachSocketIO(server);
-	installRealtime();
+	installRealtime(liveAccess);
 	await new Promise<void>((r) => server.listen(0, '127.0.0.1', r));
 	url = `http://127.0.0.1:${(server.address() as AddressInfo).port}`;
 });

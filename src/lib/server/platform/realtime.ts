@@ -1,12 +1,9 @@
 import type { Socket } from 'socket.io';
 import { and, asc, gt, inArray } from 'drizzle-orm';
-import { parse as parseCookie } from 'cookie';
 import { db } from './db';
 import * as table from './db/schema';
 import { realtimeSlot } from './socket-host.js';
 import { restartService, service, type Running } from './services';
-import { SESSION_COOKIE, validateSessionToken, validateApiToken, type SessionUser } from '../people/auth';
-import { can } from '../people/permissions';
 import type { LiveAction, LiveMessage, LivePayloads, Room } from '../../live-messages.ts';
 
 export type { LiveAction, LiveMessage, LivePayloads, Room };
@@ -18,7 +15,29 @@ export interface Actor {
 
 export const SYSTEM: Actor = { userId: null, label: 'system' };
 
-export function actorOf(user: SessionUser | null, fallback = 'system'): Actor {
+/** The part of a signed-in person the hub needs: who acts, and who is watching. */
+export interface LivePerson {
+	id: string;
+	name: string;
+}
+
+/**
+ * Who may connect and what they may see, supplied by the people stage when the hub is installed
+ * (`people/live-access.ts`), so the hub itself knows nothing of sessions, tokens or roles.
+ */
+export interface LiveAccess {
+	/** The principal behind a handshake's session cookie or bearer token; null when neither is valid. */
+	identify(handshake: { cookieHeader: string; bearer: string | null }): LivePrincipal | null;
+	/** May this principal join the board (`board`) or an event's room (`event`)? */
+	mayWatch(principal: LivePrincipal, room: 'board' | 'event'): boolean;
+}
+
+export interface LivePrincipal {
+	user: LivePerson | null;
+	telescopeId: string | null;
+}
+
+export function actorOf(user: LivePerson | null, fallback = 'system'): Actor {
 	return user ? { userId: user.id, label: user.name } : { userId: null, label: fallback };
 }
 
@@ -132,26 +151,13 @@ function bearerOf(socket: Socket): string | null {
 	return null;
 }
 
-async function authenticate(socket: Socket): Promise<void> {
-	const cookies = parseCookie(socket.handshake.headers.cookie ?? '');
-	const sessionToken = cookies[SESSION_COOKIE];
-	if (sessionToken) {
-		const { user } = validateSessionToken(sessionToken);
-		if (user) {
-			socket.data.user = user;
-			return;
-		}
-	}
-	const bearer = bearerOf(socket);
-	if (bearer) {
-		const principal = validateApiToken(bearer);
-		if (principal) {
-			socket.data.user = principal.user;
-			socket.data.telescopeId = principal.telescopeId;
-			return;
-		}
-	}
-	throw new Error('unauthorised: sign in or present a valid token');
+function authenticateWith(access: LiveAccess) {
+	return async (socket: Socket): Promise<void> => {
+		const principal = access.identify({ cookieHeader: socket.handshake.headers.cookie ?? '', bearer: bearerOf(socket) });
+		if (!principal) throw new Error('unauthorised: sign in or present a valid token');
+		socket.data.user = principal.user;
+		socket.data.telescopeId = principal.telescopeId;
+	};
 }
 
 interface SubscribeRequest {
@@ -159,9 +165,9 @@ interface SubscribeRequest {
 	since?: unknown;
 }
 
-function onConnection(socket: Socket): void {
-	const principal = { user: (socket.data.user as SessionUser | null) ?? null, telescopeId: socket.data.telescopeId ?? null };
-	if (!can(principal, 'board.view')) {
+const connectionWith = (access: LiveAccess) => (socket: Socket): void => {
+	const principal: LivePrincipal = { user: (socket.data.user as LivePerson | null) ?? null, telescopeId: socket.data.telescopeId ?? null };
+	if (!access.mayWatch(principal, 'board')) {
 		socket.disconnect(true);
 		return;
 	}
@@ -171,7 +177,7 @@ function onConnection(socket: Socket): void {
 		const wanted = rooms.filter(
 			(r): r is Room => typeof r === 'string' && (r === 'board' || /^event:[A-Za-z0-9_-]{1,64}$/.test(r))
 		);
-		const allowed = wanted.filter((r) => r === 'board' || can(principal, 'events.view'));
+		const allowed = wanted.filter((r) => r === 'board' || access.mayWatch(principal, 'event'));
 		for (const r of allowed) socket.join(r);
 		const since = typeof request?.since === 'number' && Number.isInteger(request.since) ? request.since : null;
 		// Joining and reading the log happen in one synchronous step: nothing recorded in between
@@ -196,7 +202,7 @@ function onConnection(socket: Socket): void {
 	socket.on('disconnect', () => {
 		for (const [room, sockets] of hub().presence) if (sockets.has(socket.id)) forgetWatching(room, socket.id);
 	});
-}
+};
 
 /** Who is looking at a room right now: one entry per person, `count` = their open connections. */
 export interface Watcher {
@@ -222,7 +228,7 @@ function isWatched(room: string): room is `event:${string}` {
 	return room.startsWith('event:');
 }
 
-function noteWatching(room: Room, socketId: string, user: SessionUser): void {
+function noteWatching(room: Room, socketId: string, user: LivePerson): void {
 	const { presence } = hub();
 	let sockets = presence.get(room);
 	if (!sockets) presence.set(room, (sockets = new Map()));
@@ -291,9 +297,11 @@ export function latestSeq(): number {
  * Install authentication and room handling on the socket server (created outside SvelteKit by
  * socket-host.js); called from the `init` hook. Returns the function that takes them off again.
  */
-export function installRealtime(): () => void {
+export function installRealtime(access: LiveAccess): () => void {
 	return restartService('live-socket', () => {
 		const slot = realtimeSlot();
+		const authenticate = authenticateWith(access);
+		const onConnection = connectionWith(access);
 		slot.authenticate = authenticate;
 		slot.onConnection = onConnection;
 		return {

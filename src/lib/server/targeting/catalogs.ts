@@ -19,6 +19,7 @@ import { INDEX_ORDER } from '../../targeting/galaxies.ts';
 import { radecToNest } from '../../sky/index.ts';
 import { InputError } from '../platform/errors';
 import { CATALOG_MAX_BYTES } from '../../limits.ts';
+import { catalogInUse } from '../alerts/events';
 
 /** Luminosity proxies a column can be mapped to ('none': every galaxy weighs the same). */
 export const PROXY_FIELDS = ['weight', 'b_abs', 'b_app', 'k_abs', 'k_app', 'mass'] as const;
@@ -310,15 +311,8 @@ export function getCatalog(id: string): CatalogRow | null {
 
 /** The catalogue rankings use: the newest ready one. */
 export function activeCatalog(): CatalogRow | null {
-	return (
-		db
-			.select()
-			.from(table.catalog)
-			.where(eq(table.catalog.state, 'ready'))
-			.orderBy(desc(table.catalog.readyAt), desc(table.catalog.createdAt))
-			.limit(1)
-			.get() ?? null
-	);
+	const id = catalogInUse();
+	return id ? (getCatalog(id) ?? null) : null;
 }
 
 /** Galaxies stored for a catalogue (a count straight from the table, for checks and the list). */

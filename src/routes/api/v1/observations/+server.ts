@@ -1,5 +1,6 @@
 import { json } from '@sveltejs/kit';
-import { apiError, apiRoute, readJson, reporterOf } from '$lib/server/platform/api';
+import { apiError, apiRoute, readJson } from '$lib/server/platform/api';
+import { reporterOf } from '$lib/server/people/tokens';
 import { requirePermission } from '$lib/server/people/guard';
 import { observationInput, parseObservationCsv, report, reportMany } from '$lib/server/coordination/observations';
 import { API_OBSERVATION_CSV_MAX_BYTES } from '$lib/limits';

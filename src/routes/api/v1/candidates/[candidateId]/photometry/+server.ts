@@ -1,5 +1,6 @@
 import { json } from '@sveltejs/kit';
-import { apiError, apiRoute, apiErrorFrom, reporterOf } from '$lib/server/platform/api';
+import { apiError, apiRoute, apiErrorFrom } from '$lib/server/platform/api';
+import { reporterOf } from '$lib/server/people/tokens';
 import { requirePermission } from '$lib/server/people/guard';
 import { candidateRow } from '$lib/server/candidates/candidates';
 import { addPhotometryCsv, addPhotometryRows, listPhotometry } from '$lib/server/candidates/photometry';

@@ -1,6 +1,7 @@
 import { json } from '@sveltejs/kit';
 import { z } from 'zod';
-import { apiError, apiRoute, readJson, reporterOf } from '$lib/server/platform/api';
+import { apiError, apiRoute, readJson } from '$lib/server/platform/api';
+import { reporterOf } from '$lib/server/people/tokens';
 import { eventExists } from '$lib/server/alerts/events';
 import { requirePermission } from '$lib/server/people/guard';
 import { listCandidates, reportCandidate, type CandidateInput } from '$lib/server/candidates/candidates';
