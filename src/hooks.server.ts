@@ -10,6 +10,8 @@ import { liveAccess } from '$lib/server/people/live-access';
 import { installDuty } from '$lib/server/duty/paging';
 import { installTargets } from '$lib/server/targeting/rankings';
 import { installClaims } from '$lib/server/coordination/claims';
+import { installMovedClaims } from '$lib/server/coordination/moved-claims';
+import { installNotifications } from '$lib/server/people/notifications';
 import { installVetting } from '$lib/server/candidates/vetting';
 import { startAlerts } from '$lib/server/alerts/service';
 
@@ -19,6 +21,8 @@ export const init: ServerInit = async () => {
 	installDuty();
 	installTargets();
 	installClaims();
+	installMovedClaims();
+	installNotifications();
 	installVetting();
 	await startMail();
 	// Last: the broker listener may start processing notices at once.

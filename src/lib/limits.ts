@@ -24,3 +24,11 @@ export const FORM_OBSERVATION_CSV_MAX_BYTES = 2_000_000;
 
 /** Largest galaxy catalogue upload, bytes; the file is streamed, never held whole (server.js sets the node server's own body limit). */
 export const CATALOG_MAX_BYTES = 200 * 1024 * 1024;
+
+/**
+ * A re-ranking (new sky map or catalogue) e-mails a team about a target it holds an open claim on
+ * when the target moved at least this many places, its probability changed by at least this
+ * fraction of its old value (either way), or it left the ranking altogether.
+ */
+export const RERANK_NOTABLE_PLACES = 5;
+export const RERANK_NOTABLE_PROBABILITY_CHANGE = 0.5;

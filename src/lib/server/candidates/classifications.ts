@@ -24,6 +24,7 @@ import {
 } from '../../candidates/labels.ts';
 import { CandidateError, candidateForWork, fieldErrorsOf, joinFields } from './candidates';
 import { candidateLink, candidateRecipients, mailRecipients } from './notify';
+import { eventClassOf } from '../people/notifications';
 
 export const classificationInput = z.object({
 	label: z.enum(CLASSIFICATION_LABELS, { error: `label must be one of ${CLASSIFICATION_LABELS.join(', ')}` }),
@@ -178,7 +179,9 @@ export function classifyCandidate(user: SessionUser, candidateId: string, raw: u
 					.filter((l): l is string => l !== null)
 					.join('\n')
 			}),
-			{ eventId: event.id, candidateId: candidate.id }
+			{ eventId: event.id, candidateId: candidate.id },
+			'candidate.classified',
+			eventClassOf(event.classification)
 		).catch((e) => console.error(`classification mail for ${candidate.id} failed`, e))
 	);
 	return { classification: view, summary };

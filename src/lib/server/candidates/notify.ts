@@ -6,7 +6,9 @@
 import { and, asc, eq, isNull } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
-import { sendMail, type OutgoingMail } from '../platform/mail';
+import type { OutgoingMail } from '../platform/mail';
+import { notify } from '../people/notifications';
+import type { NotificationKind, SourceClass } from '../../notifications.ts';
 import { record, SYSTEM } from '../platform/realtime';
 import { config } from '../platform/config';
 import { dutyPeople, onShift } from '../duty/paging';
@@ -37,18 +39,21 @@ export function candidateLink(eventId: string, name: string): string {
 }
 
 /**
- * Send one message to each recipient. A failed delivery is logged (`candidate.mail-failed`) and
+ * Send one message to each recipient, as each one's e-mail preferences say (`notify`: at once,
+ * in their digest, after their quiet hours, or not at all). A failed delivery is logged (`candidate.mail-failed`) and
  * does not stop the others. Resolves when every message has been handed to the mail server.
  */
 export async function mailRecipients(
 	recipients: Recipient[],
 	compose: (r: Recipient) => Omit<OutgoingMail, 'to'>,
-	about: { eventId: string; candidateId: string }
+	about: { eventId: string; candidateId: string },
+	kind: Extract<NotificationKind, 'candidate.kilonova-like' | 'candidate.classified'>,
+	eventClass: SourceClass | null
 ): Promise<number> {
 	await Promise.all(
 		recipients.map(async (r) => {
 			try {
-				await sendMail({ to: r.email, ...compose(r) });
+				await notify(r, kind, eventClass, compose(r));
 			} catch (e) {
 				console.error(`candidate mail to ${r.email} failed`, e);
 				record(SYSTEM, 'candidate.mail-failed', `event:${about.eventId}`, { ...about, userId: r.userId, error: (e as Error).message });

@@ -24,6 +24,7 @@ import { lookUpDirections, vetCandidate, type CandidateVetting, type RankedGalax
 import type { PhotometryPoint } from '../../candidates/photometry.ts';
 import { CandidateError, fieldErrorsOf } from './candidates';
 import { candidateLink, candidateRecipients, mailRecipients } from './notify';
+import { eventClassOf } from '../people/notifications';
 
 // ───────────────────────────── Thresholds ─────────────────────────────
 
@@ -387,7 +388,9 @@ function announceKilonovaLike(event: table.GwEvent, c: table.Candidate, v: Candi
 					'The rules flag a candidate for attention; only a spectrum classifies it. Alerts can be retracted.'
 				].join('\n')
 			}),
-			{ eventId: event.id, candidateId: c.id }
+			{ eventId: event.id, candidateId: c.id },
+			'candidate.kilonova-like',
+			eventClassOf(event.classification)
 		).catch((e) => console.error(`kilonova-like mail for ${c.id} failed`, e))
 	);
 }

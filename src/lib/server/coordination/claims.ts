@@ -14,7 +14,7 @@ import { actorOf, onRecorded, record, SYSTEM, type Actor } from '../platform/rea
 import { every } from '../platform/periodic';
 import { restartService } from '../platform/services';
 import type { ClaimFields } from '../../live-messages.ts';
-import { sendMail } from '../platform/mail';
+import { eventClassOf, notify } from '../people/notifications';
 import { sunAvoidance } from '../../targeting/sun-moon.ts';
 import { DomainError } from '../platform/errors';
 import { actsForEveryTeam, mayUseTeam, mayUseTelescope } from '../people/scope';
@@ -307,7 +307,7 @@ async function tellTeam(c: table.Claim, minutes: number): Promise<void> {
 		.where(eq(table.team.id, c.teamId))
 		.get();
 	const members = db
-		.select({ email: table.user.email, disabledAt: table.user.disabledAt })
+		.select({ userId: table.user.id, name: table.user.name, email: table.user.email, disabledAt: table.user.disabledAt })
 		.from(table.teamMember)
 		.innerJoin(table.user, eq(table.user.id, table.teamMember.userId))
 		.where(eq(table.teamMember.teamId, c.teamId))
@@ -319,9 +319,10 @@ async function tellTeam(c: table.Claim, minutes: number): Promise<void> {
 			`${c.filter ? ` in ${c.filter}` : ''}, epoch ${c.epoch}, for event ${c.eventId} was not started within ${minutes} minutes.`,
 		'The target is free again; claim it anew if you still intend to observe it.'
 	].join('\n\n');
+	const eventClass = eventClassOf(db.select({ c: table.gwEvent.classification }).from(table.gwEvent).where(eq(table.gwEvent.id, c.eventId)).get()?.c);
 	for (const m of members) {
 		try {
-			await sendMail({ to: m.email, subject, text });
+			await notify(m, 'claim.lapsed', eventClass, { subject, text });
 		} catch (e) {
 			console.error(`lapse notice to ${m.email} failed`, e);
 		}
@@ -353,7 +354,11 @@ export function cancelOpenClaims(eventId: string, actor: Actor = SYSTEM, now = n
  */
 export async function tellRetractedClaims(eventId: string, claimIds: string[], reason: string | null): Promise<string[]> {
 	if (!claimIds.length) return [];
-	const event = db.select({ sourceEventId: table.gwEvent.sourceEventId }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
+	const event = db
+		.select({ sourceEventId: table.gwEvent.sourceEventId, classification: table.gwEvent.classification })
+		.from(table.gwEvent)
+		.where(eq(table.gwEvent.id, eventId))
+		.get();
 	const freed = db
 		.select({ c: table.claim, teamName: table.team.name, telescopeName: table.telescope.name })
 		.from(table.claim)
@@ -364,15 +369,15 @@ export async function tellRetractedClaims(eventId: string, claimIds: string[], r
 		.all();
 	const teamIds = [...new Set(freed.map((f) => f.c.teamId))];
 	const members = db
-		.select({ teamId: table.teamMember.teamId, email: table.user.email, name: table.user.name, disabledAt: table.user.disabledAt })
+		.select({ teamId: table.teamMember.teamId, userId: table.user.id, email: table.user.email, name: table.user.name, disabledAt: table.user.disabledAt })
 		.from(table.teamMember)
 		.innerJoin(table.user, eq(table.user.id, table.teamMember.userId))
 		.where(inArray(table.teamMember.teamId, teamIds))
 		.all()
 		.filter((m) => !m.disabledAt);
-	const byPerson = new Map<string, { name: string; teamIds: Set<string> }>();
+	const byPerson = new Map<string, { userId: string; name: string; teamIds: Set<string> }>();
 	for (const m of members) {
-		const p = byPerson.get(m.email) ?? { name: m.name, teamIds: new Set<string>() };
+		const p = byPerson.get(m.email) ?? { userId: m.userId, name: m.name, teamIds: new Set<string>() };
 		p.teamIds.add(m.teamId);
 		byPerson.set(m.email, p);
 	}
@@ -393,8 +398,11 @@ export async function tellRetractedClaims(eventId: string, claimIds: string[], r
 			`${config.publicUrl}/events/${encodeURIComponent(eventId)}`
 		].join('\n');
 		try {
-			await sendMail({ to: email, subject: `RETRACTED ${source} · your claims were released`, text });
-			sent.push(email);
+			const delivery = await notify({ userId: person.userId, name: person.name, email }, 'claims.retracted', eventClassOf(event?.classification), {
+				subject: `RETRACTED ${source} · your claims were released`,
+				text
+			});
+			if (delivery !== 'none') sent.push(email);
 		} catch (e) {
 			console.error(`retraction notice to ${email} failed`, e);
 		}

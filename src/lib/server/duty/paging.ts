@@ -8,7 +8,9 @@ import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { config } from '../platform/config';
 import { loadSessionUser, randomId, type SessionUser } from '../people/auth';
-import { sendMail, type OutgoingMail } from '../platform/mail';
+import type { OutgoingMail } from '../platform/mail';
+import { eventClassOf, notify } from '../people/notifications';
+import type { NotificationKind } from '../../notifications.ts';
 import { every } from '../platform/periodic';
 import { restartService } from '../platform/services';
 import { onRecorded, record, SYSTEM, type Actor, type LivePayloads } from '../platform/realtime';
@@ -279,17 +281,31 @@ export function composePage(
 	return { to: o.recipient.email, subject, text: lines.join('\n') };
 }
 
-async function deliver(mails: { mail: OutgoingMail; eventId: string; userId: string }[]): Promise<void> {
+interface DutyMail {
+	mail: OutgoingMail;
+	eventId: string;
+	userId: string;
+	name: string;
+	kind: Extract<NotificationKind, 'duty.page' | 'duty.stand-down'>;
+}
+
+/** Pages go through the notification door like every mail, which always lets them through at once. */
+async function deliver(mails: DutyMail[]): Promise<void> {
 	await Promise.all(
-		mails.map(async ({ mail, eventId, userId }) => {
+		mails.map(async ({ mail, eventId, userId, name, kind }) => {
 			try {
-				await sendMail(mail);
+				await notify({ userId, name, email: mail.to }, kind, eventClassOfEvent(eventId), mail);
 			} catch (e) {
 				console.error(`duty page to ${mail.to} failed`, e);
 				record(SYSTEM, 'duty.mail-failed', 'board', { eventId, userId, error: (e as Error).message });
 			}
 		})
 	);
+}
+
+function eventClassOfEvent(eventId: string) {
+	const ev = db.select({ classification: table.gwEvent.classification }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
+	return eventClassOf(ev?.classification);
 }
 
 /**
@@ -315,7 +331,9 @@ export async function pageForNotice(eventId: string, noticeId: string, now = new
 	announce(SYSTEM, 'duty.paged', eventId, { eventId, noticeId, level: 0, to: names, fallback });
 	if (fallback) record(SYSTEM, 'duty.nobody-on-shift', 'board', { eventId, noticeId, paged: names });
 	const afterMin = escalateAfterMin();
-	await deliver(people.map((p) => ({ mail: composePage(ctx, { recipient: p, level: 0, afterMin, fallback }), eventId, userId: p.userId })));
+	await deliver(
+		people.map((p) => ({ mail: composePage(ctx, { recipient: p, level: 0, afterMin, fallback }), eventId, userId: p.userId, name: p.name, kind: 'duty.page' as const }))
+	);
 	return db.select().from(table.dutyPage).where(inArray(table.dutyPage.id, rows.map((r) => r.id))).all();
 }
 
@@ -346,7 +364,7 @@ export async function escalate(now = new Date()): Promise<number> {
 	const byEvent = new Map<string, { page: table.DutyPage; name: string }[]>();
 	for (const o of overdue) byEvent.set(o.page.eventId, [...(byEvent.get(o.page.eventId) ?? []), o]);
 
-	const outgoing: { mail: OutgoingMail; eventId: string; userId: string }[] = [];
+	const outgoing: DutyMail[] = [];
 	for (const [eventId, group] of byEvent) {
 		const pages = group.map((g) => g.page);
 		const newest = pages[pages.length - 1];
@@ -379,7 +397,7 @@ export async function escalate(now = new Date()): Promise<number> {
 		const ctx = pageContext(eventId, newest.noticeId);
 		if (!ctx) continue;
 		for (const p of people) {
-			outgoing.push({ mail: composePage(ctx, { recipient: p, level, afterMin, escalatedFrom: from, fallback }), eventId, userId: p.userId });
+			outgoing.push({ mail: composePage(ctx, { recipient: p, level, afterMin, escalatedFrom: from, fallback }), eventId, userId: p.userId, name: p.name, kind: 'duty.page' });
 		}
 	}
 	await deliver(outgoing);
@@ -508,6 +526,8 @@ export async function standDown(eventId: string): Promise<number> {
 		paged.map((p) => ({
 			eventId,
 			userId: p.userId,
+			name: p.name,
+			kind: 'duty.stand-down' as const,
 			mail: {
 				to: p.email,
 				subject: `RETRACTED ${ev.sourceEventId} · stand down`,

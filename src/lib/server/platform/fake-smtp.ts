@@ -13,6 +13,8 @@ export interface ReceivedMail {
 	subject: string;
 	text: string;
 	html: string | null;
+	/** The List-Unsubscribe header as sent, or null. */
+	listUnsubscribe: string | null;
 }
 
 interface Mailbox {
@@ -33,6 +35,12 @@ function mailbox(): Mailbox {
 	return g[SLOT]!;
 }
 
+/** The value of a header as it came over the wire (unfolded), or null. */
+function headerLine(lines: readonly { key: string; line: string }[], key: string): string | null {
+	const found = lines.find((l) => l.key === key);
+	return found ? found.line.slice(found.line.indexOf(':') + 1).replace(/\r?\n\s+/g, ' ').trim() : null;
+}
+
 /**
  * Write a caught message whole to the spool folder, the only place its links appear unmasked (the
  * mailbox page masks them): whoever runs the server can open them there. Keeps the newest KEEP files.
@@ -42,6 +50,7 @@ function spool(dir: string, mail: ReceivedMail): void {
 		mkdirSync(dir, { recursive: true });
 		const name = `${String(Date.now()).padStart(15, '0')}-${String(mail.id).padStart(6, '0')}.txt`;
 		const head = [`To: ${mail.to.join(', ')}`, `From: ${mail.from}`, `Subject: ${mail.subject.replace(/\s+/g, ' ')}`, `Date: ${mail.receivedAt}`];
+		if (mail.listUnsubscribe) head.push(`List-Unsubscribe: ${mail.listUnsubscribe}`);
 		writeFileSync(join(dir, name), `${head.join('\n')}\n\n${mail.text}`, { mode: 0o600 });
 		const files = readdirSync(dir).filter((n) => n.endsWith('.txt')).sort();
 		for (const old of files.slice(0, Math.max(0, files.length - KEEP))) unlinkSync(join(dir, old));
@@ -75,7 +84,8 @@ export async function startFakeSmtp(port: number, spoolDir: string | null = null
 						to,
 						subject: parsed.subject ?? '',
 						text: parsed.text ?? '',
-						html: typeof parsed.html === 'string' ? parsed.html : null
+						html: typeof parsed.html === 'string' ? parsed.html : null,
+						listUnsubscribe: headerLine(parsed.headerLines, 'list-unsubscribe')
 					};
 					box.messages.unshift(mail);
 					box.messages.length = Math.min(box.messages.length, KEEP);

@@ -7,6 +7,8 @@ export interface OutgoingMail {
 	to: string;
 	subject: string;
 	text: string;
+	/** Extra headers (List-Unsubscribe, List-Unsubscribe-Post). */
+	headers?: Record<string, string>;
 }
 
 let transporter: Transporter | null = null;
@@ -29,7 +31,7 @@ export async function startMail(): Promise<void> {
 
 export async function sendMail(mail: OutgoingMail): Promise<void> {
 	if (!transporter) await startMail();
-	await transporter!.sendMail({ from: config.mailFrom, to: mail.to, subject: mail.subject, text: mail.text });
+	await transporter!.sendMail({ from: config.mailFrom, to: mail.to, subject: mail.subject, text: mail.text, headers: mail.headers });
 }
 
 export { fakeSmtpPort };

@@ -3,7 +3,8 @@
  * event's catalogue inside its 99% credible region (Singer et al. 2016 galaxy targeting, see
  * `lib/targeting/galaxies.ts`) and, for each wide-field telescope, the fields of its fixed sky
  * tiling by enclosed probability (`lib/targeting/fields.ts`). The rankings of an event are kept
- * for its current map only: a new map replaces them in one transaction.
+ * for its current map only: a new map replaces them in one transaction, which first keeps the old
+ * ranks of the targets that open claims hold (`rank_snapshot`, read by coordination/moved-claims.ts).
  *
  * Wide or narrow: a telescope whose field of view covers at least WIDE_FIELD_MIN_DEG2 (1 deg²,
  * `lib/targeting/telescope.ts`, where the reason is given) tiles the sky; a narrower one points
@@ -193,6 +194,23 @@ export function rankEvent(eventId: string, opts: { skymapId?: string; catalogId?
 	const computeMs = performance.now() - started;
 
 	db.transaction((tx) => {
+		// Before the old ranking goes: keep the ranks of the targets open claims hold, for the teams to be told what moved.
+		tx.delete(table.rankSnapshot).where(eq(table.rankSnapshot.eventId, eventId)).run();
+		tx.run(sql`
+			INSERT INTO rank_snapshot (event_id, target_kind, telescope_id, target_id, from_skymap_id, from_catalog_id, rank, probability)
+			SELECT g.event_id, 'galaxy', '', CAST(g.galaxy_id AS TEXT), g.skymap_id, m.catalog_id, g.rank, g.probability
+			FROM event_galaxy g JOIN event_targets_meta m ON m.event_id = g.event_id
+			WHERE g.event_id = ${eventId} AND g.galaxy_id IN (
+				SELECT CAST(c.target_id AS INTEGER) FROM claim c
+				WHERE c.event_id = ${eventId} AND c.target_kind = 'galaxy' AND c.state IN ('claimed', 'observing'))`);
+		tx.run(sql`
+			INSERT INTO rank_snapshot (event_id, target_kind, telescope_id, target_id, from_skymap_id, from_catalog_id, rank, probability)
+			SELECT f.event_id, 'field', f.telescope_id, f.field_id, f.skymap_id, m.catalog_id, f.rank, f.probability
+			FROM event_field f JOIN event_targets_meta m ON m.event_id = f.event_id
+			WHERE f.event_id = ${eventId} AND EXISTS (
+				SELECT 1 FROM claim c
+				WHERE c.event_id = f.event_id AND c.target_kind = 'field' AND c.target_id = f.field_id
+					AND c.telescope_id = f.telescope_id AND c.state IN ('claimed', 'observing'))`);
 		tx.delete(table.eventGalaxy).where(eq(table.eventGalaxy.eventId, eventId)).run();
 		tx.delete(table.eventField).where(eq(table.eventField.eventId, eventId)).run();
 		tx.delete(table.eventTargetsMeta).where(eq(table.eventTargetsMeta.eventId, eventId)).run();

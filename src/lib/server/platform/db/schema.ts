@@ -1,6 +1,7 @@
 import { sql } from 'drizzle-orm';
 import { ROLES_LIST } from '../../../roles';
 import type { SkymapSummary } from '../../../sky/index';
+import { NOTIFICATION_KINDS, QUIET_ACTIONS, type KindChoice, type NotificationKind, type SourceClass } from '../../../notifications';
 import type { Classification, TriageVerdict } from '../../../event-view';
 import type { KilonovaVerdict, ThresholdChanges } from '../../../candidates/rules';
 import type { CandidateVetting } from '../../../candidates/vetting';
@@ -188,6 +189,54 @@ export const signInAttempt = sqliteTable(
 		createdAt: createdAt()
 	},
 	(t) => [index('sign_in_attempt_key_idx').on(t.key, t.createdAt)]
+);
+
+/** A server-wide secret by name (e.g. the key that signs unsubscribe links), made once at random. */
+export const serverSecret = sqliteTable('server_secret', {
+	name: text('name').primaryKey(),
+	/** Base64 of the random bytes. */
+	value: text('value').notNull(),
+	createdAt: createdAt()
+});
+
+/** What a person is e-mailed about and when; no row = the defaults (everything at once, every event). */
+export const notificationPreference = sqliteTable('notification_preference', {
+	userId: text('user_id')
+		.primaryKey()
+		.references(() => user.id, { onDelete: 'cascade' }),
+	/** kind → 'now' | 'digest' | 'off'; a kind not listed is sent at once. */
+	kinds: text('kinds', { mode: 'json' }).$type<Partial<Record<NotificationKind, KindChoice>>>().notNull(),
+	/** Most probable classes followed; null = every event. */
+	eventClasses: text('event_classes', { mode: 'json' }).$type<SourceClass[]>(),
+	/** Local "HH:MM"; both null = no quiet hours. */
+	quietStart: text('quiet_start'),
+	quietEnd: text('quiet_end'),
+	timeZone: text('time_zone').notNull().default('UTC'),
+	quietAction: text('quiet_action', { enum: QUIET_ACTIONS }).notNull().default('hold'),
+	digestPeriodMin: integer('digest_period_min').notNull().default(60),
+	updatedAt: integer('updated_at', { mode: 'timestamp_ms' }).notNull()
+});
+
+export const OUTBOX_MODES = ['digest', 'held'] as const;
+
+/** Mails waiting: for the person's digest, or for the end of their quiet hours. */
+export const notificationOutbox = sqliteTable(
+	'notification_outbox',
+	{
+		id: text('id').primaryKey(),
+		userId: text('user_id')
+			.notNull()
+			.references(() => user.id, { onDelete: 'cascade' }),
+		kind: text('kind', { enum: NOTIFICATION_KINDS }).notNull(),
+		mode: text('mode', { enum: OUTBOX_MODES }).notNull(),
+		subject: text('subject').notNull(),
+		text: text('text').notNull(),
+		/** A held mail goes at this time (the end of the quiet hours it arrived in). */
+		releaseAt: integer('release_at', { mode: 'timestamp_ms' }),
+		createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull(),
+		sentAt: integer('sent_at', { mode: 'timestamp_ms' })
+	},
+	(t) => [index('notification_outbox_waiting_idx').on(t.sentAt, t.userId, t.createdAt)]
 );
 
 export type User = typeof user.$inferSelect;
@@ -516,6 +565,29 @@ export const eventTargetsMeta = sqliteTable('event_targets_meta', {
 	computedAt: integer('computed_at', { mode: 'timestamp_ms' }).notNull()
 });
 
+/**
+ * The ranks, before the last re-ranking, of the targets that open claims held then (the ranking
+ * tables keep the current map only). Written with each ranking, in the same transaction;
+ * `telescopeId` is '' for galaxies, which are ranked for every telescope alike.
+ */
+export const rankSnapshot = sqliteTable(
+	'rank_snapshot',
+	{
+		eventId: text('event_id')
+			.notNull()
+			.references(() => gwEvent.id, { onDelete: 'cascade' }),
+		targetKind: text('target_kind', { enum: ['galaxy', 'field'] }).notNull(),
+		telescopeId: text('telescope_id').notNull(),
+		targetId: text('target_id').notNull(),
+		/** The map and catalogue of the ranking these ranks come from. */
+		fromSkymapId: text('from_skymap_id').notNull(),
+		fromCatalogId: text('from_catalog_id'),
+		rank: integer('rank').notNull(),
+		probability: real('probability').notNull()
+	},
+	(t) => [primaryKey({ columns: [t.eventId, t.targetKind, t.telescopeId, t.targetId] })]
+);
+
 export type Catalog = typeof catalog.$inferSelect;
 export type Galaxy = typeof galaxy.$inferSelect;
 export type EventGalaxy = typeof eventGalaxy.$inferSelect;
@@ -826,3 +898,6 @@ export type CandidateDecision = typeof candidateDecision.$inferSelect;
 export type CandidateComment = typeof candidateComment.$inferSelect;
 export type KilonovaRules = typeof kilonovaRules.$inferSelect;
 export type CandidateVettingRow = typeof candidateVetting.$inferSelect;
+export type NotificationPreference = typeof notificationPreference.$inferSelect;
+export type NotificationOutboxRow = typeof notificationOutbox.$inferSelect;
+export type RankSnapshot = typeof rankSnapshot.$inferSelect;
