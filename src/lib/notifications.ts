@@ -76,7 +76,8 @@ export const KIND_INFO: Record<NotificationKind, KindInfo> = {
 };
 
 /** The kinds a person may choose for; duty pages are not among them. */
-export const CHOOSABLE_KINDS = NOTIFICATION_KINDS.filter((k) => !KIND_INFO[k].page);
+export type ChoosableKind = Exclude<NotificationKind, 'duty.page' | 'duty.stand-down'>;
+export const CHOOSABLE_KINDS = NOTIFICATION_KINDS.filter((k): k is ChoosableKind => !KIND_INFO[k].page);
 
 export const KIND_CHOICES = ['now', 'digest', 'off'] as const;
 export type KindChoice = (typeof KIND_CHOICES)[number];

@@ -6,11 +6,27 @@ import { validateForm, failFromError } from '$lib/server/platform/forms';
 import * as auth from '$lib/server/people/auth';
 import * as people from '$lib/server/people/people';
 import { newPasswordField } from '$lib/validation';
+import * as notifications from '$lib/server/people/notifications';
+import {
+	CHOOSABLE_KINDS,
+	DIGEST_PERIODS_MIN,
+	isTime,
+	isTimeZone,
+	KIND_CHOICES,
+	KIND_INFO,
+	QUIET_ACTIONS,
+	SOURCE_CLASSES,
+	type ChoosableKind,
+	type KindChoice,
+	type NotificationPreferences
+} from '$lib/notifications';
 
 export const load: PageServerLoad = ({ locals }) => {
 	const user = requireUser('account.manage');
 	const current = locals.session?.id;
 	return {
+		preferences: notifications.preferencesOf(user.id),
+		waiting: notifications.waitingFor(user.id).length,
 		sessions: auth
 			.listSessions(user.id)
 			.map((s) => ({ ...s, current: s.id === current, id: s.id.slice(0, 12) }))
@@ -26,7 +42,61 @@ const passwordSchema = z
 	})
 	.refine((v) => v.password === v.confirm, { path: ['confirm'], message: 'The two passwords differ.' });
 
+const kindFields = Object.fromEntries(
+	CHOOSABLE_KINDS.map((k) => [
+		`kind.${k}`,
+		KIND_INFO[k].urgent
+			? z.enum(['now', 'off'], { error: `Choose whether “${KIND_INFO[k].label}” reach you at once or not at all.` })
+			: z.enum(KIND_CHOICES, { error: `Choose how “${KIND_INFO[k].label}” reach you.` })
+	])
+) as unknown as Record<`kind.${ChoosableKind}`, z.ZodType<KindChoice>>;
+
+const preferencesSchema = z
+	.object({
+		...kindFields,
+		classes: z.enum(['all', 'some'], { error: 'Choose all events, or some classes.' }),
+		eventClasses: z.array(z.enum(SOURCE_CLASSES, { error: 'Unknown source class.' })),
+		quiet: z.literal('on').optional(),
+		quietStart: z.string().trim().optional(),
+		quietEnd: z.string().trim().optional(),
+		timeZone: z.string().trim().max(64, 'A time zone name has at most 64 characters.').optional(),
+		quietAction: z.enum(QUIET_ACTIONS, { error: 'Choose what happens to mail during quiet hours.' }).optional(),
+		digestPeriodMin: z.coerce
+			.number({ error: 'Choose how often the digest comes.' })
+			.refine((n) => (DIGEST_PERIODS_MIN as readonly number[]).includes(n), 'Choose one of the digest periods offered.')
+	})
+	.superRefine((v, ctx) => {
+		if (v.classes === 'some' && v.eventClasses.length === 0)
+			ctx.addIssue({ code: 'custom', path: ['eventClasses'], message: 'Choose at least one class, or all events.' });
+		if (v.quiet !== 'on') return;
+		if (!v.quietStart || !isTime(v.quietStart)) ctx.addIssue({ code: 'custom', path: ['quietStart'], message: 'Give the start as HH:MM (24-hour clock).' });
+		if (!v.quietEnd || !isTime(v.quietEnd)) ctx.addIssue({ code: 'custom', path: ['quietEnd'], message: 'Give the end as HH:MM (24-hour clock).' });
+		else if (v.quietStart === v.quietEnd) ctx.addIssue({ code: 'custom', path: ['quietEnd'], message: 'The quiet hours must end at another time than they start.' });
+		if (!v.timeZone) ctx.addIssue({ code: 'custom', path: ['timeZone'], message: 'Give a time zone, e.g. UTC or Europe/Madrid.' });
+		else if (!isTimeZone(v.timeZone))
+			ctx.addIssue({ code: 'custom', path: ['timeZone'], message: `“${v.timeZone}” is not a time zone we know: use a name like Europe/Madrid, America/Santiago or UTC.` });
+		if (!v.quietAction) ctx.addIssue({ code: 'custom', path: ['quietAction'], message: 'Choose what happens to mail during quiet hours.' });
+	});
+
 export const actions: Actions = {
+	notifications: async ({ request }) => {
+		const user = requireUser('account.manage');
+		const { data, form, failure } = await validateForm(request, preferencesSchema, ['eventClasses']);
+		if (failure) return failure;
+		const preferences: NotificationPreferences = {
+			kinds: Object.fromEntries(CHOOSABLE_KINDS.map((k) => [k, data[`kind.${k}`]])),
+			eventClasses: data.classes === 'all' ? null : data.eventClasses,
+			quietHours:
+				data.quiet === 'on' ? { start: data.quietStart!, end: data.quietEnd!, timeZone: data.timeZone!, action: data.quietAction! } : null,
+			digestPeriodMin: data.digestPeriodMin
+		};
+		try {
+			notifications.savePreferences(user.id, preferences);
+		} catch (e) {
+			return failFromError(form, e);
+		}
+		return { done: 'E-mail preferences saved.', section: 'notifications' };
+	},
 	password: async ({ request, locals }) => {
 		const user = requireUser('account.manage');
 		const { data, form, failure } = await validateForm(request, passwordSchema);
