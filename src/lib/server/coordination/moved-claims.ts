@@ -27,7 +27,8 @@ export function notableMove(before: RankPosition, after: RankPosition | null): b
 	if (!after) return true;
 	if (Math.abs(after.rank - before.rank) >= RERANK_NOTABLE_PLACES) return true;
 	if (before.probability <= 0) return after.probability > 0;
-	return Math.abs(after.probability - before.probability) / before.probability >= RERANK_NOTABLE_PROBABILITY_CHANGE;
+	// A hair of tolerance: 0.10 → 0.15 is a 50 % change even though (0.15 − 0.1) / 0.1 < 0.5 in floating point.
+	return Math.abs(after.probability - before.probability) / before.probability >= RERANK_NOTABLE_PROBABILITY_CHANGE - 1e-9;
 }
 
 export interface MovedTarget {
@@ -136,7 +137,8 @@ export function rerankCause(eventId: string, skymapId: string, catalogId: string
 	return 'ranking';
 }
 
-const pct = (p: number) => `${(p * 100).toFixed(p < 0.001 ? 3 : p < 0.1 ? 2 : 1)}%`;
+/** Two significant figures: 30%, 5.0%, 0.12%. */
+const pct = (p: number) => `${(p * 100).toPrecision(2)}%`;
 
 export function describeMove(t: MovedTarget): string {
 	const what = `${t.targetKind === 'galaxy' ? t.targetName : `field ${t.targetName}`}${t.filter ? ` in ${t.filter}` : ''}, epoch ${t.epoch} (${t.telescopeName})`;
@@ -164,7 +166,7 @@ export function composeMovedMail(o: { sourceEventId: string; eventId: string; te
 		...o.team.targets.map(describeMove),
 		'',
 		left
-			? `${left === n ? 'They are' : `${left} of them are`} now outside the searched region: consider releasing ${left === 1 ? 'that claim' : 'those claims'} for better targets.`
+			? `${left === n ? (n === 1 ? 'It is' : 'They are') : `${left} of them ${left === 1 ? 'is' : 'are'}`} now outside the searched region: consider releasing ${left === 1 ? 'that claim' : 'those claims'} for better targets.`
 			: 'Your claims still hold; consider whether the new order changes what you observe first.',
 		'',
 		`Targets: ${config.publicUrl}/events/${encodeURIComponent(o.eventId)}/targets`

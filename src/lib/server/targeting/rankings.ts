@@ -123,6 +123,30 @@ export interface RankSummary {
 }
 
 /**
+ * Keep the current ranks of the targets that open claims of an event hold (replacing the last
+ * snapshot). Called inside the ranking's transaction, before the old ranking is deleted; galaxies
+ * match by galaxy row id, fields by telescope and field id.
+ */
+export function snapshotHeldRanks(tx: Pick<typeof db, 'run' | 'delete'>, eventId: string): void {
+	tx.delete(table.rankSnapshot).where(eq(table.rankSnapshot.eventId, eventId)).run();
+	tx.run(sql`
+		INSERT INTO rank_snapshot (event_id, target_kind, telescope_id, target_id, from_skymap_id, from_catalog_id, rank, probability)
+		SELECT g.event_id, 'galaxy', '', CAST(g.galaxy_id AS TEXT), g.skymap_id, m.catalog_id, g.rank, g.probability
+		FROM event_galaxy g JOIN event_targets_meta m ON m.event_id = g.event_id
+		WHERE g.event_id = ${eventId} AND g.galaxy_id IN (
+			SELECT CAST(c.target_id AS INTEGER) FROM claim c
+			WHERE c.event_id = ${eventId} AND c.target_kind = 'galaxy' AND c.state IN ('claimed', 'observing'))`);
+	tx.run(sql`
+		INSERT INTO rank_snapshot (event_id, target_kind, telescope_id, target_id, from_skymap_id, from_catalog_id, rank, probability)
+		SELECT f.event_id, 'field', f.telescope_id, f.field_id, f.skymap_id, m.catalog_id, f.rank, f.probability
+		FROM event_field f JOIN event_targets_meta m ON m.event_id = f.event_id
+		WHERE f.event_id = ${eventId} AND EXISTS (
+			SELECT 1 FROM claim c
+			WHERE c.event_id = f.event_id AND c.target_kind = 'field' AND c.target_id = f.field_id
+				AND c.telescope_id = f.telescope_id AND c.state IN ('claimed', 'observing'))`);
+}
+
+/**
  * Rank targets for an event's sky map (default: the map the event shows now) and replace what
  * was stored for the event. Logs `targets.ranked` to the board and the event's room.
  */
@@ -195,22 +219,7 @@ export function rankEvent(eventId: string, opts: { skymapId?: string; catalogId?
 
 	db.transaction((tx) => {
 		// Before the old ranking goes: keep the ranks of the targets open claims hold, for the teams to be told what moved.
-		tx.delete(table.rankSnapshot).where(eq(table.rankSnapshot.eventId, eventId)).run();
-		tx.run(sql`
-			INSERT INTO rank_snapshot (event_id, target_kind, telescope_id, target_id, from_skymap_id, from_catalog_id, rank, probability)
-			SELECT g.event_id, 'galaxy', '', CAST(g.galaxy_id AS TEXT), g.skymap_id, m.catalog_id, g.rank, g.probability
-			FROM event_galaxy g JOIN event_targets_meta m ON m.event_id = g.event_id
-			WHERE g.event_id = ${eventId} AND g.galaxy_id IN (
-				SELECT CAST(c.target_id AS INTEGER) FROM claim c
-				WHERE c.event_id = ${eventId} AND c.target_kind = 'galaxy' AND c.state IN ('claimed', 'observing'))`);
-		tx.run(sql`
-			INSERT INTO rank_snapshot (event_id, target_kind, telescope_id, target_id, from_skymap_id, from_catalog_id, rank, probability)
-			SELECT f.event_id, 'field', f.telescope_id, f.field_id, f.skymap_id, m.catalog_id, f.rank, f.probability
-			FROM event_field f JOIN event_targets_meta m ON m.event_id = f.event_id
-			WHERE f.event_id = ${eventId} AND EXISTS (
-				SELECT 1 FROM claim c
-				WHERE c.event_id = f.event_id AND c.target_kind = 'field' AND c.target_id = f.field_id
-					AND c.telescope_id = f.telescope_id AND c.state IN ('claimed', 'observing'))`);
+		snapshotHeldRanks(tx, eventId);
 		tx.delete(table.eventGalaxy).where(eq(table.eventGalaxy.eventId, eventId)).run();
 		tx.delete(table.eventField).where(eq(table.eventField.eventId, eventId)).run();
 		tx.delete(table.eventTargetsMeta).where(eq(table.eventTargetsMeta.eventId, eventId)).run();
