@@ -11,8 +11,9 @@ import { BASE_URL } from '../../../playwright.config';
  * nobody signed in is sent to sign in (303 to /sign-in) without the action running. `ok` marks actions that need no input (they succeed: 200).
  * A row with `form` sends that form instead: it passes validation, and a role allowed to act is
  * stopped later (400) without anything changing. `allowedStatus` replaces 400 where an allowed role is refused otherwise.
+ * A `public` row needs no sign-in by design: everyone, signed out included, gets the same answer.
  */
-const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean; allowedStatus?: number; form?: Record<string, string> }[] = [
+const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean; allowedStatus?: number; form?: Record<string, string>; public?: boolean }[] = [
 	{ path: '/admin?/invite', allowed: ['admin', 'coordinator'] },
 	// Only an administrator may make an administrator: a coordinator is refused before anything is sent;
 	// the admin gets as far as "this address already has an account".
@@ -30,6 +31,11 @@ const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean; allowed
 	{ path: '/telescopes/{telescopeId}', allowed: ['admin', 'coordinator'] },
 	{ path: '/account?/password', allowed: 'all' },
 	{ path: '/account?/signOutOthers', allowed: 'all', ok: true },
+	{ path: '/account?/notifications', allowed: 'all' },
+	// Public by design: the signed token in the link is the permission (one person, one kind of
+	// e-mail), so an unsubscribe link works from a mail without signing in. A token that does not
+	// verify is refused (400) whoever sends it, signed in or not, and nothing changes.
+	{ path: '/unsubscribe/bm90LWEtdmFsaWQtdG9rZW4tYXQtYWxsLWJ1dC1sb25nLWVub3VnaA', allowed: 'all', public: true },
 	{ path: '/?/acknowledge', allowed: ['duty', 'coordinator'] },
 	{ path: '/roster?/add', allowed: ['admin', 'coordinator'] },
 	{ path: '/roster?/remove', allowed: ['admin', 'coordinator'] },
@@ -130,8 +136,8 @@ for (const role of [...ROLES_LIST, null] as const) {
 		const wanted: string[] = [];
 		for (const row of MATRIX) {
 			const res = await ctx.post(row.path.replace('{telescopeId}', telescopeId).replace('{eventId}', eventId), { form: row.form ?? {}, maxRedirects: 0 });
-			const allowed = role !== null && (row.allowed === 'all' || row.allowed.includes(role));
-			const expected = role === null ? '303 /sign-in' : !allowed ? 403 : row.ok ? 200 : (row.allowedStatus ?? 400);
+			const allowed = row.public || (role !== null && (row.allowed === 'all' || row.allowed.includes(role)));
+			const expected = role === null && !row.public ? '303 /sign-in' : !allowed ? 403 : row.ok ? 200 : (row.allowedStatus ?? 400);
 			const location = res.headers()['location']?.split('?')[0];
 			const label = row.form ? `${row.path} ${JSON.stringify(row.form)}` : row.path;
 			seen.push(`${label} ${res.status()}${location ? ' ' + location : ''}`);

@@ -12,6 +12,8 @@ interface CaughtMail {
 	to: string;
 	subject: string;
 	text: string;
+	/** The List-Unsubscribe header, '' when the mail has none. */
+	listUnsubscribe: string;
 }
 
 function readAll(): CaughtMail[] {
@@ -28,7 +30,7 @@ function readAll(): CaughtMail[] {
 			const raw = readFileSync(join(MAIL_DIR, n), 'utf8');
 			const [head, ...body] = raw.split('\n\n');
 			const field = (k: string) => head.split('\n').find((l) => l.startsWith(`${k}: `))?.slice(k.length + 2) ?? '';
-			return { to: field('To'), subject: field('Subject'), text: body.join('\n\n') };
+			return { to: field('To'), subject: field('Subject'), text: body.join('\n\n'), listUnsubscribe: field('List-Unsubscribe') };
 		});
 }
 
