@@ -36,7 +36,7 @@ test.afterAll(() => {
 
 async function signOut(page: Page) {
 	await page.getByTestId('user-menu').click();
-	await page.getByRole('button', { name: 'Sign out' }).click();
+	await page.getByRole('button', { name: 'Sign out', exact: true }).click();
 	await expect(page).toHaveURL(/\/$/);
 }
 
@@ -98,7 +98,7 @@ test('a member sets e-mail preferences; a bad time zone is refused with what was
 test('an unsubscribe link from a received mail works signed out, after a confirmation, for that person and kind only', async ({ browser }) => {
 	// A classification mails the duty scientists and the coordinators.
 	const api = async (role: string) => {
-		const ctx = await newRequest.newContext({ baseURL: BASE_URL, extraHTTPHeaders: { origin: BASE_URL } });
+		const ctx = await newRequest.newContext({ baseURL: BASE_URL, extraHTTPHeaders: { origin: BASE_URL, accept: 'text/html' } });
 		const p = demo(role);
 		const res = await ctx.post('/sign-in', { form: { email: p.email, password: p.password }, maxRedirects: 0 });
 		expect(res.status()).toBe(303);
