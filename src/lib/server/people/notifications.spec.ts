@@ -67,7 +67,7 @@ describe('deliveryFor (stored preferences)', () => {
 });
 
 describe('notify and the outbox', () => {
-	it('sends at once with an unsubscribe link and the List-Unsubscribe headers; a duty page points to the preferences instead', async () => {
+	it('sends at once with an unsubscribe link and the List-Unsubscribe header; a duty page points to the preferences instead', async () => {
 		const a = person('Cy Lund');
 		expect(await notifications.notify(a, 'claim.lapsed', 'BNS', mail('Lapsed one'))).toBe('now');
 		expect(await notifications.notify(a, 'duty.page', 'BNS', mail('Page one'))).toBe('now');

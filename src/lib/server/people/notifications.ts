@@ -4,7 +4,7 @@
  * A sender calls `notify(person, kind, eventClass, mail)`; `deliveryFor` decides from the person's
  * stored preferences ('now', 'digest', 'later' = held until their quiet hours end, 'none'). Duty
  * pages are always 'now'. Mails sent now get a footer: an unsubscribe link for that person and
- * kind (a signed token, `unsubscribe.ts`) and the List-Unsubscribe headers, or for duty pages a
+ * kind (a signed token, `unsubscribe.ts`) and the List-Unsubscribe header, or for duty pages a
  * pointer to the preferences, since pages cannot be switched off. Waiting mails sit in the outbox
  * until the periodic flush sends them (held ones at the end of the quiet hours, digests one
  * period after the oldest thing waiting in them).
@@ -164,8 +164,10 @@ function withFooter(to: Addressee, kind: NotificationKind | 'digest', mail: { su
 		to: to.email,
 		subject: mail.subject,
 		text: [mail.text, ...footer].join('\n'),
-		// RFC 2369 and RFC 8058 (one-click: the mail client POSTs to the link).
-		headers: { 'List-Unsubscribe': `<${link}>`, 'List-Unsubscribe-Post': 'List-Unsubscribe=One-Click' }
+		// RFC 2369: the mail client opens the link, which asks for a confirmation. One-click (RFC 8058,
+		// List-Unsubscribe-Post) is not offered: the provider's POST carries no Origin header, and
+		// SvelteKit refuses cross-site form posts before any hook runs.
+		headers: { 'List-Unsubscribe': `<${link}>` }
 	};
 }
 

@@ -3,7 +3,7 @@
  * digest"), signed with HMAC-SHA-256 under a server secret, so the link works without signing in
  * and cannot be turned into another person's or another kind's link. The token is
  * base64url(payload ‖ MAC), payload = "1:<kind>:<userId>" in UTF-8. Links do not expire: an
- * unsubscribe link in an old mail should still work (RFC 8058 asks for that).
+ * unsubscribe link in an old mail should still work.
  */
 import { eq } from 'drizzle-orm';
 import { hmac } from '@oslojs/crypto/hmac';

@@ -6,8 +6,7 @@ import * as notifications from '$lib/server/people/notifications';
 /**
  * Public by design: the signed token in the path is the permission (one person, one kind of
  * e-mail). Opening the link only shows what would be switched off; a mail scanner that follows
- * it changes nothing. Confirming is a POST, which is also what a mail client's one-click
- * unsubscribe (RFC 8058, `List-Unsubscribe-Post`) sends.
+ * it changes nothing. Confirming is a POST from this page.
  */
 export const load: PageServerLoad = ({ params }) => {
 	try {
