@@ -29,7 +29,7 @@
  * 10-min tables. The constraints and their safety margins are in plan-constraints.ts; input and
  * output types in plan-types.ts.
  */
-import { ephemerisTables, instantAt, siteEphemeris, type ApparentInstant, type SiteEphemeris } from './apparent-place.ts';
+import { airmassKastenYoung1989, ephemerisTables, instantAt, siteEphemeris, standardRefractionDeg, type ApparentInstant, type SiteEphemeris } from './apparent-place.ts';
 import { ASTRONOMICAL_TWILIGHT_ALTITUDE_DEG, NAUTICAL_TWILIGHT_ALTITUDE_DEG } from './night.ts';
 import { validateSite, validateTarget } from './observing-inputs.ts';
 import { AIRMASS_MARGIN, darkIntervals, MARGIN_DEG, sampleAt, Stage, sunElongationDeg, type Limits, type Sample } from './plan-constraints.ts';
@@ -314,9 +314,11 @@ export function planNetwork(input: PlanInput): NetworkPlan {
 	};
 
 	const improve = input.improve ?? urgency !== 'none';
+	const observableInGrid = new Uint8Array(visits.length);
 	if (!improve) greedyList();
 	else {
 		const grids = telescopes.map((ts) => visibilityGrid(ctx, ts));
+		for (const g of grids) for (const list of g.visitsAt) for (const v of list) observableInGrid[v.index] = 1;
 		greedyOnGrid(grids);
 		let greedyCovered = 0;
 		for (const ts of telescopes) greedyCovered += ts.cumulative;
@@ -408,6 +410,7 @@ export function planNetwork(input: PlanInput): NetworkPlan {
 	 */
 	function greedyOnGrid(grids: VisibilityGrid[]): void {
 		const next = new Int32Array(telescopes.length);
+		const priorityOf = (v: VisitState) => v.target.probability * (covered[v.targetIndex] ? repeatPriority : 1);
 		const freeAt = (k: number) => grids[k].starts[next[k]] - telescopes[k].slewMs;
 		const active = new Set(telescopes.filter((ts) => grids[ts.index].starts.length > 0).map((ts) => ts.index));
 		while (active.size > 0) {
@@ -420,31 +423,41 @@ export function planNetwork(input: PlanInput): NetworkPlan {
 			if (next[k] >= grid.starts.length) active.delete(k);
 			const s = grid.starts[j];
 			const e = s + ts.exposureMs;
-			let best: { v: VisitState; priority: number } | null = null;
-			const observable: { v: VisitState; priority: number }[] = [];
-			for (const v of grid.visitsAt[j]) {
+			const here = grid.visitsAt[j];
+			let best: VisitState | null = null;
+			let bestPriority = -1;
+			let count = 0;
+			for (const v of here) {
 				if (v.assigned || !epochReady(v, s)) continue;
-				const priority = v.target.probability * (covered[v.targetIndex] ? repeatPriority : 1);
-				const entry = { v, priority };
-				observable.push(entry);
-				if (!best || priority > best.priority) best = entry;
+				count++;
+				const priority = priorityOf(v);
+				if (!best || priority > bestPriority) {
+					best = v;
+					bestPriority = priority;
+				}
 			}
 			if (!best) continue;
 			let chosen = best;
 			let lastChance = false;
-			if (urgency === 'last-chance' && observable.length > 1 && grid.observableNext(best.v, j)) {
-				let rescue: typeof best | null = null;
-				for (const entry of observable) {
-					if (entry === best || entry.priority < lastChanceRatio * best.priority) continue;
-					if (rescue && entry.priority <= rescue.priority) continue;
-					if (!grid.observableNext(entry.v, j)) rescue = entry;
+			if (urgency === 'last-chance' && count > 1 && grid.observableNext(best, j)) {
+				let rescue: VisitState | null = null;
+				let rescuePriority = -1;
+				for (const v of here) {
+					if (v === best || v.assigned || !epochReady(v, s)) continue;
+					const priority = priorityOf(v);
+					if (priority < lastChanceRatio * bestPriority) continue;
+					if (rescue && priority <= rescuePriority) continue;
+					if (!grid.observableNext(v, j)) {
+						rescue = v;
+						rescuePriority = priority;
+					}
 				}
 				if (rescue) {
 					chosen = rescue;
 					lastChance = true;
 				}
 			}
-			const v = chosen.v;
+			const v = chosen;
 			const samples = observe(ts, v, s, e);
 			if (!samples) throw new Error(`internal: ${v.target.id} not observable in its slot`);
 			const newProbability = covered[v.targetIndex] ? 0 : v.target.probability;
@@ -557,13 +570,18 @@ export function planNetwork(input: PlanInput): NetworkPlan {
 		// Solar elongation first: a target near the Sun is up only in daylight, and saying so is
 		// more useful than "never above the horizon in the dark".
 		let maxElongation = -Infinity;
-		let sunAlwaysClose = true;
-		for (const ts of eligible) {
+		let sunAlwaysClose = !observableInGrid[v.index];
+		// (The largest elongation is only reported when the Sun is always too close.)
+		elongation: for (const ts of eligible) {
+			if (!sunAlwaysClose) break;
 			for (let ms = startMs; ms <= endMs; ms += stepMs) {
 				const i = at(ts, ms);
 				const el = sunElongationDeg(u, i);
 				maxElongation = Math.max(maxElongation, el);
-				if (el >= ts.limits.minSunSeparationDeg) sunAlwaysClose = false;
+				if (el >= ts.limits.minSunSeparationDeg) {
+					sunAlwaysClose = false;
+					break elongation;
+				}
 			}
 		}
 		if (sunAlwaysClose) {
@@ -573,13 +591,17 @@ export function planNetwork(input: PlanInput): NetworkPlan {
 				detail: `solar elongation at most ${maxElongation.toFixed(1)}°, inside the ${limit}° Sun-avoidance limit: up only near the Sun`
 			};
 		}
-		let stage: Stage = Stage.Daylight;
+		// Observable in a slot of the grid: the time went elsewhere. Otherwise the furthest stage
+		// reached on the stepS grid (the highest altitude is only reported below Stage.AboveAltitude).
+		let stage: Stage = observableInGrid[v.index] ? Stage.Observable : Stage.Daylight;
 		let highestDarkDeg = -Infinity;
-		for (const ts of eligible) {
+		stages: for (const ts of eligible) {
+			if (stage === Stage.Observable) break;
 			for (let ms = startMs; ms <= endMs; ms += stepMs) {
 				const sample = sampleAt(u, at(ts, ms), ts.limits);
 				if (sample.stage >= Stage.Dark) highestDarkDeg = Math.max(highestDarkDeg, sample.altitudeDeg);
 				if (sample.stage > stage) stage = sample.stage;
+				if (stage === Stage.Observable) break stages;
 			}
 		}
 		const where = eligible.map((ts) => ts.telescope.name).join(', ');
@@ -650,6 +672,23 @@ export function planNetwork(input: PlanInput): NetworkPlan {
 
 type Context = ReturnType<typeof prepare>;
 
+const RAD = Math.PI / 180;
+
+/** Geometric altitude at which the airmass (Kasten & Young, on the refracted altitude) reaches `maxAirmass`; −90 when it never does above the horizon. */
+function airmassAltitudeDeg(maxAirmass: number): number {
+	const x = (h: number) => airmassKastenYoung1989(h + standardRefractionDeg(h)) ?? Infinity;
+	if (x(-1) <= maxAirmass) return -90;
+	if (x(90) > maxAirmass) return 90;
+	let lo = -1;
+	let hi = 90;
+	while (hi - lo > 1e-9) {
+		const m = (lo + hi) / 2;
+		if (x(m) > maxAirmass) lo = m;
+		else hi = m;
+	}
+	return hi;
+}
+
 /**
  * One telescope's slot grid and what is observable in each slot. The grid is where the greedy
  * list scheduler puts exposures when it never waits less than a slot: in each dark interval the
@@ -664,6 +703,8 @@ interface VisibilityGrid {
 	observable(v: VisitState, slot: number): boolean;
 	/** Observable in the slot right after `slot` (false when the next slot is in a later dark interval). */
 	observableNext(v: VisitState, slot: number): boolean;
+	/** Per visit index, the slots where it is observable (undefined: none). */
+	slotsOf: (number[] | undefined)[];
 }
 
 function slotStarts(ctx: Context, ts: TelescopeState): { starts: number[]; adjacent: boolean[] } {
@@ -692,17 +733,62 @@ function visibilityGrid(ctx: Context, ts: TelescopeState): VisibilityGrid {
 	const n = starts.length;
 	const ok = new Uint8Array(ctx.visits.length * n);
 	const visitsAt: VisitState[][] = starts.map(() => []);
+	// Most (visit, slot) pairs are decided from three dot products per instant: the target's
+	// unaberrated direction against the zenith, the Sun and the Moon. Annual aberration moves a
+	// direction by under 1e-4 rad, so each cosine is within 1e-4 of the one sampleAt uses;
+	// only pairs within SLACK of a limit go through the full test (observe), so the answer is
+	// the same as testing every pair with observe.
+	const SLACK = 3e-4;
+	const L = ts.limits;
+	const sinAlt = Math.sin(Math.max(L.minAltitudeDeg, airmassAltitudeDeg(L.maxAirmass)) * RAD);
+	const sunCos = Math.cos(L.minSunSeparationDeg * RAD);
+	const moonCos = Math.cos(L.minMoonSeparationDeg * RAD);
+	// Per slot and instant (start, middle, end): zenith, Sun and Moon unit vectors.
+	const vec = new Float64Array(27 * n);
+	const dark = new Uint8Array(n);
+	const slotsOf: (number[] | undefined)[] = [];
+	starts.forEach((s, j) => {
+		dark[j] = 1;
+		[s, (s + (s + ts.exposureMs)) / 2, s + ts.exposureMs].forEach((ms, m) => {
+			const i = ctx.at(ts, ms);
+			if (i.sunAltitudeDeg > L.sunAltitudeLimitDeg) dark[j] = 0;
+			const o = 27 * j + 9 * m;
+			vec.set(i.zenith, o);
+			const sn = Math.hypot(...i.sunGeo);
+			const mn = Math.hypot(...i.moonTopo);
+			for (let c = 0; c < 3; c++) {
+				vec[o + 3 + c] = i.sunGeo[c] / sn;
+				vec[o + 6 + c] = i.moonTopo[c] / mn;
+			}
+		});
+	});
 	for (const v of ts.candidates) {
 		const base = v.index * n;
+		const [ux, uy, uz] = ctx.unitVectors[v.targetIndex];
 		for (let j = 0; j < n; j++) {
-			if (ctx.observe(ts, v, starts[j], starts[j] + ts.exposureMs)) {
+			if (!dark[j]) continue;
+			let sure = true;
+			let no = false;
+			for (let o = 27 * j, m = 0; m < 3; m++, o += 9) {
+				const alt = ux * vec[o] + uy * vec[o + 1] + uz * vec[o + 2];
+				const sun = ux * vec[o + 3] + uy * vec[o + 4] + uz * vec[o + 5];
+				const moon = ux * vec[o + 6] + uy * vec[o + 7] + uz * vec[o + 8];
+				if (alt < sinAlt - SLACK || sun > sunCos + SLACK || moon > moonCos + SLACK) {
+					no = true;
+					break;
+				}
+				if (alt < sinAlt + SLACK || sun > sunCos - SLACK || moon > moonCos - SLACK) sure = false;
+			}
+			if (no) continue;
+			if (sure || ctx.observe(ts, v, starts[j], starts[j] + ts.exposureMs)) {
 				ok[base + j] = 1;
 				visitsAt[j].push(v);
+				(slotsOf[v.index] ??= []).push(j);
 			}
 		}
 	}
 	const observable = (v: VisitState, j: number) => j >= 0 && j < n && ok[v.index * n + j] === 1;
-	return { starts, visitsAt, observable, observableNext: (v, j) => adjacent[j] === true && observable(v, j + 1) };
+	return { starts, visitsAt, slotsOf, observable, observableNext: (v, j) => adjacent[j] === true && observable(v, j + 1) };
 }
 
 /** Per target, its visits that wait for no other (no epoch, or its lowest epoch). */
@@ -726,20 +812,43 @@ function coverageOptimum(ctx: Context, grids: VisibilityGrid[]): { weight: numbe
 	}
 	const covering = coveringVisits(ctx);
 	const weights = new Float64Array(covering.length);
+	const startOf = new Float64Array(slotCount);
+	grids.forEach((g, k) => startOf.set(g.starts, offsets[k]));
 	const edges = covering.map((list, t) => {
-		const options: { g: number; v: number; at: number; k: number }[] = [];
+		// The visit's slot lists are each in time order: merge them, earliest first (then the
+		// lower telescope index, whose offsets are lower).
+		const lists: { slots: number[]; offset: number; visit: number }[] = [];
+		let total = 0;
 		for (const v of list ?? []) {
 			weights[t] = v.target.probability;
 			for (const ts of ctx.telescopes) {
-				if (v.filterFor[ts.index] === null) continue;
-				const grid = grids[ts.index];
-				for (let j = 0; j < grid.starts.length; j++) {
-					if (grid.observable(v, j)) options.push({ g: offsets[ts.index] + j, v: v.index, at: grid.starts[j], k: ts.index });
-				}
+				const slots = grids[ts.index].slotsOf[v.index];
+				if (!slots) continue;
+				lists.push({ slots, offset: offsets[ts.index], visit: v.index });
+				total += slots.length;
 			}
 		}
-		options.sort((a, b) => a.at - b.at || a.k - b.k);
-		return { slots: Int32Array.from(options, (o) => o.g), visits: Int32Array.from(options, (o) => o.v) };
+		const slots = new Int32Array(total);
+		const visitOf = new Int32Array(total);
+		const head = new Int32Array(lists.length);
+		for (let i = 0; i < total; i++) {
+			let pick = -1;
+			let pickAt = Infinity;
+			let pickSlot = 0;
+			for (let l = 0; l < lists.length; l++) {
+				if (head[l] >= lists[l].slots.length) continue;
+				const g = lists[l].offset + lists[l].slots[head[l]];
+				if (startOf[g] < pickAt || (startOf[g] === pickAt && g < pickSlot)) {
+					pick = l;
+					pickAt = startOf[g];
+					pickSlot = g;
+				}
+			}
+			slots[i] = pickSlot;
+			visitOf[i] = lists[pick].visit;
+			head[pick]++;
+		}
+		return { slots, visits: visitOf };
 	});
 	const m = maxWeightCover({ slotCount, weights, edges });
 	return { weight: m.weight, slotVisit: m.visit, offsets };
