@@ -5,7 +5,8 @@
  * Pure: plain data in, plain data out; no clock, no I/O. Recompute it whenever the sky map,
  * the ranked targets or the live claims change — it is deterministic for the same input.
  *
- * Algorithm (a greedy list scheduler, see docs/plan.md):
+ * Algorithm (a greedy list scheduler, then, with `improve` (default), the best covered probability
+ * on the slot grid; see docs/plan.md):
  *  1. Every target expands to visits (one per requested filter/epoch; one visit by default).
  *     A visit is done at most once by the whole network.
  *  2. Each telescope has a free time, initially `start`. Repeatedly the telescope that is free
@@ -19,6 +20,11 @@
  *     observable in the next slot (swapping the two then only delays the winner by one slot).
  *  3. When nothing is observable the telescope waits one `stepS`; outside darkness it jumps to
  *     the next darkness (found on the `stepS` grid and refined by bisection to 1 s).
+ *  4. With `improve`: steps 2-3 run on each telescope's slot grid (a wait is one slot), then the
+ *     largest covered probability on the grids is computed exactly (a vertex-weighted bipartite
+ *     matching, plan-matching.ts); if it beats the greedy plan, its plan is used, with the free
+ *     slots filled by the remaining visits. plan-milp.ts writes the same problem as a
+ *     mixed-integer program for an outside solver to check.
  * Sampling three instants per exposure is exact for altitude and the Sun's altitude away from
  * culminations (both are monotonic between culminations), and near enough elsewhere for
  * exposures of minutes.
