@@ -12,7 +12,7 @@
  */
 import loadHighs from 'highs';
 import { planNetwork, slotProblem } from '../../src/lib/targeting/plan.ts';
-import { buildMilp, objectiveOf, placementsOfPlan, readSolution } from '../../src/lib/targeting/plan-milp.ts';
+import { buildBlockRelaxation, buildMilp, objectiveOf, placementsOfPlan, readSolution } from '../../src/lib/targeting/plan-milp.ts';
 import type { NetworkPlan, PlanInput } from '../../src/lib/targeting/plan-types.ts';
 import { LARGE, planInstance, SMALL } from './plan-instances.ts';
 import { median, type BenchResult } from './run.ts';
@@ -39,7 +39,7 @@ function solve(highs: Highs, lp: string, relax: boolean): { status: string; obje
 export async function run(): Promise<BenchResult[]> {
 	const highs = await loadHighs();
 	const results: BenchResult[] = [];
-	const lines: string[] = [];
+	const log = (line: string) => process.stderr.write(line + '\n');
 	for (const spec of SMALL) {
 		const input: PlanInput = planInstance(spec);
 		const previous = timed(() => planNetwork({ ...input, improve: false }));
@@ -54,7 +54,7 @@ export async function run(): Promise<BenchResult[]> {
 		if (Math.abs(optimum - exact.objective) > 1e-9) throw new Error(`${spec.label}: HiGHS objective ${exact.objective} ≠ placements ${optimum}`);
 		const ratio = improved.plan.coveredProbability / optimum;
 		const ratioPrevious = previous.plan.coveredProbability / optimum;
-		lines.push(
+		log(
 			`${spec.label.padEnd(30)} optimum ${optimum.toFixed(6)}  LP ${lp.objective.toFixed(6)}  planner ${ratio.toFixed(4)}  previous greedy ${ratioPrevious.toFixed(4)}  ` +
 				`(${milp.variables} variables, ${milp.constraints} rows; MILP ${exact.ms.toFixed(0)} ms, LP ${lp.ms.toFixed(0)} ms)`
 		);
@@ -80,25 +80,29 @@ export async function run(): Promise<BenchResult[]> {
 	}
 	const improved = improvedRuns[0].plan;
 	const previous = previousRuns[0].plan;
+	const fmt = (runs: ReturnType<typeof timed>[], key: 'wallMs' | 'cpuMs') => runs.map((r) => r[key].toFixed(0)).join('/');
+	log(
+		`${LARGE.label.padEnd(30)} planner wall ${fmt(improvedRuns, 'wallMs')} ms, CPU ${fmt(improvedRuns, 'cpuMs')} ms; previous greedy wall ${fmt(previousRuns, 'wallMs')} ms, CPU ${fmt(previousRuns, 'cpuMs')} ms`
+	);
 	const problem = slotProblem(input);
-	const relaxed = buildMilp(problem, { relax: true });
-	const lp = solve(highs, relaxed.lp, true);
 	const planned = objectiveOf(problem, placementsOfPlan(problem, improved));
 	if (Math.abs(planned - improved.coveredProbability) > 1e-12) throw new Error(`large: objective ${planned} ≠ covered ${improved.coveredProbability}`);
-	const fmt = (runs: ReturnType<typeof timed>[], key: 'wallMs' | 'cpuMs') => runs.map((r) => r[key].toFixed(0)).join('/');
-	lines.push(
-		`${LARGE.label.padEnd(30)} LP bound ${lp.objective.toFixed(6)}  planner ${(improved.coveredProbability / lp.objective).toFixed(4)}  previous greedy ${(previous.coveredProbability / lp.objective).toFixed(4)}  ` +
-			`(${relaxed.variables} variables, ${relaxed.constraints} rows; LP ${(lp.ms / 1000).toFixed(1)} s)`,
-		`${LARGE.label.padEnd(30)} planner wall ${fmt(improvedRuns, 'wallMs')} ms, CPU ${fmt(improvedRuns, 'cpuMs')} ms; previous greedy wall ${fmt(previousRuns, 'wallMs')} ms, CPU ${fmt(previousRuns, 'cpuMs')} ms`
+	// The full LP relaxation (~460k columns) does not finish within 15 min here; the relaxation with
+	// slots grouped in blocks of BLOCK (plan-milp.ts buildBlockRelaxation) is a looser upper bound.
+	const BLOCK = 4;
+	const relaxed = buildBlockRelaxation(problem, BLOCK);
+	const lp = solve(highs, relaxed.lp, true);
+	log(
+		`${LARGE.label.padEnd(30)} LP bound (blocks of ${BLOCK} slots) ${lp.objective.toFixed(6)}  planner ${(improved.coveredProbability / lp.objective).toFixed(4)}  previous greedy ${(previous.coveredProbability / lp.objective).toFixed(4)}  ` +
+			`(${relaxed.variables} variables, ${relaxed.constraints} rows; LP ${(lp.ms / 1000).toFixed(1)} s)`
 	);
 	results.push({
 		suite: 'plan optimum',
-		name: `${LARGE.label}: planner / LP bound = ${(improved.coveredProbability / lp.objective).toFixed(4)}`,
+		name: `${LARGE.label}: planner / block-LP bound = ${(improved.coveredProbability / lp.objective).toFixed(4)}`,
 		strainlineMs: median(improvedRuns.map((r) => r.wallMs)),
 		referenceMs: median(previousRuns.map((r) => r.wallMs)),
 		reference: `previous greedy (${(previous.coveredProbability / lp.objective).toFixed(4)} of the bound)`,
 		note: `median CPU ${median(improvedRuns.map((r) => r.cpuMs)).toFixed(0)} ms vs ${median(previousRuns.map((r) => r.cpuMs)).toFixed(0)} ms`
 	});
-	console.log(lines.join('\n') + '\n');
 	return results;
 }

@@ -2,7 +2,7 @@ import loadHighs from 'highs';
 import { beforeAll, describe, expect, it } from 'vitest';
 import { planInstance, SMALL } from '../../../tests/bench/plan-instances.ts';
 import { maxWeightCover } from './plan-matching.ts';
-import { buildMilp, objectiveOf, placementsOfPlan, readSolution, type Placement } from './plan-milp.ts';
+import { buildBlockRelaxation, buildMilp, objectiveOf, placementsOfPlan, readSolution, type Placement } from './plan-milp.ts';
 import { planNetwork, slotProblem, type SlotProblem } from './plan.ts';
 
 let highs: Awaited<ReturnType<typeof loadHighs>>;
@@ -100,7 +100,7 @@ describe('plan-milp: the program against enumeration', () => {
 		expect(() => objectiveOf(tiny, [{ visit: 3, telescope: 0, slot: 0 }])).toThrow(/not allowed or not observable/);
 	});
 
-	it('random tiny instances: MILP optimum = brute force = the planner\'s matching ≤ LP bound', () => {
+	it('random tiny instances: MILP optimum = brute force = the planner\'s matching ≤ LP bound, block-LP bound', () => {
 		expect.hasAssertions();
 		let seed = 7;
 		const rnd = () => ((seed = (seed * 1103515245 + 12345) % 2147483648) / 2147483648);
@@ -122,6 +122,10 @@ describe('plan-milp: the program against enumeration', () => {
 			const brute = bruteForce(problem);
 			expect(solve(problem).value).toBeCloseTo(brute, 9);
 			expect(solve(problem, true).value).toBeGreaterThanOrEqual(brute - 1e-9);
+			// The block relaxation (slots in pairs) bounds it from above too.
+			const blocks = highs.solve(buildBlockRelaxation(problem, 2).lp, { output_flag: false });
+			expect(blocks.Status).toBe('Optimal');
+			expect(blocks.ObjectiveValue).toBeGreaterThanOrEqual(brute - 1e-9);
 			const m = maxWeightCover({
 				slotCount: 5,
 				weights: problem.targets.map((t) => t.probability),

@@ -102,6 +102,66 @@ export function buildMilp(problem: SlotProblem, options: { relax?: boolean } = {
 	return { lp, names, variables: xs.length + zs.length, constraints: rows.length };
 }
 
+/**
+ * A smaller relaxation for large instances: each telescope's slots are grouped into blocks of
+ * `blockSlots` consecutive slots; y[v,k,b] ∈ [0,1] is visit v in block b of telescope k, allowed
+ * when v is observable in some slot of the block; a block holds as many exposures as it has slots.
+ * Epoch rows are left out. Every plan on the slot grid is a solution of it (put each exposure in
+ * its slot's block), so its LP optimum bounds the program's optimum from above.
+ */
+export function buildBlockRelaxation(problem: SlotProblem, blockSlots: number): Milp {
+	const rows: string[] = [];
+	const objective: string[] = [];
+	const zs: string[] = [];
+	const ys = new Set<string>();
+	const perBlock = new Map<string, Set<string>>();
+	const perVisit: string[][] = problem.visits.map(() => []);
+	problem.visits.forEach((v, vi) => {
+		const seen = new Set<string>();
+		for (const o of v.options) {
+			const b = Math.floor(o.slot / blockSlots);
+			const name = `y${vi}_${o.telescope}_${b}`;
+			if (seen.has(name)) continue;
+			seen.add(name);
+			ys.add(name);
+			perVisit[vi].push(name);
+			const key = `${o.telescope}_${b}`;
+			const set = perBlock.get(key) ?? new Set<string>();
+			set.add(name);
+			perBlock.set(key, set);
+		}
+	});
+	const byTarget = new Map<number, number[]>();
+	problem.visits.forEach((v, vi) => byTarget.set(v.targetIndex, [...(byTarget.get(v.targetIndex) ?? []), vi]));
+	problem.targets.forEach((t, ti) => {
+		const list = (byTarget.get(ti) ?? []).flatMap((vi) => perVisit[vi]);
+		if (!(t.probability > 0) || list.length === 0) return;
+		objective.push(`${objective.length ? '+ ' : ''}${t.probability} ${zName(ti)}`);
+		zs.push(zName(ti));
+		rows.push(` c${ti}: ${terms([zName(ti), ...list.map((y) => `- ${y}`)])} <= 0`);
+	});
+	perVisit.forEach((list, vi) => {
+		if (list.length > 1) rows.push(` v${vi}: ${terms(list.map((y, i) => (i ? `+ ${y}` : y)))} <= 1`);
+	});
+	for (const [key, set] of perBlock) {
+		const [k, b] = key.split('_').map(Number);
+		const capacity = Math.min(blockSlots, problem.telescopes[k].starts.length - b * blockSlots);
+		if (set.size > capacity) rows.push(` s${key}: ${terms([...set].map((y, i) => (i ? `+ ${y}` : y)))} <= ${capacity}`);
+	}
+	const lp = [
+		'Maximize',
+		` obj: ${objective.length ? terms(objective) : '0 dummy'}`,
+		'Subject To',
+		...(rows.length ? rows : [' none: dummy <= 0']),
+		'Bounds',
+		...zs.map((z) => ` 0 <= ${z} <= 1`),
+		...[...ys].map((y) => ` 0 <= ${y} <= 1`),
+		'End',
+		''
+	].join('\n');
+	return { lp, names: [], variables: ys.size + zs.length, constraints: rows.length };
+}
+
 export interface Placement {
 	visit: number;
 	telescope: number;
