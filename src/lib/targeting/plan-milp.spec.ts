@@ -43,7 +43,7 @@ function bruteForce(problem: SlotProblem): number {
 
 // A tiny instance checkable by hand: two telescopes, slots 10 min apart (5-min exposures), gap 10 min.
 // a (0.5) fits only A0; b (0.4) A0 or B0; c (0.3) B0 or B1; d (0.2) only B1; e (0.1) epochs 0 and 1.
-// Best: a→A0, b→B0, c→B1 = 1.2 (d and e lose); e's epoch 1 needs epoch 0 ≥ 10 min earlier.
+// Best: a→A0, b→B0, c→B1, e (epoch 0)→A1 = 1.3 (d loses B1 to c); e's epoch 1 needs epoch 0 ≥ 10 min earlier.
 const MIN = 60_000;
 const tiny: SlotProblem = {
 	startMs: 0,
