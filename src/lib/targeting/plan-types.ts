@@ -76,6 +76,12 @@ export interface PlanInput {
 	repeatPriority?: number;
 	/** Minimum time from the end of one epoch of a target to the start of the next, s (default 3600). */
 	minEpochGapS?: number;
+	/**
+	 * Search for the plan of largest covered probability on the slot grid after the greedy pass
+	 * (docs/plan.md, "Improvement"). Default true, except with urgency 'none' (pure
+	 * highest-probability-first, kept as it was).
+	 */
+	improve?: boolean;
 }
 
 export interface PlanAssignment {
