@@ -79,10 +79,11 @@ export function listStreams(): StreamSummary[] {
 
 /** Store a stream's vocabulary (replacing the one it had). */
 export function saveVocabulary(stream: string, vocabulary: NoticeVocabulary, userId: string | null, now = new Date()): void {
-	const id = streamIdSchema.parse(stream);
+	const id = streamIdSchema.safeParse(stream);
+	if (!id.success) throw new InputError(id.error.issues[0].message, 'stream');
 	const checked = vocabularySchema.parse(vocabulary);
 	db.insert(table.noticeStream)
-		.values({ stream: id, vocabulary: checked, updatedBy: userId, updatedAt: now })
+		.values({ stream: id.data, vocabulary: checked, updatedBy: userId, updatedAt: now })
 		.onConflictDoUpdate({ target: table.noticeStream.stream, set: { vocabulary: checked, updatedBy: userId, updatedAt: now } })
 		.run();
 }
