@@ -14,6 +14,9 @@ mkdirSync(SCREENS, { recursive: true });
 const RUN = String(Date.now()).slice(-6);
 const SOURCE_ID = `SX3006${RUN}`;
 const TEST_ID = `SXT3006${RUN}`;
+const UTILITY_ID = `SXU3006${RUN}`;
+const OTHER_ID = `SX3007${RUN}`;
+const RENAMED_ID = `A${RUN}99`;
 const STREAM = `ivo://strainline.example/alt-pipeline-${RUN}`;
 const std = (name: string) => readFileSync(`tests/fixtures/notices/standard/${name}`, 'utf8');
 const ours = (xml: string) => xml.replaceAll('SX30050101', SOURCE_ID).replace('#withdrawal-0042', `#withdrawal-${RUN}`);
@@ -28,7 +31,7 @@ test.afterAll(() => {
 	const sqlite = new Database(process.env.DATABASE_URL ?? 'tests/e2e/.artifacts/e2e.sqlite');
 	sqlite.pragma('busy_timeout = 5000');
 	sqlite.pragma('foreign_keys = ON');
-	sqlite.prepare('DELETE FROM gw_event WHERE source_event_id IN (?, ?)').run(SOURCE_ID, TEST_ID);
+	sqlite.prepare('DELETE FROM gw_event WHERE source_event_id IN (?, ?, ?, ?, ?)').run(SOURCE_ID, TEST_ID, UTILITY_ID, OTHER_ID, RENAMED_ID);
 	sqlite.prepare('DELETE FROM notice_stream WHERE stream = ?').run(STREAM);
 	// The retraction sent before its parents waits for packets that never come: take it out of the inbox.
 	sqlite.prepare('DELETE FROM notice_inbox WHERE ivorn = ?').run(`ivo://strainline.example/fake-broker#withdrawal-early-${RUN}`);
@@ -68,6 +71,21 @@ test('a retraction with an empty What, uploaded after its parent, retracts the e
 	await coordinator.goto(`/events/${((await testRole.json()) as { eventId: string }).eventId}`);
 	await expect(coordinator.getByTestId('role-badge').first()).toHaveAttribute('data-role', 'test');
 	await coordinator.screenshot({ path: `${SCREENS}/notice-test-role-1280.png`, fullPage: false });
+
+	// The other envelopes through the API: a utility notice, a default namespace, then CDATA and whitespace (its update).
+	const utility = await post(std('utility-role.xml').replaceAll('SXU30050404', UTILITY_ID));
+	expect(utility.status()).toBe(201);
+	expect((await post(std('default-namespace.xml').replaceAll('SX30050202', OTHER_ID))).status()).toBe(201);
+	const cdata = await post(std('cdata-whitespace.xml').replaceAll('SX30050202', OTHER_ID));
+	expect(await cdata.json()).toMatchObject({ eventId: OTHER_ID.toLowerCase(), outcome: 'notice-added' });
+
+	const phone = await signedIn(browser, 'coordinator', 390);
+	await phone.goto(`/events/${((await utility.json()) as { eventId: string }).eventId}`);
+	await expect(phone.getByTestId('role-badge').first()).toHaveAttribute('data-role', 'utility');
+	await phone.screenshot({ path: `${SCREENS}/notice-utility-role-390.png`, fullPage: false });
+	await phone.goto('/');
+	await expect(phone.locator('[data-hydrated="yes"]')).toBeVisible();
+	await phone.screenshot({ path: `${SCREENS}/board-roles-390.png`, fullPage: true });
 });
 
 test("a coordinator edits a stream's vocabulary; the preview reads a renamed-Param notice without storing it", async ({ browser }) => {
@@ -124,6 +142,10 @@ test("a coordinator edits a stream's vocabulary; the preview reads a renamed-Par
 	await expect(coordinator.getByTestId('vocabulary-saved')).toBeVisible();
 	await expect(coordinator.getByTestId('stream-state')).toContainText('has its own vocabulary');
 	await expect(coordinator.getByLabel('Event id', { exact: true })).toHaveValue('Candidate_Label');
+	// The API now reads this stream's notices with its vocabulary.
+	const posted = await coordinator.request.post('/api/v1/notices', { data: renamed.replaceAll('A30050505', RENAMED_ID), headers: { 'content-type': 'application/xml' } });
+	expect(posted.status()).toBe(201);
+	expect(await posted.json()).toMatchObject({ eventId: RENAMED_ID.toLowerCase(), outcome: 'event-created' });
 
 	const phone = await signedIn(browser, 'coordinator', 390);
 	await phone.goto(`/inbox/streams?stream=${encodeURIComponent(STREAM)}`);
