@@ -2,7 +2,7 @@
  * The shapes the board and the event page receive from the server (plain, serialisable values;
  * times as ISO-8601 strings). Shared by `$lib/server/board` and the components.
  */
-export type NoticeKind = 'preliminary' | 'initial' | 'update' | 'retraction';
+export type NoticeKind = 'preliminary' | 'initial' | 'update' | 'retraction' | 'followup';
 export type NoticeRole = 'observation' | 'test' | 'utility';
 export type EventState = 'active' | 'retracted' | 'closed';
 

@@ -14,7 +14,8 @@ export const KIND_LABELS: Record<string, string> = {
 	preliminary: 'Preliminary',
 	initial: 'Initial',
 	update: 'Update',
-	retraction: 'Retraction'
+	retraction: 'Retraction',
+	followup: 'Follow-up'
 };
 
 /**

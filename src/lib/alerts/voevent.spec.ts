@@ -3,7 +3,14 @@ import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
 import {
 	decodeXmlEntities,
+	DEFAULT_VOCABULARY,
 	farHzToPerYear,
+	localPartOf,
+	NoticeWaitError,
+	readVoevent,
+	streamOf,
+	vocabularySchema,
+	type NoticeVocabulary,
 	farPerYearToHz,
 	NoticeParseError,
 	noticeSchema,
@@ -16,10 +23,10 @@ import {
 const dir = fileURLToPath(new URL('../../../tests/fixtures/notices/', import.meta.url));
 const fixture = (name: string) => readFileSync(dir + name, 'utf8');
 
-function expectRefused(xml: string | Uint8Array, pattern: RegExp, opts?: { maxBytes?: number }) {
+function expectRefused(xml: string | Uint8Array, pattern: RegExp, opts?: { maxBytes?: number }, vocabulary?: NoticeVocabulary) {
 	let error: unknown;
 	try {
-		parseVoevent(xml, opts);
+		parseVoevent(xml, { ...opts, vocabulary });
 	} catch (e) {
 		error = e;
 	}
@@ -216,5 +223,153 @@ describe('helpers', () => {
 			'ivo://strainline.example/fake-broker#SX30041600-1-preliminary'
 		);
 		expect(sniffIvorn('<Transport role="ack"/>')).toBeNull();
+	});
+});
+
+// Standard semantics: IVOA VOEvent 2.0 (Recommendation, 2011) §2.2 (stream = IVORN before "#"),
+// §3.1.2 (role), §3.7 / §3.7.1 (Citations, cite values). Fixtures in tests/fixtures/notices/standard/.
+describe('readVoevent: VOEvent semantics and stream vocabularies', () => {
+	const std = (name: string) => fixture('standard/' + name);
+	const renamedVocabulary = vocabularySchema.parse(JSON.parse(std('renamed-params.vocabulary.json')));
+
+	it('reads a namespaced and a default-namespace envelope alike', () => {
+		const a = readVoevent(std('namespaced.xml'));
+		expect(a).toMatchObject({ stream: 'ivo://strainline.example/fake-broker', eventIdFrom: 'param' });
+		expect(a.notice).toMatchObject({ kind: 'preliminary', sourceEventId: 'SX30050101', far: 2.2e-10, citations: [] });
+		const b = parseVoevent(std('default-namespace.xml'));
+		expect(b).toMatchObject({ kind: 'initial', sourceEventId: 'SX30050202', eventTime: '2030-05-02T20:58:30.000Z' });
+		// 0.05 per Julian year (31 557 600 s).
+		expect(b.far).toBeCloseTo(0.05 / 31557600, 20);
+	});
+
+	it('tolerates CDATA and whitespace around names, values, units, times and cited IVORNs', () => {
+		const n = parseVoevent(std('cdata-whitespace.xml'));
+		expect(n).toMatchObject({
+			sourceEventId: 'SX30050202',
+			kind: 'update',
+			far: 3e-12,
+			authoredAt: '2030-05-02T21:30:00.000Z',
+			eventTime: '2030-05-02T20:58:30.000Z',
+			skymapUrl: 'http://127.0.0.1:8098/skymaps/SX30050202-2.multiorder.fits.gz?a=1&b=2',
+			classification: { BNS: 0.8, NSBH: 0.15, BBH: 0, Terrestrial: 0.05 },
+			citations: [{ ivorn: 'ivo://strainline.example/fake-broker#SX30050202-1-initial', cite: 'supersedes' }]
+		});
+	});
+
+	it('takes the kind from the citations when no Param states it (§3.7): none → new, supersedes → update, followup, retraction', () => {
+		expect(parseVoevent(std('supersedes-only.xml')).kind).toBe('update');
+		const cites = (cite: string) => std('supersedes-only.xml').replace('cite="supersedes"', `cite="${cite}"`);
+		expect(parseVoevent(cites('followup')).kind).toBe('followup');
+		expect(parseVoevent(cites('retraction')).kind).toBe('retraction');
+		const uncited = std('supersedes-only.xml').replace(/<Citations>[\s\S]*<\/Citations>/, '');
+		expect(parseVoevent(uncited).kind).toBe('preliminary');
+		// A stated kind wins over the citation.
+		const stated = std('supersedes-only.xml').replace('<Param name="FalseAlarmRate"', '<Param name="NoticeKind" value="initial"/><Param name="FalseAlarmRate"');
+		expect(parseVoevent(stated).kind).toBe('initial');
+	});
+
+	it('reads a follow-up that carries only part of the content, and a retraction citation outranks a supersedes one', () => {
+		const followup = std('supersedes-only.xml')
+			.replace('cite="supersedes"', 'cite="followup"')
+			.replace(/<Group type="Skymap">.*<\/Group>/, '')
+			.replace(/<Group type="Classification">[\s\S]*?<\/Group>/, '');
+		expect(parseVoevent(followup)).toMatchObject({ kind: 'followup', skymapUrl: null, classification: null, far: 1.5e-11 });
+		const both = std('supersedes-only.xml').replace('</Citations>', '<EventIVORN cite="retraction">ivo://strainline.example/fake-broker#x</EventIVORN></Citations>');
+		expect(parseVoevent(both).kind).toBe('retraction');
+	});
+
+	it('takes the event of a retraction with an empty What from the packets it cites', () => {
+		const events: Record<string, string> = {
+			'ivo://strainline.example/fake-broker#SX30050101-1-preliminary': 'SX30050101',
+			'ivo://strainline.example/fake-broker#SX30050101-2-revised': 'SX30050101'
+		};
+		const r = readVoevent(std('retraction-empty-what.xml'), { citedEvent: (ivorn) => events[ivorn] ?? null });
+		expect(r.eventIdFrom).toBe('citation');
+		expect(r.notice).toMatchObject({ kind: 'retraction', sourceEventId: 'SX30050101', reason: 'Withdrawn: a data-quality flag was raised after the fact.' });
+		expect(r.notice.citations.map((c) => c.cite)).toEqual(['retraction', 'retraction']);
+		// One cited packet known is enough.
+		const one = readVoevent(std('retraction-empty-what.xml'), { citedEvent: (ivorn) => (ivorn.endsWith('-2-revised') ? 'SX30050101' : null) });
+		expect(one.notice.sourceEventId).toBe('SX30050101');
+	});
+
+	it('waits, naming the cited packets, when none of them is known; refuses cited packets of two events', () => {
+		let error: unknown;
+		try {
+			parseVoevent(std('retraction-empty-what.xml'));
+		} catch (e) {
+			error = e;
+		}
+		expect(error).toBeInstanceOf(NoticeWaitError);
+		expect((error as NoticeWaitError).waitingFor).toEqual([
+			'ivo://strainline.example/fake-broker#SX30050101-1-preliminary',
+			'ivo://strainline.example/fake-broker#SX30050101-2-revised'
+		]);
+		expect((error as Error).message).toMatch(/^waiting for the cited notices ivo:\/\/.*-1-preliminary, ivo:\/\/.*-2-revised: the notice names its event only through them/);
+		expectRefused(std('retraction-empty-what.xml'), /waiting for the cited notices/);
+		let two: unknown;
+		try {
+			parseVoevent(std('retraction-empty-what.xml'), { citedEvent: (ivorn) => (ivorn.endsWith('-1-preliminary') ? 'SX1' : 'SX2') });
+		} catch (e) {
+			two = e;
+		}
+		expect(two).toBeInstanceOf(NoticeParseError);
+		expect(two).not.toBeInstanceOf(NoticeWaitError);
+		expect((two as Error).message).toMatch(/belong to different events .*→ SX1.*→ SX2/);
+	});
+
+	it("falls back to the stream's rule on the IVORN's local part: its own first, then the cited ones", () => {
+		const vocabulary = { ...DEFAULT_VOCABULARY, eventIdFromIvorn: '^(SX\\d{8})-' };
+		// Its own IVORN (#withdrawal-0042) does not match; the first cited one does.
+		const r = readVoevent(std('retraction-empty-what.xml'), { vocabulary });
+		expect(r).toMatchObject({ eventIdFrom: 'ivorn', notice: { sourceEventId: 'SX30050101' } });
+		const own = std('supersedes-only.xml').replace('<Param name="SourceEventId" value="SX30050101"/>', '');
+		expect(readVoevent(own, { vocabulary }).notice.sourceEventId).toBe('SX30050101');
+		// No Param, nothing cited, no rule: refused, naming what was looked for.
+		const bare = own.replace(/<Citations>[\s\S]*<\/Citations>/, '');
+		expectRefused(bare, /^missing required Param SourceEventId \/ EventId .* \(and the stream states no rule for the IVORN's local part\)$/);
+		expectRefused(bare, /finds no event id in the IVORN/, undefined, { ...DEFAULT_VOCABULARY, eventIdFromIvorn: '^(ZZ\\d+)' });
+	});
+
+	it('keeps test and utility roles; a missing role means observation (§3.1.2)', () => {
+		expect(parseVoevent(std('test-role.xml'))).toMatchObject({ role: 'test', sourceEventId: 'SXT30050303' });
+		expect(parseVoevent(std('utility-role.xml'))).toMatchObject({ role: 'utility', sourceEventId: 'SXU30050404' });
+		expect(parseVoevent(std('namespaced.xml').replace('role="observation"', '')).role).toBe('observation');
+	});
+
+	it("reads renamed Params with the stream's vocabulary, and refuses them with the default one", () => {
+		expectRefused(std('renamed-params.xml'), /missing required Param SourceEventId/);
+		const r = readVoevent(std('renamed-params.xml'), { vocabulary: renamedVocabulary });
+		expect(r.stream).toBe('ivo://strainline.example/alt-pipeline');
+		expect(r.notice).toMatchObject({
+			sourceEventId: 'A30050505',
+			kind: 'initial',
+			skymapUrl: 'http://127.0.0.1:8098/skymaps/A30050505-1.multiorder.fits.gz',
+			classification: { BNS: 0.6, NSBH: 0.3, BBH: 0.05, Terrestrial: 0.05 },
+			properties: { HasNS: 0.9, HasRemnant: 0.4, HasMassGap: 0.1 }
+		});
+		// The stream's FAR is per year when the Param states no unit: 0.5 / 31 557 600 s.
+		expect(r.notice.far).toBeCloseTo(0.5 / 31557600, 20);
+		// A stated unit still wins.
+		const hz = std('renamed-params.xml').replace('value="0.5"/>', 'value="0.5" unit="Hz"/>');
+		expect(parseVoevent(hz, { vocabulary: renamedVocabulary }).far).toBe(0.5);
+		// Without the id Param, the stream's rule finds it in the IVORN.
+		const noId = std('renamed-params.xml').replace('<Param name="Candidate_Label" value="A30050505"/>', '');
+		expect(readVoevent(noId, { vocabulary: renamedVocabulary })).toMatchObject({ eventIdFrom: 'ivorn', notice: { sourceEventId: 'A30050505' } });
+		// The renamed classification names are named in the reason when the group is missing.
+		const noClass = std('renamed-params.xml').replace(/<Group name="SourceOdds">[\s\S]*?<\/Group>/, '');
+		expectRefused(noClass, /initial notice lacks the Classification group \(pBNS, pNSBH, pBBH, pNoise\)/, undefined, renamedVocabulary);
+	});
+
+	it('checks a vocabulary: names, at least one per field, a rule with exactly one capture group', () => {
+		expect(vocabularySchema.safeParse(DEFAULT_VOCABULARY).success).toBe(true);
+		const bad = (change: Partial<NoticeVocabulary> | { names: Record<string, string[]> }) =>
+			vocabularySchema.safeParse({ ...DEFAULT_VOCABULARY, ...change }).error?.issues[0].message;
+		expect(bad({ eventIdFromIvorn: '^SX\\d+' })).toBe('The rule needs exactly one capture group ( … ); it has 0.');
+		expect(bad({ eventIdFromIvorn: '^(SX)(\\d+)' })).toBe('The rule needs exactly one capture group ( … ); it has 2.');
+		expect(bad({ eventIdFromIvorn: '^(SX' })).toMatch(/^This is not a regular expression/);
+		expect(bad({ names: { ...DEFAULT_VOCABULARY.names, far: [] } })).toBe('Give at least one name.');
+		expect(bad({ names: { ...DEFAULT_VOCABULARY.names, far: ['<Param>'] } })).toMatch(/letters, digits/);
+		expect(streamOf('ivo://a.example/b/c#d-1')).toBe('ivo://a.example/b/c');
+		expect(localPartOf('ivo://a.example/b/c#d-1')).toBe('d-1');
 	});
 });

@@ -18,7 +18,12 @@ export const DEFAULT_MAX_NOTICE_BYTES = 1024 * 1024;
 /** Seconds in a Julian year (IAU: 365.25 d × 86400 s), the year used for FAR conversions. */
 export const SECONDS_PER_JULIAN_YEAR = 365.25 * 86400;
 
-export const NOTICE_KINDS = ['preliminary', 'initial', 'update', 'retraction'] as const;
+/**
+ * `followup` is a notice that cites an earlier one with `cite="followup"` and states no kind of its
+ * own: a new, independent measurement about the same event (VOEvent 2.0 §3.7.1), kept beside the
+ * event's content rather than replacing it.
+ */
+export const NOTICE_KINDS = ['preliminary', 'initial', 'update', 'retraction', 'followup'] as const;
 export const NOTICE_ROLES = ['observation', 'test', 'utility'] as const;
 export const CITE_TYPES = ['followup', 'supersedes', 'retraction'] as const;
 
@@ -29,6 +34,20 @@ export type CiteType = (typeof CITE_TYPES)[number];
 /** One-line error raised for any notice we refuse. */
 export class NoticeParseError extends Error {
 	override name = 'NoticeParseError';
+}
+
+/**
+ * The notice names its event only through the packets it cites, and none of them is known (yet):
+ * it may be read once one of them has arrived. `waitingFor` lists the cited IVORNs.
+ */
+export class NoticeWaitError extends NoticeParseError {
+	override name = 'NoticeWaitError';
+	constructor(
+		message: string,
+		readonly waitingFor: string[]
+	) {
+		super(message);
+	}
 }
 
 /** Longest retraction reason kept (longer text is cut at a word and marked with an ellipsis). */
@@ -126,8 +145,105 @@ const KIND_ALIASES: Record<string, NoticeKind> = {
 	update: 'update',
 	retraction: 'retraction',
 	retracted: 'retraction',
-	retract: 'retraction'
+	retract: 'retraction',
+	followup: 'followup'
 };
+
+// ---------------------------------------------------------------------------------------------
+// A stream's vocabulary: which Params carry which field. Streams are told apart by the part of
+// the IVORN before "#" (VOEvent 2.0 §2.2: "the event identifier also expresses the stream
+// identifier"); each may name its Params its own way. The default is PARAM_NAMES above.
+
+/** The fields whose Param (or Group) names a stream may set. */
+export const VOCABULARY_FIELDS = [
+	'sourceEventId',
+	'kind',
+	'far',
+	'skymapUrl',
+	'classificationGroup',
+	'BNS',
+	'NSBH',
+	'BBH',
+	'Terrestrial',
+	'propertiesGroup',
+	'HasNS',
+	'HasRemnant',
+	'HasMassGap'
+] as const;
+export type VocabularyField = (typeof VOCABULARY_FIELDS)[number];
+
+/** The unit a stream's false-alarm rate is in when its Param carries no `unit` attribute. */
+export const FAR_DEFAULT_UNITS = ['Hz', 'per-year'] as const;
+export type FarDefaultUnit = (typeof FAR_DEFAULT_UNITS)[number];
+
+export interface NoticeVocabulary {
+	/** Accepted Param (or Group) names per field; the first is the one we write. */
+	names: Record<VocabularyField, string[]>;
+	/** Unit of the false-alarm rate when the Param states none (a stated `unit` still wins). */
+	farUnit: FarDefaultUnit;
+	/**
+	 * A regular expression with exactly one capture group, applied to the local part of an IVORN
+	 * (after "#"): the event id when no Param names it and no cited packet is known. Null: no rule.
+	 */
+	eventIdFromIvorn: string | null;
+}
+
+export const DEFAULT_VOCABULARY: NoticeVocabulary = Object.freeze({
+	names: Object.fromEntries(VOCABULARY_FIELDS.map((f) => [f, [...PARAM_NAMES[f]]])) as Record<VocabularyField, string[]>,
+	farUnit: 'Hz',
+	eventIdFromIvorn: null
+});
+
+/** Longest event-id rule accepted (the rule runs on IVORNs of at most 512 characters). */
+export const MAX_EVENT_ID_RULE_CHARS = 200;
+
+const paramNameSchema = z
+	.string()
+	.trim()
+	.min(1, 'A name may not be empty.')
+	.max(64, 'A name may be at most 64 characters.')
+	.regex(/^[A-Za-z0-9][A-Za-z0-9 _.:\-]*$/, 'A name may hold letters, digits, spaces and _ . : - only.');
+
+/** How many capture groups a regular expression has (it matches "" with one extra empty alternative). */
+function captureGroups(source: string): number {
+	return new RegExp(`${source}|`).exec('')!.length - 1;
+}
+
+export const vocabularySchema = z.object({
+	names: z.object(
+		Object.fromEntries(
+			VOCABULARY_FIELDS.map((f) => [f, z.array(paramNameSchema).min(1, 'Give at least one name.').max(16, 'Give at most 16 names.')])
+		) as Record<VocabularyField, z.ZodArray<typeof paramNameSchema>>
+	),
+	farUnit: z.enum(FAR_DEFAULT_UNITS),
+	eventIdFromIvorn: z
+		.string()
+		.trim()
+		.max(MAX_EVENT_ID_RULE_CHARS, `The rule may be at most ${MAX_EVENT_ID_RULE_CHARS} characters.`)
+		.superRefine((source, ctx) => {
+			let groups: number;
+			try {
+				groups = captureGroups(source);
+			} catch (e) {
+				ctx.addIssue({ code: 'custom', message: `This is not a regular expression: ${(e as Error).message}` });
+				return;
+			}
+			if (groups !== 1) ctx.addIssue({ code: 'custom', message: `The rule needs exactly one capture group ( … ); it has ${groups}.` });
+		})
+		.nullable()
+});
+
+/** The stream of an IVORN: everything before "#" (VOEvent 2.0 §2.2), or the whole IVORN without one. */
+export function streamOf(ivorn: string): string {
+	const hash = ivorn.indexOf('#');
+	return hash < 0 ? ivorn : ivorn.slice(0, hash);
+}
+
+/** The local part of an IVORN: what follows "#" (empty without one). */
+export function localPartOf(ivorn: string): string {
+	const hash = ivorn.indexOf('#');
+	return hash < 0 ? '' : ivorn.slice(hash + 1);
+}
 
 /** FAR units we convert to Hz (normalised: lower case, no spaces). */
 const FAR_UNITS_TO_HZ: Record<string, number> = {
@@ -149,6 +265,23 @@ const FAR_UNITS_TO_HZ: Record<string, number> = {
 export interface ParseOptions {
 	/** Largest input accepted, in bytes (UTF-8). */
 	maxBytes?: number;
+	/** The stream's vocabulary (default: {@link DEFAULT_VOCABULARY}). */
+	vocabulary?: NoticeVocabulary;
+	/**
+	 * The event (source event id) a cited packet belongs to, when that packet is known; ingestion
+	 * looks the IVORN up among stored notices. Without it, cited packets are never known.
+	 */
+	citedEvent?: (ivorn: string) => string | null;
+}
+
+/** Where a notice's event id came from. */
+export type EventIdSource = 'param' | 'citation' | 'ivorn';
+
+export interface NoticeReading {
+	notice: Notice;
+	/** The stream the notice belongs to (its IVORN before "#"). */
+	stream: string;
+	eventIdFrom: EventIdSource;
 }
 
 type XNode = Record<string, unknown>;
@@ -360,9 +493,16 @@ const parser = new XMLParser({
 
 /**
  * Parse VOEvent 2.0 XML into a {@link Notice}. Throws {@link NoticeParseError} with a one-line
- * reason for anything refused.
+ * reason for anything refused ({@link NoticeWaitError} when only a cited packet could name the event).
  */
 export function parseVoevent(input: string | Uint8Array, opts: ParseOptions = {}): Notice {
+	return readVoevent(input, opts).notice;
+}
+
+/** {@link parseVoevent}, also saying which stream the notice is from and where its event id came from. */
+export function readVoevent(input: string | Uint8Array, opts: ParseOptions = {}): NoticeReading {
+	const vocabulary = opts.vocabulary ?? DEFAULT_VOCABULARY;
+	const names = vocabulary.names;
 	const xml = precheckXml(input, opts);
 	const valid = XMLValidator.validate(xml, { allowBooleanAttributes: false });
 	if (valid !== true) {
@@ -387,8 +527,8 @@ export function parseVoevent(input: string | Uint8Array, opts: ParseOptions = {}
 
 	const ivorn = attr(root, 'ivorn');
 	if (!ivorn) fail('VOEvent has no ivorn attribute');
-	const roleRaw = attr(root, 'role');
-	if (!roleRaw) fail('VOEvent has no role attribute');
+	// VOEvent 2.0 §3.1.2: role is optional and "observation" when missing.
+	const roleRaw = attr(root, 'role') || 'observation';
 	const role = roleRaw.toLowerCase();
 	if (!(NOTICE_ROLES as readonly string[]).includes(role)) {
 		fail(`unsupported role "${roleRaw}" (expected observation, test or utility)`);
@@ -412,42 +552,48 @@ export function parseVoevent(input: string | Uint8Array, opts: ParseOptions = {}
 		citations.push({ ivorn: target, cite: cite as CiteType });
 	}
 
-	const idParam = pick(params, PARAM_NAMES.sourceEventId);
-	if (!idParam || !idParam.value) fail(`missing required Param ${PARAM_NAMES.sourceEventId.join(' / ')}`);
+	const event = eventIdOf(ivorn, pick(params, names.sourceEventId), citations, vocabulary, opts.citedEvent);
 
-	const kindParam = pick(params, PARAM_NAMES.kind);
+	// A kind Param wins; else the citations say (VOEvent 2.0 §3.7: none = a new discovery,
+	// §3.7.1: supersedes, followup, retraction). A retraction citation outranks the others.
+	const kindParam = pick(params, names.kind);
 	let kind: NoticeKind;
-	if (kindParam) {
+	if (kindParam && kindParam.value) {
 		const k = KIND_ALIASES[normaliseName(kindParam.value)];
-		if (!k) fail(`Param ${kindParam.name} "${kindParam.value}" is not preliminary, initial, update or retraction`);
+		if (!k) fail(`Param ${kindParam.name} "${kindParam.value}" is not preliminary, initial, update, retraction or followup`);
 		kind = k;
 	} else if (citations.some((c) => c.cite === 'retraction')) {
 		kind = 'retraction';
+	} else if (citations.some((c) => c.cite === 'supersedes')) {
+		kind = 'update';
+	} else if (citations.some((c) => c.cite === 'followup')) {
+		kind = 'followup';
 	} else {
-		fail(`missing required Param ${PARAM_NAMES.kind.join(' / ')}`);
+		// A new discovery with no stated kind: read as preliminary, the cautious reading (it shows "may be retracted or revised").
+		kind = 'preliminary';
 	}
 
-	const farParam = pick(params, PARAM_NAMES.far);
+	const farParam = pick(params, names.far);
 	let far: number | null = null;
 	if (farParam) {
-		const unit = normaliseUnit(farParam.unit);
+		const unit = farParam.unit === null || farParam.unit.trim() === '' ? (vocabulary.farUnit === 'per-year' ? 'peryear' : 'hz') : normaliseUnit(farParam.unit);
 		const factor = FAR_UNITS_TO_HZ[unit];
 		if (factor === undefined) fail(`Param ${farParam.name} has unit "${farParam.unit}"; expected Hz or yr-1`);
 		far = parseNumber(farParam, 'far') * factor;
 		if (far < 0) fail(`Param ${farParam.name} (far) must not be negative`);
 	}
 
-	const urlParam = pick(params, PARAM_NAMES.skymapUrl);
+	const urlParam = pick(params, names.skymapUrl);
 	const skymapUrl = urlParam && urlParam.value ? urlParam.value : null;
 
-	const inClass = (p: RawParam) => groupMatches(p.group, PARAM_NAMES.classificationGroup);
-	const classProbe = (names: readonly string[]) =>
-		pick(params, names, inClass) ?? pick(params, names.filter((n) => n.toLowerCase().startsWith('prob')));
+	const inClass = (p: RawParam) => groupMatches(p.group, names.classificationGroup);
+	const classProbe = (wanted: readonly string[]) =>
+		pick(params, wanted, inClass) ?? pick(params, wanted.filter((n) => n.toLowerCase().startsWith('prob')));
 	const classParams = {
-		BNS: classProbe(PARAM_NAMES.BNS),
-		NSBH: classProbe(PARAM_NAMES.NSBH),
-		BBH: classProbe(PARAM_NAMES.BBH),
-		Terrestrial: classProbe(PARAM_NAMES.Terrestrial)
+		BNS: classProbe(names.BNS),
+		NSBH: classProbe(names.NSBH),
+		BBH: classProbe(names.BBH),
+		Terrestrial: classProbe(names.Terrestrial)
 	};
 	let classification: Classification | null = null;
 	if (Object.values(classParams).some(Boolean)) {
@@ -462,10 +608,12 @@ export function parseVoevent(input: string | Uint8Array, opts: ParseOptions = {}
 		if (sum > 1.01) fail(`classification probabilities sum to ${sum.toFixed(3)}, more than 1`);
 	}
 
+	const inProps = (p: RawParam) => groupMatches(p.group, names.propertiesGroup);
+	const propProbe = (wanted: readonly string[]) => pick(params, wanted, inProps) ?? pick(params, wanted);
 	const propParams = {
-		HasNS: pick(params, PARAM_NAMES.HasNS),
-		HasRemnant: pick(params, PARAM_NAMES.HasRemnant),
-		HasMassGap: pick(params, PARAM_NAMES.HasMassGap)
+		HasNS: propProbe(names.HasNS),
+		HasRemnant: propProbe(names.HasRemnant),
+		HasMassGap: propProbe(names.HasMassGap)
 	};
 	let properties: NoticeProperties | null = null;
 	if (Object.values(propParams).some(Boolean)) {
@@ -479,11 +627,12 @@ export function parseVoevent(input: string | Uint8Array, opts: ParseOptions = {}
 	const timeText = findIsoTime(child(root, 'WhereWhen'));
 	const eventTime = timeText ? normaliseIsoTime(timeText, 'WhereWhen ISOTime') : null;
 
-	if (kind !== 'retraction') {
+	// A retraction needs only its identity; a follow-up adds what it has (VOEvent 2.0 §3.7.1).
+	if (kind !== 'retraction' && kind !== 'followup') {
 		if (!eventTime) fail(`${kind} notice has no WhereWhen ISOTime (event time)`);
-		if (far === null) fail(`${kind} notice lacks required Param ${PARAM_NAMES.far.join(' / ')}`);
-		if (!classification) fail(`${kind} notice lacks the Classification group (BNS, NSBH, BBH, Terrestrial)`);
-		if (!skymapUrl) fail(`${kind} notice lacks required Param ${PARAM_NAMES.skymapUrl.join(' / ')}`);
+		if (far === null) fail(`${kind} notice lacks required Param ${names.far.join(' / ')}`);
+		if (!classification) fail(`${kind} notice lacks the Classification group (${[names.BNS[0], names.NSBH[0], names.BBH[0], names.Terrestrial[0]].join(', ')})`);
+		if (!skymapUrl) fail(`${kind} notice lacks required Param ${names.skymapUrl.join(' / ')}`);
 	}
 
 	const reason = kind === 'retraction' ? retractionReason(root, params) : null;
@@ -494,7 +643,7 @@ export function parseVoevent(input: string | Uint8Array, opts: ParseOptions = {}
 		authoredAt,
 		eventTime,
 		kind,
-		sourceEventId: idParam.value,
+		sourceEventId: event.id,
 		far,
 		classification,
 		properties,
@@ -507,7 +656,56 @@ export function parseVoevent(input: string | Uint8Array, opts: ParseOptions = {}
 		const issue = checked.error.issues[0];
 		fail(`invalid notice field ${issue.path.join('.') || '(root)'}: ${issue.message}`);
 	}
-	return checked.data;
+	return { notice: checked.data, stream: streamOf(ivorn), eventIdFrom: event.from };
+}
+
+/**
+ * The event a notice belongs to: its event-id Param when present; else the event of the packets
+ * it cites, when known (all known ones must agree); else the stream's rule applied to the local
+ * part of its own IVORN, or failing that of the first cited IVORN it matches. With none of these,
+ * a notice whose cited packets are unknown waits for them ({@link NoticeWaitError}); one that
+ * cites nothing is refused.
+ */
+function eventIdOf(
+	ivorn: string,
+	param: RawParam | null,
+	citations: { ivorn: string; cite: CiteType }[],
+	vocabulary: NoticeVocabulary,
+	citedEvent: ParseOptions['citedEvent']
+): { id: string; from: EventIdSource } {
+	if (param && param.value) return { id: param.value, from: 'param' };
+	const cited = [...new Set(citations.map((c) => c.ivorn))];
+	const known = new Map<string, string>();
+	for (const c of cited) {
+		const id = citedEvent?.(c) ?? null;
+		if (id) known.set(c, id);
+	}
+	const events = [...new Set(known.values())];
+	if (events.length > 1) {
+		fail(`the cited notices belong to different events (${[...known].map(([c, id]) => `${c} → ${id}`).join(', ')}); a notice may concern one event only`);
+	}
+	if (events.length === 1) return { id: events[0], from: 'citation' };
+	if (vocabulary.eventIdFromIvorn) {
+		let rule: RegExp;
+		try {
+			rule = new RegExp(vocabulary.eventIdFromIvorn);
+		} catch {
+			fail(`the stream's event-id rule /${vocabulary.eventIdFromIvorn}/ is not a regular expression`);
+		}
+		for (const candidate of [ivorn, ...cited]) {
+			const m = rule.exec(localPartOf(candidate));
+			if (m && m[1]) return { id: m[1], from: 'ivorn' };
+		}
+	}
+	const wanted = `Param ${vocabulary.names.sourceEventId.join(' / ')}`;
+	const rule = vocabulary.eventIdFromIvorn ? `the stream's rule /${vocabulary.eventIdFromIvorn}/ finds no event id in the IVORN` : "the stream states no rule for the IVORN's local part";
+	if (cited.length) {
+		throw new NoticeWaitError(
+			`waiting for the cited notice${cited.length > 1 ? 's' : ''} ${cited.join(', ')}: the notice names its event only through ${cited.length > 1 ? 'them' : 'it'} (no ${wanted}, and ${rule}), and ${cited.length > 1 ? 'none is' : 'it is not'} stored yet`,
+			cited
+		);
+	}
+	fail(`missing required ${wanted} (and ${rule})`);
 }
 
 /**

@@ -43,6 +43,9 @@ const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean; allowed
 	{ path: '/events/upload', allowed: ['admin', 'coordinator', 'duty'] },
 	{ path: '/triage', allowed: ['admin', 'coordinator'] },
 	{ path: '/inbox?/retry', allowed: ['admin', 'coordinator'] },
+	{ path: '/inbox/streams?/preview', allowed: ['admin', 'coordinator'] },
+	{ path: '/inbox/streams?/save', allowed: ['admin', 'coordinator'] },
+	{ path: '/inbox/streams?/reset', allowed: ['admin', 'coordinator'] },
 	{ path: '/catalogs/upload', allowed: ['admin', 'coordinator'] },
 	// Event pages, on an event of the matrix's own (published in beforeAll).
 	{ path: '/events/{eventId}?/acknowledge', allowed: ['duty', 'coordinator'] },

@@ -10,7 +10,8 @@ import { MAX_ATTEMPTS } from './ingest';
 /** Raw text beyond this many characters is cut in the listing (the whole text stays in the database). */
 export const RAW_PREVIEW_CHARS = 20_000;
 
-export type InboxProblemState = 'refused' | 'retrying' | 'gave-up';
+/** `waiting`: kept unprocessed until a packet it cites is stored (the reason names them). */
+export type InboxProblemState = 'refused' | 'retrying' | 'gave-up' | 'waiting';
 
 export interface InboxProblem {
 	inboxId: number;
@@ -50,7 +51,7 @@ export function listInboxProblems(limit = 50): InboxProblem[] {
 		receivedAt: r.receivedAt.toISOString(),
 		processedAt: r.processedAt?.toISOString() ?? null,
 		attempts: r.attempts,
-		state: r.processedAt ? 'refused' : r.attempts >= MAX_ATTEMPTS ? 'gave-up' : 'retrying',
+		state: r.processedAt ? 'refused' : r.error ? 'waiting' : r.attempts >= MAX_ATTEMPTS ? 'gave-up' : 'retrying',
 		reason: r.error ?? (r.attempts >= MAX_ATTEMPTS ? `Processing failed ${r.attempts} times; it is no longer retried by itself.` : 'Processing did not finish; it is tried again every few minutes.'),
 		raw: r.rawXml.slice(0, RAW_PREVIEW_CHARS),
 		rawChars: r.rawXml.length

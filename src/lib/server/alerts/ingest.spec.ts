@@ -11,8 +11,10 @@ import * as table from '../platform/db/schema';
 import { onRecorded, type LiveMessage } from '../platform/realtime';
 import { storedFileExists, useStorageRoot } from '../platform/storage';
 import { updatePolicy, DEFAULT_TRIAGE_POLICY } from './triage-policy';
-import { commitNotice, eventIdFor, processInbox, retryPending, retrySkymaps } from './ingest';
+import { commitNotice, eventIdFor, processInbox, reprocessNotice, retryPending, retrySkymaps } from './ingest';
 import { submitNotice } from './service';
+import { saveVocabulary, vocabularyFor } from './streams';
+import { vocabularySchema } from '../../alerts/voevent.ts';
 import type { DB } from '../platform/db';
 import { config, loadAlertsConfig } from '../platform/config';
 import { gunzipSync } from 'node:zlib';
@@ -68,6 +70,7 @@ beforeAll(async () => {
 	broker.addFile('SX30041207-2.multiorder.fits.gz', fixtureMap);
 	broker.addFile('SX30041207-3.multiorder.fits.gz', fixtureMap);
 	broker.addFile('SXT0001-1.multiorder.fits.gz', fixtureMap);
+	for (const name of ['SX30050101-1', 'SX30050101-2', 'SXT30050303-1', 'SXU30050404-1', 'A30050505-1']) broker.addFile(`${name}.multiorder.fits.gz`, fixtureMap);
 });
 afterAll(async () => {
 	await broker.stop();
@@ -407,5 +410,115 @@ describe('ingest: sky maps that unpack too large', () => {
 		} finally {
 			config.alerts.skymapMaxInflatedBytes = saved;
 		}
+	});
+});
+
+// VOEvent 2.0 semantics (§3.7 Citations, §3.1.2 role) and stream vocabularies, end to end.
+describe('ingest: VOEvent semantics and stream vocabularies', () => {
+	const std = (name: string) => notice('standard/' + name);
+
+	it('creates, updates (kind only in the citations) and retracts (empty What citing two packets) one event', async () => {
+		expect.hasAssertions();
+		const first = await ingest(std('namespaced.xml'));
+		expect(first).toMatchObject({ outcome: 'event-created', eventId: 'sx30050101', error: null });
+		const second = await ingest(std('supersedes-only.xml'));
+		expect(second).toMatchObject({ outcome: 'notice-added', eventId: 'sx30050101' });
+		let event = database.select().from(table.gwEvent).get()!;
+		expect(event).toMatchObject({ latestKind: 'update', latestNoticeId: second.noticeId, farHz: 1.5e-11, state: 'active' });
+		const third = await ingest(std('retraction-empty-what.xml'));
+		expect(third).toMatchObject({ outcome: 'event-retracted', eventId: 'sx30050101' });
+		event = database.select().from(table.gwEvent).get()!;
+		expect(event).toMatchObject({ state: 'retracted', latestKind: 'retraction' });
+		expect(database.select().from(table.gwEvent).all()).toHaveLength(1);
+		const stored = database.select().from(table.notice).where(eq(table.notice.id, third.noticeId!)).get()!;
+		expect(stored.citations).toHaveLength(2);
+		const retracted = log.find((m) => m.type === 'event.retracted' && m.room === 'board')!;
+		expect(retracted.payload).toMatchObject({ eventId: 'sx30050101', reason: 'Withdrawn: a data-quality flag was raised after the fact.' });
+	});
+
+	it('keeps a retraction that arrives before the packets it cites waiting, then reads it when one arrives', async () => {
+		expect.hasAssertions();
+		const early = await submitNotice(std('retraction-empty-what.xml'), 'api');
+		expect(early.status).toBe(202);
+		expect(early.outcome).toMatchObject({ outcome: 'waiting', eventId: null });
+		expect(early.outcome.error).toMatch(/^waiting for the cited notices .*-1-preliminary, .*-2-revised/);
+		const row = database.select().from(table.noticeInbox).get()!;
+		expect(row.processedAt).toBeNull();
+		expect(row.error).toBe(early.outcome.error);
+		expect(database.select().from(table.gwEvent).all()).toHaveLength(0);
+		// The periodic retry reads it again and it still waits.
+		expect((await retryPending({ fetch: fetchOpts })).map((o) => o.outcome)).toEqual(['waiting']);
+
+		// The first cited packet arrives: it is stored, and the waiting retraction is read at once.
+		const parent = await ingest(std('namespaced.xml'));
+		expect(parent.outcome).toBe('event-created');
+		const event = database.select().from(table.gwEvent).get()!;
+		expect(event.state).toBe('retracted');
+		const after = database.select().from(table.noticeInbox).where(eq(table.noticeInbox.id, row.id)).get()!;
+		expect(after.processedAt).not.toBeNull();
+		expect(after.error).toBeNull();
+		expect(database.select().from(table.notice).all().map((n) => n.kind).sort()).toEqual(['preliminary', 'retraction']);
+	});
+
+	it('keeps a follow-up beside the event: its content does not replace what the event shows', async () => {
+		expect.hasAssertions();
+		await ingest(std('namespaced.xml'));
+		const followup = std('supersedes-only.xml')
+			.replace('cite="supersedes"', 'cite="followup"')
+			.replace('#SX30050101-2-revised', '#SX30050101-2-followup')
+			.replace(/<Group type="Skymap">.*<\/Group>/, '')
+			.replace(/<Group type="Classification">[\s\S]*?<\/Group>/, '');
+		const r = await ingest(followup);
+		expect(r.outcome).toBe('notice-added');
+		const event = database.select().from(table.gwEvent).get()!;
+		// FAR and classes stay those of the preliminary notice; the map too (the follow-up carries none).
+		expect(event).toMatchObject({ latestKind: 'followup', farHz: 2.2e-10, classification: { BNS: 0.91, NSBH: 0.05, BBH: 0, Terrestrial: 0.04 } });
+		const maps = database.select().from(table.skymap).all();
+		expect(maps).toHaveLength(1);
+		expect(event.latestSkymapId).toBe(maps[0].id);
+	});
+
+	it('stores test and utility notices as such and pages nobody, even under a policy that accepts any role', async () => {
+		expect.hasAssertions();
+		updatePolicy({ userId: null, label: 'a coordinator' }, { ...DEFAULT_TRIAGE_POLICY, requireObservationRole: false });
+		for (const [name, role] of [['test-role.xml', 'test'], ['utility-role.xml', 'utility']] as const) {
+			log = [];
+			const r = await ingest(std(name));
+			expect(r.outcome).toBe('event-created');
+			const event = database.select().from(table.gwEvent).where(eq(table.gwEvent.id, r.eventId!)).get()!;
+			expect(event.role).toBe(role);
+			expect(event.triage!.verdict).toBe('follow');
+			expect(log.find((m) => m.type === 'notice.processed' && m.room === 'board')!.payload).toMatchObject({ role, significant: false });
+		}
+	});
+
+	it("reads a stream's renamed Params with that stream's vocabulary, and refuses them before it is set", async () => {
+		expect.hasAssertions();
+		const xml = std('renamed-params.xml');
+		const refused = await ingest(xml);
+		expect(refused.outcome).toBe('rejected');
+		expect(refused.error).toMatch(/^missing required Param SourceEventId/);
+		const vocabulary = vocabularySchema.parse(JSON.parse(raw('standard/renamed-params.vocabulary.json')));
+		saveVocabulary('ivo://strainline.example/alt-pipeline', vocabulary, null);
+		expect(vocabularyFor('ivo://strainline.example/alt-pipeline').names.far).toEqual(['FalseAlarmPerYear']);
+		// Other streams keep the defaults.
+		expect(vocabularyFor('ivo://strainline.example/fake-broker').names.far[0]).toBe('FalseAlarmRate');
+		// The same text sent again is a repeat of a refused notice; processing it again from the inbox reads it.
+		expect((await submitNotice(xml, 'api', { fetch: fetchOpts })).status).toBe(422);
+		const r = await reprocessNotice(refused.inboxId, { fetch: fetchOpts });
+		expect(r).toMatchObject({ outcome: 'event-created', eventId: 'a30050505' });
+		const event = database.select().from(table.gwEvent).get()!;
+		expect(event).toMatchObject({ id: 'a30050505', sourceEventId: 'A30050505', latestKind: 'initial', classification: { BNS: 0.6, NSBH: 0.3, BBH: 0.05, Terrestrial: 0.05 } });
+		expect(event.farHz).toBeCloseTo(0.5 / 31557600, 20);
+	});
+
+	it('reads CDATA and whitespace, and a default-namespace envelope, into one event', async () => {
+		expect.hasAssertions();
+		broker.addFile('SX30050202-1.multiorder.fits.gz', readFileSync(dir + 'skymap-demo.multiorder.fits.gz'));
+		broker.addFile('SX30050202-2.multiorder.fits.gz', readFileSync(dir + 'skymap-demo.multiorder.fits.gz'));
+		expect((await ingest(std('default-namespace.xml'))).outcome).toBe('event-created');
+		expect((await ingest(std('cdata-whitespace.xml'))).outcome).toBe('notice-added');
+		const event = database.select().from(table.gwEvent).get()!;
+		expect(event).toMatchObject({ id: 'sx30050202', latestKind: 'update', farHz: 3e-12 });
 	});
 });

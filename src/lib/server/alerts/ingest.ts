@@ -18,7 +18,8 @@ import { keepSkyMap } from './skymap-cache';
 import { readStoredFile, saveSkymapFile } from '../platform/storage';
 import { policyInput, factsOf } from './triage-policy';
 import { catalogInUse } from './events';
-import { parseVoevent, sniffIvorn, type Notice as ParsedNotice } from '../../alerts/voevent.ts';
+import { NoticeWaitError, sniffIvorn, type Notice as ParsedNotice } from '../../alerts/voevent.ts';
+import { readNotice } from './streams';
 import { evaluateTriage } from '../../alerts/triage.ts';
 import { analyseSkymap, skyRaster, type SkyMap } from '../../sky/index.ts';
 
@@ -72,7 +73,12 @@ export function commitNotice(rawXml: string, via: InboxVia, opts: { uploadedSkym
 	return { inboxId: existing.id, ivorn, duplicate: true };
 }
 
-export type IngestOutcomeKind = 'event-created' | 'notice-added' | 'event-retracted' | 'rejected' | 'already-processed';
+/**
+ * `waiting`: the notice names its event only through packets it cites, none of which is stored yet;
+ * it stays in the inbox, unprocessed, with the reason, and is read again when another notice is
+ * stored (and with the periodic retry).
+ */
+export type IngestOutcomeKind = 'event-created' | 'notice-added' | 'event-retracted' | 'rejected' | 'already-processed' | 'waiting';
 
 export interface IngestOutcome {
 	outcome: IngestOutcomeKind;
@@ -176,8 +182,13 @@ async function runProcess(inboxId: number, opts: IngestOptions): Promise<IngestO
 
 	let parsed: ParsedNotice;
 	try {
-		parsed = parseVoevent(row.rawXml);
+		parsed = readNotice(row.rawXml).notice;
 	} catch (e) {
+		if (e instanceof NoticeWaitError) {
+			// Out of order: kept, unprocessed, with the reason; read again once a cited packet is stored.
+			db.update(table.noticeInbox).set({ error: e.message }).where(eq(table.noticeInbox.id, inboxId)).run();
+			return { outcome: 'waiting', inboxId, ivorn: row.ivorn, eventId: null, noticeId: null, error: e.message };
+		}
 		// A malformed notice will not get better by retrying: it is finished, with its reason kept.
 		const error = (e as Error).message;
 		db.update(table.noticeInbox).set({ processedAt: now(), error }).where(eq(table.noticeInbox.id, inboxId)).run();
@@ -227,9 +238,47 @@ async function runProcess(inboxId: number, opts: IngestOptions): Promise<IngestO
 		latest: event.latestNoticeId === stored.noticeId
 	};
 	for (const room of rooms(stored.eventId)) record(actor, 'notice.processed', room, payload);
+	await processWaiting(opts);
 
 	const outcome: IngestOutcomeKind = parsed.kind === 'retraction' ? 'event-retracted' : stored.eventCreated ? 'event-created' : 'notice-added';
 	return { outcome, inboxId, ivorn: row.ivorn, eventId: stored.eventId, noticeId: stored.noticeId, error: sky?.error ?? null };
+}
+
+let drainingWaiting = false;
+let waitingAgain = false;
+
+/**
+ * Read again the inbox rows that wait for a cited packet (unprocessed, with a reason), after a
+ * notice was stored: one of them may name their event now. Runs once at a time; a call made
+ * while it runs asks it for one more pass. A row being processed elsewhere is skipped.
+ */
+async function processWaiting(opts: IngestOptions): Promise<void> {
+	if (drainingWaiting) {
+		waitingAgain = true;
+		return;
+	}
+	drainingWaiting = true;
+	try {
+		do {
+			waitingAgain = false;
+			const rows = db
+				.select({ id: table.noticeInbox.id })
+				.from(table.noticeInbox)
+				.where(and(isNull(table.noticeInbox.processedAt), isNotNull(table.noticeInbox.error)))
+				.orderBy(asc(table.noticeInbox.id))
+				.all();
+			for (const r of rows) {
+				if (inFlight.has(r.id)) continue;
+				try {
+					await processInbox(r.id, opts);
+				} catch (e) {
+					console.error(`notice inbox row ${r.id}: processing failed (${(e as Error).message}); will retry`);
+				}
+			}
+		} while (waitingAgain);
+	} finally {
+		drainingWaiting = false;
+	}
 }
 
 interface Stored {
@@ -303,7 +352,9 @@ function refreshEvent(tx: Tx, eventId: string): { state: table.GwEvent['state'];
 	const event = tx.select().from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get()!;
 	const notices = tx.select().from(table.notice).where(eq(table.notice.eventId, eventId)).orderBy(asc(table.notice.authoredAt), asc(table.notice.createdAt)).all();
 	const latest = notices.at(-1) ?? null;
-	const content = notices.filter((x) => x.kind !== 'retraction').at(-1) ?? null;
+	// A follow-up is a new, independent measurement (VOEvent 2.0 §3.7.1): it does not replace what the
+	// event shows, unless the event has nothing else; its sky map counts like any other (below).
+	const content = notices.filter((x) => x.kind !== 'retraction' && x.kind !== 'followup').at(-1) ?? notices.filter((x) => x.kind === 'followup').at(-1) ?? null;
 	const retraction = notices.find((x) => x.kind === 'retraction') ?? null;
 	const maps = tx
 		.select({ id: table.skymap.id, summary: table.skymap.summary, authoredAt: table.notice.authoredAt })

@@ -179,7 +179,8 @@ export function alertsService(): AlertsService | null {
 }
 
 export interface SubmitResult {
-	status: 200 | 201 | 422;
+	/** 202: kept, waiting for a packet it cites (see IngestOutcomeKind 'waiting'). */
+	status: 200 | 201 | 202 | 422;
 	duplicate: boolean;
 	outcome: IngestOutcome;
 }
@@ -196,6 +197,6 @@ export async function submitNotice(
 ): Promise<SubmitResult> {
 	const c = commitNotice(rawXml, via, { uploadedSkymapPath: opts.uploadedSkymapPath });
 	const outcome = await processInbox(c.inboxId, { actor: opts.actor, fetch: opts.fetch });
-	const status = outcome.outcome === 'rejected' ? 422 : c.duplicate || outcome.outcome === 'already-processed' ? 200 : 201;
+	const status = outcome.outcome === 'rejected' ? 422 : outcome.outcome === 'waiting' ? 202 : c.duplicate || outcome.outcome === 'already-processed' ? 200 : 201;
 	return { status, duplicate: c.duplicate, outcome };
 }

@@ -29,13 +29,13 @@ function shift(userId: string, startsAt: Date, endsAt: Date, rank: number) {
 }
 
 /** An event with one notice that arrived in the inbox at `receivedAt`, plus its sky-map summary. */
-function insertEvent(o: { receivedAt: Date; kind?: table.Notice['kind']; farHz?: number; area90?: number }) {
+function insertEvent(o: { receivedAt: Date; kind?: table.Notice['kind']; farHz?: number; area90?: number; role?: table.Notice['role'] }) {
 	const n = ++seq;
 	const eventId = `ev${n}`;
 	const noticeId = `no${n}`;
 	const ivorn = `ivo://test.invalid/duty#S-unit-${n}`;
 	db.insert(table.gwEvent)
-		.values({ id: eventId, sourceEventId: `S-unit-${n}`, role: 'observation', state: 'active', eventTime: new Date(o.receivedAt.getTime() - 40_000) })
+		.values({ id: eventId, sourceEventId: `S-unit-${n}`, role: o.role ?? 'observation', state: 'active', eventTime: new Date(o.receivedAt.getTime() - 40_000) })
 		.run();
 	const inbox = db.insert(table.noticeInbox).values({ ivorn, rawXml: '<voe/>', via: 'vtp', receivedAt: o.receivedAt }).returning().get();
 	db.insert(table.notice)
@@ -45,7 +45,7 @@ function insertEvent(o: { receivedAt: Date; kind?: table.Notice['kind']; farHz?:
 			inboxId: inbox.id,
 			ivorn,
 			kind: o.kind ?? 'initial',
-			role: 'observation',
+			role: o.role ?? 'observation',
 			authoredAt: new Date(o.receivedAt.getTime() - 5_000),
 			farHz: o.farHz ?? 1 / (100 * 3.15576e7),
 			classification: { BNS: 0.97, NSBH: 0.02, BBH: 0, Terrestrial: 0.01 },
@@ -113,6 +113,25 @@ afterEach(() => {
 afterAll(() => stopFakeSmtp());
 
 describe('paging on a significant notice', () => {
+	it('never pages for a test or utility notice (VOEvent 2.0 §3.1.2), even when called as significant', async () => {
+		expect.hasAssertions();
+		uninstall = duty.installDuty({ escalateEveryMs: null });
+		const now = new Date();
+		const onShift = await person('Role Watcher', ['duty']);
+		shift(onShift.id, new Date(now.getTime() - HOUR), new Date(now.getTime() + HOUR), 0);
+		for (const role of ['test', 'utility'] as const) {
+			const ev = insertEvent({ receivedAt: new Date(now.getTime() - 3_000), role });
+			processed(ev.eventId, ev.noticeId, true);
+			expect(await duty.pageForNotice(ev.eventId, ev.noticeId)).toEqual([]);
+			expect(pages(ev.eventId)).toHaveLength(0);
+		}
+		// The same roster pages for an observation: the check above could fail.
+		const real = insertEvent({ receivedAt: new Date(now.getTime() - 3_000) });
+		processed(real.eventId, real.noticeId, true);
+		expect(pages(real.eventId)).toHaveLength(1);
+		expect(await mailTo(onShift.email)).toHaveLength(1);
+	});
+
 	it('e-mails the rank-0 person on shift with the event summary and a link, and records the page once', async () => {
 		expect.hasAssertions();
 		uninstall = duty.installDuty({ escalateEveryMs: null });

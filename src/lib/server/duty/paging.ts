@@ -318,6 +318,8 @@ export async function pageForNotice(eventId: string, noticeId: string, now = new
 	if (already) return [];
 	const ctx = pageContext(eventId, noticeId);
 	if (!ctx) return [];
+	// Test and utility notices (VOEvent 2.0 §3.1.2) never page anyone, whatever the triage policy says.
+	if (ctx.notice.role !== 'observation' || ctx.event.role !== 'observation') return [];
 	const { people, fallback } = recipientsFor(now, new Set());
 	if (people.length === 0) {
 		announce(SYSTEM, 'duty.nobody-to-page', eventId, { eventId, noticeId });

@@ -31,6 +31,7 @@ describe('permissions table', () => {
 			'triage.manage': ['admin', 'coordinator'],
 			'notices.inbox': ['admin', 'coordinator', 'duty'],
 			'notices.retry': ['admin', 'coordinator'],
+			'notices.vocabulary': ['admin', 'coordinator'],
 			'shifts.manage': ['admin', 'coordinator'],
 			'catalogs.manage': ['admin', 'coordinator'],
 			'claims.create': ['observer', 'coordinator'],

@@ -29,6 +29,8 @@ export const PERMISSIONS = {
 	'triage.manage': { roles: ['admin', 'coordinator'] },
 	'notices.inbox': { roles: ['admin', 'coordinator', 'duty'] },
 	'notices.retry': { roles: ['admin', 'coordinator'] },
+	/** Edit which Params each notice stream uses for which field (how its notices are read). */
+	'notices.vocabulary': { roles: ['admin', 'coordinator'] },
 	'shifts.manage': { roles: ['admin', 'coordinator'] },
 	'catalogs.manage': { roles: ['admin', 'coordinator'] },
 	'claims.create': { roles: ['observer', 'coordinator'] },

@@ -11,7 +11,7 @@ import { getEvent } from '$lib/server/alerts/events';
 export const load: PageServerLoad = ({ locals, depends }) => {
 	requirePermission('notices.inbox');
 	depends('app:inbox');
-	return { problems: listInboxProblems(), previewChars: RAW_PREVIEW_CHARS, canRetry: can({ user: locals.user }, 'notices.retry') };
+	return { problems: listInboxProblems(), previewChars: RAW_PREVIEW_CHARS, canRetry: can({ user: locals.user }, 'notices.retry'), canEditStreams: can({ user: locals.user }, 'notices.vocabulary') };
 };
 
 const retryForm = z.object({
@@ -44,6 +44,10 @@ export const actions: Actions = {
 				break;
 			case 'event-retracted':
 				retried.text = `Processed: ${name} is retracted by this notice.`;
+				break;
+			case 'waiting':
+				retried.ok = false;
+				retried.text = `Still waiting: ${outcome.error ?? 'a notice it cites has not arrived'}`;
 				break;
 			case 'already-processed':
 				retried.text = `Already processed earlier, as part of ${name}; nothing changed.`;

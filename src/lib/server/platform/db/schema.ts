@@ -6,6 +6,7 @@ import type { Classification, TriageVerdict } from '../../../event-view';
 import type { KilonovaVerdict, ThresholdChanges } from '../../../candidates/rules';
 import type { CandidateVetting } from '../../../candidates/vetting';
 import type { SpectrumFormat, SpectrumSummary } from '../../../candidates/spectrum';
+import type { NoticeVocabulary } from '../../../alerts/voevent';
 import { CANDIDATE_STATES, CLASSIFICATION_LABELS, CONFIDENCE_LEVELS, REJECTION_REASONS } from '../../../candidates/labels';
 import { sqliteTable, text, integer, real, primaryKey, index, uniqueIndex, check } from 'drizzle-orm/sqlite-core';
 
@@ -252,7 +253,7 @@ export type EventLogEntry = typeof eventLog.$inferSelect;
 // ───────────────────────────── Alerts: events, notices, sky maps ─────────────────────────────
 
 export const EVENT_STATES = ['active', 'retracted', 'closed'] as const;
-export const NOTICE_KINDS = ['preliminary', 'initial', 'update', 'retraction'] as const;
+export const NOTICE_KINDS = ['preliminary', 'initial', 'update', 'retraction', 'followup'] as const;
 export const NOTICE_ROLES = ['observation', 'test', 'utility'] as const;
 
 /** Raw notices as they arrived, before anything else: the ack waits for this row. */
@@ -331,6 +332,19 @@ export const notice = sqliteTable(
 	},
 	(t) => [index('notice_event_idx').on(t.eventId, t.authoredAt)]
 );
+
+/**
+ * A notice stream's vocabulary (which Params carry which field, the FAR unit, the event-id rule),
+ * keyed by the stream: the IVORN before "#". A stream without a row is read with the defaults.
+ */
+export const noticeStream = sqliteTable('notice_stream', {
+	stream: text('stream').primaryKey(),
+	vocabulary: text('vocabulary', { mode: 'json' }).$type<NoticeVocabulary>().notNull(),
+	updatedBy: text('updated_by').references(() => user.id, { onDelete: 'set null' }),
+	updatedAt: integer('updated_at', { mode: 'timestamp_ms' }).notNull()
+});
+
+export type NoticeStreamRow = typeof noticeStream.$inferSelect;
 
 export type { SkymapSummary };
 

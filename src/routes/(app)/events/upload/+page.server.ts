@@ -66,6 +66,10 @@ export const actions: Actions = {
 			const message = result.outcome.error ?? 'The notice was refused.';
 			return fail(422, { values, errors: noticeFile ? { noticeFile: message } : ({ xml: message } as Errors) });
 		}
+		if (result.status === 202) {
+			// Kept in the inbox; it is read once a notice it cites arrives. Nothing was refused, so the form is cleared.
+			return { waiting: result.outcome.error ?? 'It names its event only through notices that have not arrived yet.' };
+		}
 		redirect(303, `/events/${result.outcome.eventId}`);
 	}
 };

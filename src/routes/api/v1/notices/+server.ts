@@ -7,7 +7,10 @@ import { DEFAULT_MAX_NOTICE_BYTES } from '$lib/alerts/voevent';
 
 const XML_TYPES = ['application/xml', 'text/xml', 'application/voevent+xml'];
 
-/** POST a raw VOEvent: 201 `{ eventId, noticeId, outcome }`, 200 on a repeat, 422 when refused. */
+/**
+ * POST a raw VOEvent: 201 `{ eventId, noticeId, outcome }`, 200 on a repeat, 422 when refused,
+ * 202 `{ outcome: 'waiting', reason }` when it names its event only through cited packets not stored yet.
+ */
 export const POST = apiRoute(async ({ request }) => {
 	const principal = requirePermission('notices.submit');
 	const type = (request.headers.get('content-type') ?? '').split(';')[0].trim().toLowerCase();
@@ -22,6 +25,7 @@ export const POST = apiRoute(async ({ request }) => {
 	const result = await submitNotice(xml, 'api', { actor: actorOf(principal.user, 'API') });
 	const o = result.outcome;
 	if (result.status === 422) return apiError(422, 'invalid_notice', o.error ?? 'The notice was refused.', { inboxId: o.inboxId });
+	if (result.status === 202) return json({ eventId: null, noticeId: null, outcome: 'waiting', reason: o.error }, { status: 202 });
 	return json(
 		{ eventId: o.eventId, noticeId: o.noticeId, outcome: result.duplicate ? 'repeat' : o.outcome, ...(o.error ? { skymapError: o.error } : {}) },
 		{ status: result.status }
