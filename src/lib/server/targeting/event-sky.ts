@@ -15,6 +15,7 @@ import type { DisplayRaster, SkyBody, SkyCandidate, SkyContour, SkyFootprint, Sk
 import { moonPhase, moonPosition, sunPosition } from '../../targeting/sun-moon.ts';
 import { footprintOf } from '../../targeting/telescope.ts';
 import { formatProbability } from '../../alerts/display.ts';
+import { claimStateAt } from '../../closeout/replay.ts';
 
 /** Display avoidance radii: the telescope defaults (telescope.min_sun/moon_separation_deg). */
 const SUN_AVOID_DEG = 45;
@@ -39,13 +40,16 @@ const pct = formatProbability;
 /**
  * The sky view for one viewer. Positions of the Sun and Moon are topocentric for a reference
  * point on the equator at longitude 0; the Moon's parallax (≤ 1°) is below what the overview shows.
+ * With `asOf`, claims and candidates are shown as they stood at `now` (the replay; the claim's
+ * own times decide, src/lib/closeout/replay.ts), and candidates reported later are left out.
  */
 export function eventSky(
 	eventId: string,
 	skymapId: string | null,
 	viewer: SessionUser | null,
 	covered: EventCoverage | null,
-	now = new Date()
+	now = new Date(),
+	o: { asOf?: boolean } = {}
 ): SkyViewData {
 	const display = skymapId ? skymapDisplay(skymapId) : null;
 	const site = { latitudeDeg: 0, longitudeDeg: 0, elevationM: 0 };
@@ -53,7 +57,13 @@ export function eventSky(
 	const moon = moonPosition(site, now);
 
 	// The claim a target shows: an open one first, else a finished one; released and lapsed claims free it.
-	const live = listClaims(eventId).filter((c) => c.state !== 'released' && c.state !== 'lapsed');
+	const atMs = now.getTime();
+	const live = o.asOf
+		? listClaims(eventId).flatMap((c) => {
+				const state = claimStateAt({ claimedAtMs: c.claimedAt.getTime(), startedAtMs: c.startedAt?.getTime() ?? null, doneAtMs: c.doneAt?.getTime() ?? null, endedAtMs: c.endedAt?.getTime() ?? null }, atMs);
+				return state ? [{ ...c, state }] : [];
+			})
+		: listClaims(eventId).filter((c) => c.state !== 'released' && c.state !== 'lapsed');
 	const claimOf = new Map<string, (typeof live)[number]>();
 	for (const c of live) {
 		const key = `${c.targetKind}:${c.targetId}`;
@@ -113,7 +123,9 @@ export function eventSky(
 		label: `Observed: ${pct(f.probability)} of the map inside`
 	}));
 
-	const candidates: SkyCandidate[] = listCandidates(eventId).map((c) => ({
+	const candidates: SkyCandidate[] = listCandidates(eventId)
+		.filter((c) => !o.asOf || Date.parse(c.createdAt) <= atMs)
+		.map((c) => ({
 		id: c.id,
 		raDeg: c.raDeg,
 		decDeg: c.decDeg,
