@@ -112,6 +112,8 @@ function scenario() {
 	const ranked = { eventId: 'ev-1', skymapId: 'map-2', galaxies: 2, fields: 0, catalogId: 'cat-1' };
 	record(SYSTEM, 'targets.ranked', 'board', ranked);
 	record(SYSTEM, 'targets.ranked', 'event:ev-1', ranked);
+	const summary = { area50: 40, area90: 212.4, area99: 600, distanceMean: 118.2, distanceStd: 24.4, pixels: 1, maxOrder: 8, probabilitySum: 1, peak: { ra: 150, dec: -30 }, ordering: 'NUNIQ', warnings: [] };
+	record(SYSTEM, 'skymap.analysed', 'event:ev-1', { eventId: 'ev-1', noticeId: 'n-2', skymapId: 'map-2', summary });
 	return { ann, bob, kept, freed, candidateName: 'AT-tl-1' };
 }
 
@@ -141,7 +143,10 @@ describe('eventTimeline', () => {
 		expect(released.teamName).toBe('Test team-b');
 		expect(released.href).toBe('/events/ev-1/targets?team=team-b');
 
-		expect(tl.entries.filter((e) => e.kind === 'pointing')).toHaveLength(3);
+		const pointings = tl.entries.filter((e) => e.kind === 'pointing');
+		expect(pointings).toHaveLength(3);
+		expect(pointings[0].detail).toContain('through the API');
+		expect(tl.entries.find((e) => e.kind === 'sky-map')!.detail).toBe('90% of the probability in 212 deg² · distance 118 ± 24 Mpc');
 		const candidate = tl.entries.find((e) => e.kind === 'candidate')!;
 		expect(candidate.href).toBe(`/events/ev-1/candidates/${s.candidateName}`);
 		expect(candidate.actor).toBe('Ann Observer');

@@ -79,6 +79,7 @@ const str = (p: Payload, k: string): string | null => (typeof p[k] === 'string' 
 const num = (p: Payload, k: string): number | null => (typeof p[k] === 'number' ? (p[k] as number) : null);
 const list = (p: Payload, k: string): string[] => (Array.isArray(p[k]) ? (p[k] as unknown[]).map(String) : []);
 const hhmm = (iso: string | null) => (iso ? `${iso.slice(11, 19)} UTC` : '');
+const SOURCE_WORDS: Record<string, string> = { form: 'from the report form', csv: 'from a CSV upload', api: 'through the API' };
 const NOTICE_WORDS: Record<string, string> = { preliminary: 'Preliminary', initial: 'Initial', update: 'Update', retraction: 'Retraction' };
 
 /** The event's log rows: its own room, and board rows that name it and are not copies of a room row. */
@@ -211,11 +212,15 @@ function allEntries(eventId: string): { entries: TimelineEntry[]; event: { sourc
 				linkText = 'Notices';
 				break;
 			case 'sky-map': {
-				const summary = p.summary as { area90Deg2?: number; distanceMeanMpc?: number | null } | undefined;
+				const summary = p.summary as { area90?: number; distanceMean?: number | null; distanceStd?: number | null } | undefined;
 				detail =
 					r.action === 'skymap.failed'
 						? (str(p, 'error') ?? '')
-						: [summary?.area90Deg2 != null ? `90% in ${summary.area90Deg2.toFixed(0)} deg²` : null, summary?.distanceMeanMpc != null ? `${summary.distanceMeanMpc.toFixed(0)} Mpc` : null]
+						: [
+								typeof summary?.area90 === 'number' ? `90% of the probability in ${summary.area90.toFixed(0)} deg²` : null,
+								typeof summary?.distanceMean === 'number' ? `distance ${summary.distanceMean.toFixed(0)}${typeof summary.distanceStd === 'number' ? ` ± ${summary.distanceStd.toFixed(0)}` : ''} Mpc` : null,
+								num(p, 'retried') ? `after ${num(p, 'retried')} download attempts` : null
+							]
 								.filter(Boolean)
 								.join(' · ');
 				href = `${eventPage}#sky-heading`;
@@ -254,7 +259,7 @@ function allEntries(eventId: string): { entries: TimelineEntry[]; event: { sourc
 				break;
 			}
 			case 'pointing':
-				detail = `${scopes.get(str(p, 'telescopeId') ?? '') ?? 'a telescope'} at RA ${num(p, 'raDeg')?.toFixed(2)}°, Dec ${num(p, 'decDeg')?.toFixed(2)}°${str(p, 'fieldId') ? ` (field ${str(p, 'fieldId')})` : ''} · ${str(p, 'filter')} to ${num(p, 'limitingMag')?.toFixed(1)} mag, ${num(p, 'exposureS')} s · by ${str(p, 'source')}`;
+				detail = `${scopes.get(str(p, 'telescopeId') ?? '') ?? 'a telescope'} at RA ${num(p, 'raDeg')?.toFixed(2)}°, Dec ${num(p, 'decDeg')?.toFixed(2)}°${str(p, 'fieldId') ? ` (field ${str(p, 'fieldId')})` : ''} · ${str(p, 'filter')} to ${num(p, 'limitingMag')?.toFixed(1)} mag, ${num(p, 'exposureS')} s · ${SOURCE_WORDS[str(p, 'source') ?? ''] ?? ''}`;
 				href = `${eventPage}#coverage-heading`;
 				linkText = 'Coverage';
 				break;

@@ -4,7 +4,7 @@
  * side: their own team's claims stand out), and the completed observations' footprints.
  */
 import type { SessionUser } from '../people/auth';
-import { skymapDisplay } from '../alerts/events';
+import { skymapDisplay, skymapVersion } from '../alerts/events';
 import { eventFields, eventGalaxies } from './rankings';
 import { listClaims } from '../coordination/claims';
 import { listCandidates } from '../candidates/candidates';
@@ -38,6 +38,26 @@ export interface SkyViewData {
 const pct = formatProbability;
 
 /**
+ * Packed rasters and contours of the last few maps: a map's display is written once, when it is
+ * analysed, and reading plus packing it costs a few hundred ms (the replay asks for it at every step).
+ */
+const shown = new Map<string, { raster: DisplayRaster; contours: SkyContour[] }>();
+const SHOWN_MAPS = 4;
+function mapDisplay(skymapId: string): { raster: DisplayRaster | null; contours: SkyContour[] } {
+	// The row's file hash and time tell a rewritten row (a test database reusing an id) from the one cached.
+	const key = `${skymapId}|${skymapVersion(skymapId)}`;
+	const hit = shown.get(key);
+	if (hit) return hit;
+	const display = skymapDisplay(skymapId);
+	const contours = Array.isArray(display?.contours) ? (display.contours as SkyContour[]) : [];
+	if (!isStoredRaster(display)) return { raster: null, contours };
+	const packed = { raster: packRaster(display), contours };
+	if (shown.size >= SHOWN_MAPS) shown.delete(shown.keys().next().value!);
+	shown.set(key, packed);
+	return packed;
+}
+
+/**
  * The sky view for one viewer. Positions of the Sun and Moon are topocentric for a reference
  * point on the equator at longitude 0; the Moon's parallax (≤ 1°) is below what the overview shows.
  * With `asOf`, claims and candidates are shown as they stood at `now` (the replay; the claim's
@@ -51,7 +71,7 @@ export function eventSky(
 	now = new Date(),
 	o: { asOf?: boolean } = {}
 ): SkyViewData {
-	const display = skymapId ? skymapDisplay(skymapId) : null;
+	const display = skymapId ? mapDisplay(skymapId) : { raster: null, contours: [] };
 	const site = { latitudeDeg: 0, longitudeDeg: 0, elevationM: 0 };
 	const sun = sunPosition(site, now);
 	const moon = moonPosition(site, now);
@@ -141,8 +161,8 @@ export function eventSky(
 
 	return {
 		candidates,
-		raster: isStoredRaster(display) ? packRaster(display) : null,
-		contours: Array.isArray(display?.contours) ? (display.contours as SkyContour[]) : [],
+		raster: display.raster,
+		contours: display.contours,
 		sun: { raDeg: sun.raDeg, decDeg: sun.decDeg, avoidRadiusDeg: SUN_AVOID_DEG },
 		moon: { raDeg: moon.raDeg, decDeg: moon.decDeg, avoidRadiusDeg: MOON_AVOID_DEG, illumination: moonPhase(now).illumination },
 		targets,
