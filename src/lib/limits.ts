@@ -32,3 +32,9 @@ export const CATALOG_MAX_BYTES = 200 * 1024 * 1024;
  */
 export const RERANK_NOTABLE_PLACES = 5;
 export const RERANK_NOTABLE_PROBABILITY_CHANGE = 0.5;
+
+/** Entries per page of an event's timeline. */
+export const TIMELINE_PAGE_SIZE = 100;
+
+/** Wait after the replay slider stops moving before asking the server for that moment, ms. */
+export const REPLAY_DEBOUNCE_MS = 250;

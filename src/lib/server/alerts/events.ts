@@ -155,6 +155,12 @@ export function getEvent(eventId: string): EventDetail | null {
 	};
 }
 
+/** What tells one stored version of a sky-map row from another (file hash and row time), for caches keyed by id. */
+export function skymapVersion(skymapId: string): string {
+	const row = db.select({ sha256: table.skymap.sha256, createdAt: table.skymap.createdAt }).from(table.skymap).where(eq(table.skymap.id, skymapId)).get();
+	return row ? `${row.sha256 ?? ''}|${row.createdAt.getTime()}` : '';
+}
+
 /** The display raster and contours of a stored sky map (for the sky view). */
 export function skymapDisplay(skymapId: string): Record<string, unknown> | null {
 	return db.select({ display: table.skymap.display }).from(table.skymap).where(eq(table.skymap.id, skymapId)).get()?.display ?? null;

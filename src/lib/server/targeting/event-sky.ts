@@ -4,7 +4,7 @@
  * side: their own team's claims stand out), and the completed observations' footprints.
  */
 import type { SessionUser } from '../people/auth';
-import { skymapDisplay } from '../alerts/events';
+import { skymapDisplay, skymapVersion } from '../alerts/events';
 import { eventFields, eventGalaxies } from './rankings';
 import { listClaims } from '../coordination/claims';
 import { listCandidates } from '../candidates/candidates';
@@ -15,6 +15,7 @@ import type { DisplayRaster, SkyBody, SkyCandidate, SkyContour, SkyFootprint, Sk
 import { moonPhase, moonPosition, sunPosition } from '../../targeting/sun-moon.ts';
 import { footprintOf } from '../../targeting/telescope.ts';
 import { formatProbability } from '../../alerts/display.ts';
+import { claimStateAt } from '../../closeout/replay.ts';
 
 /** Display avoidance radii: the telescope defaults (telescope.min_sun/moon_separation_deg). */
 const SUN_AVOID_DEG = 45;
@@ -37,23 +38,52 @@ export interface SkyViewData {
 const pct = formatProbability;
 
 /**
+ * Packed rasters and contours of the last few maps: a map's display is written once, when it is
+ * analysed, and reading plus packing it costs a few hundred ms (the replay asks for it at every step).
+ */
+const shown = new Map<string, { raster: DisplayRaster; contours: SkyContour[] }>();
+const SHOWN_MAPS = 4;
+function mapDisplay(skymapId: string): { raster: DisplayRaster | null; contours: SkyContour[] } {
+	// The row's file hash and time tell a rewritten row (a test database reusing an id) from the one cached.
+	const key = `${skymapId}|${skymapVersion(skymapId)}`;
+	const hit = shown.get(key);
+	if (hit) return hit;
+	const display = skymapDisplay(skymapId);
+	const contours = Array.isArray(display?.contours) ? (display.contours as SkyContour[]) : [];
+	if (!isStoredRaster(display)) return { raster: null, contours };
+	const packed = { raster: packRaster(display), contours };
+	if (shown.size >= SHOWN_MAPS) shown.delete(shown.keys().next().value!);
+	shown.set(key, packed);
+	return packed;
+}
+
+/**
  * The sky view for one viewer. Positions of the Sun and Moon are topocentric for a reference
  * point on the equator at longitude 0; the Moon's parallax (≤ 1°) is below what the overview shows.
+ * With `asOf`, claims and candidates are shown as they stood at `now` (the replay; the claim's
+ * own times decide, src/lib/closeout/replay.ts), and candidates reported later are left out.
  */
 export function eventSky(
 	eventId: string,
 	skymapId: string | null,
 	viewer: SessionUser | null,
 	covered: EventCoverage | null,
-	now = new Date()
+	now = new Date(),
+	o: { asOf?: boolean } = {}
 ): SkyViewData {
-	const display = skymapId ? skymapDisplay(skymapId) : null;
+	const display = skymapId ? mapDisplay(skymapId) : { raster: null, contours: [] };
 	const site = { latitudeDeg: 0, longitudeDeg: 0, elevationM: 0 };
 	const sun = sunPosition(site, now);
 	const moon = moonPosition(site, now);
 
 	// The claim a target shows: an open one first, else a finished one; released and lapsed claims free it.
-	const live = listClaims(eventId).filter((c) => c.state !== 'released' && c.state !== 'lapsed');
+	const atMs = now.getTime();
+	const live = o.asOf
+		? listClaims(eventId).flatMap((c) => {
+				const state = claimStateAt({ claimedAtMs: c.claimedAt.getTime(), startedAtMs: c.startedAt?.getTime() ?? null, doneAtMs: c.doneAt?.getTime() ?? null, endedAtMs: c.endedAt?.getTime() ?? null }, atMs);
+				return state ? [{ ...c, state }] : [];
+			})
+		: listClaims(eventId).filter((c) => c.state !== 'released' && c.state !== 'lapsed');
 	const claimOf = new Map<string, (typeof live)[number]>();
 	for (const c of live) {
 		const key = `${c.targetKind}:${c.targetId}`;
@@ -113,7 +143,9 @@ export function eventSky(
 		label: `Observed: ${pct(f.probability)} of the map inside`
 	}));
 
-	const candidates: SkyCandidate[] = listCandidates(eventId).map((c) => ({
+	const candidates: SkyCandidate[] = listCandidates(eventId)
+		.filter((c) => !o.asOf || Date.parse(c.createdAt) <= atMs)
+		.map((c) => ({
 		id: c.id,
 		raDeg: c.raDeg,
 		decDeg: c.decDeg,
@@ -129,8 +161,8 @@ export function eventSky(
 
 	return {
 		candidates,
-		raster: isStoredRaster(display) ? packRaster(display) : null,
-		contours: Array.isArray(display?.contours) ? (display.contours as SkyContour[]) : [],
+		raster: display.raster,
+		contours: display.contours,
 		sun: { raDeg: sun.raDeg, decDeg: sun.decDeg, avoidRadiusDeg: SUN_AVOID_DEG },
 		moon: { raDeg: moon.raDeg, decDeg: moon.decDeg, avoidRadiusDeg: MOON_AVOID_DEG, illumination: moonPhase(now).illumination },
 		targets,

@@ -11,6 +11,8 @@ import { eventSky } from '$lib/server/targeting/event-sky';
 import { telescopesFor } from '$lib/server/people/scope';
 import { isWideField } from '$lib/targeting/telescope';
 import { claimsOutsideRanking } from '$lib/server/targeting/event-catalog';
+import { replayBounds } from '$lib/server/closeout/sky-replay';
+import { listClaims } from '$lib/server/coordination/claims';
 
 export const load: PageServerLoad = ({ params, locals, depends }) => {
 	requirePermission('events.view');
@@ -32,6 +34,9 @@ export const load: PageServerLoad = ({ params, locals, depends }) => {
 		// The report page is only useful to someone with a telescope to report for.
 		mayReport: Boolean(user && telescopesFor(user).length && can({ user }, 'observations.report')),
 		sky: eventSky(event.id, current?.id ?? null, user, covered),
+		// The replay slider's range (first notice to close or now) and the moments where the picture changes.
+		replay: replayBounds(event.id),
+		openClaims: listClaims(event.id, { openOnly: true }).length,
 		coverage: covered && {
 			observations: covered.observations,
 			union: covered.union,
