@@ -32,3 +32,9 @@ export const CATALOG_MAX_BYTES = 200 * 1024 * 1024;
  */
 export const RERANK_NOTABLE_PLACES = 5;
 export const RERANK_NOTABLE_PROBABILITY_CHANGE = 0.5;
+
+/** Longest note a coordinator may give when closing or reopening an event. */
+export const CLOSE_NOTE_MAX_CHARS = 2000;
+
+/** Closed events per page in the archive. */
+export const ARCHIVE_PAGE_SIZE = 20;
