@@ -14,7 +14,13 @@ import '../../field-messages';
 /** The most closed events the archive searches (newest first). */
 const ARCHIVE_SCAN_LIMIT = 5000;
 
-const day = z.string().trim().regex(/^\d{4}-\d{2}-\d{2}$/, 'Give the date as YYYY-MM-DD.').refine((s) => !Number.isNaN(Date.parse(`${s}T00:00:00Z`)), 'That date does not exist.');
+/** Whether a YYYY-MM-DD is a day of the calendar (JavaScript's parser rolls 2026-02-30 over to 2 March). */
+function realDay(s: string): boolean {
+	const t = Date.parse(`${s}T00:00:00Z`);
+	return !Number.isNaN(t) && new Date(t).toISOString().slice(0, 10) === s;
+}
+
+const day = z.string().trim().regex(/^\d{4}-\d{2}-\d{2}$/, 'Give the date as YYYY-MM-DD.').refine(realDay, 'That date does not exist.');
 const area = z.coerce.number({ error: 'Give the area as a number of square degrees.' }).min(0, 'The area cannot be negative.').max(41_253, 'The whole sky is 41 253 deg².');
 
 /** The archive's filters as the page's query string gives them ('' = not set). Each refused value is named; the others still apply. */
