@@ -70,6 +70,11 @@ export interface LivePayloads {
 	'skymap.failed': EventNotice & { error: string };
 	'triage.policy-changed': { policy: TriagePolicyInput };
 
+	// ── close-out ──
+	/** `reason`: one of CLOSE_REASONS (event-view.ts); `by`: the coordinator's name. */
+	'event.closed': { eventId: string; reason: string; note: string | null; by: string };
+	'event.reopened': { eventId: string; note: string | null; by: string };
+
 	// ── duty ──
 	'duty.paged': EventNotice & { level: number; to: string[]; fallback: boolean };
 	'duty.escalated': EventNotice & { level: number; from: string[]; to: string[]; fallback: boolean };
@@ -196,6 +201,8 @@ export const ACTION_TOPIC: { readonly [A in LiveAction]: LiveTopic } = {
 	'skymap.analysed': 'alerts',
 	'skymap.failed': 'alerts',
 	'triage.policy-changed': 'alerts',
+	'event.closed': 'alerts',
+	'event.reopened': 'alerts',
 	'duty.paged': 'duty',
 	'duty.escalated': 'duty',
 	'duty.escalation-exhausted': 'duty',

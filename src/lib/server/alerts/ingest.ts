@@ -304,7 +304,7 @@ function storeNotice(n: ParsedNotice, inboxId: number): Stored {
 				.get();
 			eventCreated = true;
 		}
-		const before = event.state;
+		const retractedBefore = event.retractedAt !== null;
 		let noticeId: string;
 		if (existingNotice) {
 			noticeId = existingNotice.id;
@@ -335,7 +335,8 @@ function storeNotice(n: ParsedNotice, inboxId: number): Stored {
 			eventId: event.id,
 			noticeId,
 			eventCreated,
-			becameRetracted: before !== 'retracted' && after.state === 'retracted',
+			// A closed event stays closed, but its teams still hear of the retraction.
+			becameRetracted: !retractedBefore && after.retractionNoticeId !== null,
 			retractionNoticeId: after.retractionNoticeId
 		};
 	});
@@ -364,7 +365,8 @@ function refreshEvent(tx: Tx, eventId: string): { state: table.GwEvent['state'];
 		.orderBy(asc(table.notice.authoredAt), asc(table.skymap.createdAt))
 		.all();
 	const map = maps.at(-1) ?? null;
-	const state: table.GwEvent['state'] = retraction ? 'retracted' : event.state === 'retracted' ? 'active' : event.state;
+	// A coordinator's close stands whatever arrives; reopening it finds 'retracted' again (closeout/close.ts).
+	const state: table.GwEvent['state'] = event.state === 'closed' ? 'closed' : retraction ? 'retracted' : 'active';
 	const eventTime = (content?.parsed as { eventTime?: string | null } | undefined)?.eventTime;
 	const next = {
 		state,

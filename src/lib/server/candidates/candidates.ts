@@ -16,6 +16,7 @@ import { can } from '../people/permissions';
 import { DomainError } from '../platform/errors';
 import { actsForEveryTeam, mayUseTeam, mayUseTelescope } from '../people/scope';
 import { getTelescope } from '../people/telescopes';
+import { assertEventOpen } from '../alerts/events';
 import '../../field-messages';
 
 const MIN = 60_000;
@@ -219,6 +220,7 @@ export function reportCandidate(reporter: CandidateReporter, raw: CandidateInput
 	const eventId = typeof raw?.eventId === 'string' ? raw.eventId : '';
 	const event = db.select().from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
 	if (!event) throw new CandidateError(404, 'not_found', `No event ${eventId || '(none given)'}.`);
+	assertEventOpen(event, 'new candidates are not taken');
 	if (event.state === 'retracted')
 		throw new CandidateError(409, 'event_retracted', `Event ${event.sourceEventId} was retracted by its source; new candidates are not taken, so that no telescope time goes to a false alert.`);
 	const parsed = candidateInput.safeParse(raw);

@@ -13,6 +13,7 @@ const NAV: readonly (NavItem & { permission: Permission })[] = [
 	{ href: '/', label: 'Board', permission: 'board.view' },
 	{ href: '/events', label: 'Events', permission: 'events.view' },
 	{ href: '/candidates', label: 'Candidates', permission: 'events.view' },
+	{ href: '/archive', label: 'Archive', permission: 'events.view' },
 	{ href: '/telescopes', label: 'Telescopes', permission: 'telescopes.view' },
 	{ href: '/teams', label: 'Teams', permission: 'teams.view' },
 	{ href: '/roster', label: 'Roster', permission: 'board.view' },

@@ -47,7 +47,9 @@ export const PERMISSIONS = {
 	'candidates.classify': { roles: ['spectroscopist', 'coordinator'] },
 	'candidates.decide': { roles: ['duty', 'observer', 'spectroscopist', 'coordinator'] },
 	'candidates.discuss': { roles: ['admin', 'coordinator', 'duty', 'observer', 'spectroscopist'] },
-	'kilonova.thresholds': { roles: ['coordinator'] }
+	'kilonova.thresholds': { roles: ['coordinator'] },
+	/** Close an event (its claims and spectrum takes are released; new work is refused) and reopen it. */
+	'events.close': { roles: ['coordinator'] }
 } as const satisfies Record<string, { roles: readonly Role[]; robot?: boolean }>;
 
 export type Permission = keyof typeof PERMISSIONS;

@@ -3,6 +3,7 @@ import { ROLES_LIST } from '../../../roles';
 import type { SkymapSummary } from '../../../sky/index';
 import { NOTIFICATION_KINDS, QUIET_ACTIONS, type KindChoice, type NotificationKind, type SourceClass } from '../../../notifications';
 import type { Classification, TriageVerdict } from '../../../event-view';
+import { CLOSE_REASONS } from '../../../event-view';
 import type { KilonovaVerdict, ThresholdChanges } from '../../../candidates/rules';
 import type { CandidateVetting } from '../../../candidates/vetting';
 import type { SpectrumFormat, SpectrumSummary } from '../../../candidates/spectrum';
@@ -300,7 +301,11 @@ export const gwEvent = sqliteTable(
 		catalogId: text('catalog_id').references(() => catalog.id, { onDelete: 'set null' }),
 		triage: text('triage', { mode: 'json' }).$type<TriageVerdict>(),
 		retractedAt: integer('retracted_at', { mode: 'timestamp_ms' }),
+		/** While closed: when, why, the closer's note and who (cleared on reopening; the event log keeps the history). */
 		closedAt: integer('closed_at', { mode: 'timestamp_ms' }),
+		closeReason: text('close_reason', { enum: CLOSE_REASONS }),
+		closeNote: text('close_note'),
+		closedBy: text('closed_by').references(() => user.id, { onDelete: 'set null' }),
 		createdAt: createdAt(),
 		updatedAt: integer('updated_at', { mode: 'timestamp_ms' })
 	},

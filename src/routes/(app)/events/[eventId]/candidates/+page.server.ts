@@ -27,7 +27,7 @@ export const load: PageServerLoad = ({ params, locals, depends }) => {
 	const candidates = listCandidates(event.eventId);
 	const vetted = vettingSummaries(candidates.map((c) => c.id));
 	return {
-		event: { id: event.eventId, sourceEventId: event.sourceEventId, state: event.state },
+		event: { id: event.eventId, sourceEventId: event.sourceEventId, state: event.state, closure: event.closure },
 		candidates: candidates.map((c) => ({ ...c, ...vetted.get(c.id)! })),
 		canReport,
 		mayReportObservations: Boolean(locals.user && can({ user: locals.user }, 'observations.report') && choices(locals.user).telescopes.length),
