@@ -32,3 +32,11 @@ export const CATALOG_MAX_BYTES = 200 * 1024 * 1024;
  */
 export const RERANK_NOTABLE_PLACES = 5;
 export const RERANK_NOTABLE_PROBABILITY_CHANGE = 0.5;
+
+/**
+ * Largest position uncertainty (radius, arcsec) a candidate may be reported with. Optical
+ * astrometry of a transient is good to well under an arcsecond against a reference catalogue, and
+ * a wide-field camera with arcsecond-scale pixels states a few arcseconds (common practice); a
+ * minute of arc is already more than the 2″ duplicate check and a slit could use.
+ */
+export const POSITION_ERR_ARCSEC_MAX = 60;

@@ -22,6 +22,7 @@ import { readSkyMap, type SkyMap } from '../../sky/index.ts';
 import { checkThresholds, DEFAULT_KILONOVA_THRESHOLDS, RULES, withDefaults, type KilonovaThresholds, type KilonovaVerdict, type RuleId, type ThresholdChanges } from '../../candidates/rules.ts';
 import { lookUpDirections, vetCandidate, type CandidateVetting, type RankedGalaxy } from '../../candidates/vetting.ts';
 import type { PhotometryPoint } from '../../candidates/photometry.ts';
+import { positionErrText } from '../../candidates/position.ts';
 import { CandidateError, fieldErrorsOf } from './candidates';
 import { candidateLink, candidateRecipients, mailRecipients } from './notify';
 import { eventClassOf } from '../people/notifications';
@@ -380,7 +381,7 @@ function announceKilonovaLike(event: table.GwEvent, c: table.Candidate, v: Candi
 					'',
 					...v.rules.reasons.map((x) => `  • ${x}`),
 					'',
-					`Position: RA ${c.raDeg.toFixed(5)}°, Dec ${c.decDeg.toFixed(5)}°; discovered ${c.discoveredAt.toISOString()} at ${c.magnitude} mag (${c.filter}).`,
+					`Position: RA ${c.raDeg.toFixed(5)}°, Dec ${c.decDeg.toFixed(5)}°${positionErrText(c.positionErrArcsec)}; discovered ${c.discoveredAt.toISOString()} at ${c.magnitude} mag (${c.filter}).`,
 					v.hosts.note,
 					'',
 					`Candidate page: ${link}`,
