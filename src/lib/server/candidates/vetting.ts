@@ -19,7 +19,7 @@ import { restartService } from '../platform/services';
 import type { SessionUser } from '../people/auth';
 import { can } from '../people/permissions';
 import { readSkyMap, type SkyMap } from '../../sky/index.ts';
-import { checkThresholds, DEFAULT_KILONOVA_THRESHOLDS, RULES, withDefaults, type KilonovaThresholds, type KilonovaVerdict, type RuleId, type ThresholdChanges } from '../../candidates/rules.ts';
+import { thresholdProblems, DEFAULT_KILONOVA_THRESHOLDS, RULES, withDefaults, type KilonovaThresholds, type KilonovaVerdict, type RuleId, type ThresholdChanges } from '../../candidates/rules.ts';
 import { lookUpDirections, vetCandidate, type CandidateVetting, type RankedGalaxy } from '../../candidates/vetting.ts';
 import type { PhotometryPoint } from '../../candidates/photometry.ts';
 import { positionErrText } from '../../candidates/position.ts';
@@ -105,7 +105,8 @@ export function currentThresholds(): ThresholdsView {
 
 /**
  * Replace the coordinators' changes to the thresholds (`{}` returns to the defaults). Refused as
- * CandidateError 403 without the permission, 422 with every problem named. Logs
+ * CandidateError 403 without the permission, 422 with every problem named (per value, keyed by its
+ * path: `fastFade.minRateMagPerDay`). Logs
  * `kilonova.thresholds-changed` to the board and recomputes the vetting of every candidate of
  * the events not retracted (queued; `vettingIdle()` resolves when done).
  */
@@ -119,8 +120,13 @@ export function setThresholds(user: SessionUser, raw: unknown, now = new Date())
 		throw new CandidateError(422, 'invalid', message, fields);
 	}
 	const changes = parsed.data as ThresholdChanges;
-	const problems = checkThresholds(withDefaults(changes));
-	if (problems.length) throw new CandidateError(422, 'invalid', `The thresholds cannot be used: ${problems.join('; ')}.`, { thresholds: problems.join('; ') });
+	const problems = thresholdProblems(withDefaults(changes));
+	if (problems.length) {
+		// Per value, as a sentence (the form puts it beside its field; the API's details are keyed by the same paths).
+		const fields: Record<string, string> = {};
+		for (const p of problems) fields[p.field] ??= `${p.message.charAt(0).toUpperCase()}${p.message.slice(1)}.`;
+		throw new CandidateError(422, 'invalid', `The thresholds cannot be used: ${problems.map((p) => p.message).join('; ')}.`, fields);
+	}
 	db.insert(table.kilonovaRules)
 		.values({ id: 1, changes, updatedBy: user.id, updatedAt: now })
 		.onConflictDoUpdate({ target: table.kilonovaRules.id, set: { changes, updatedBy: user.id, updatedAt: now } })
