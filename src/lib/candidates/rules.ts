@@ -236,6 +236,13 @@ export function thresholdProblems(t: KilonovaThresholds): ThresholdProblem[] {
 	return problems;
 }
 
+/** The first problem of each value as a sentence, keyed by the value's path (for a form's fields and the API's details). */
+export function problemsByField(problems: readonly ThresholdProblem[]): Record<string, string> {
+	const fields: Record<string, string> = {};
+	for (const p of problems) fields[p.field] ??= `${p.message.charAt(0).toUpperCase()}${p.message.slice(1)}.`;
+	return fields;
+}
+
 /** What is wrong with a set of thresholds, in plain words; empty when they can be used. */
 export function checkThresholds(t: KilonovaThresholds): string[] {
 	return thresholdProblems(t).map((p) => p.message);

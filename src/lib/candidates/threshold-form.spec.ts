@@ -70,6 +70,11 @@ describe('the kilonova thresholds as a form', () => {
 			'peakLuminosity.filters': 'Filters for the brightness: give at least one filter name.',
 			'credibleRegion.level': 'Credible level is missing.'
 		});
+		// A value that reads but is out of range is named in the same round as one that does not read.
+		expect(thresholdsFromForm({ ...defaults(), 'fastFade.minRateMagPerDay': 'fast', 'fastFade.withinDays': '90' }).errors).toEqual({
+			'fastFade.minRateMagPerDay': 'Fade rate (mag/day) must be a number.',
+			'fastFade.withinDays': 'The fade window must be between 0.5 days and 60 days.'
+		});
 		expect(thresholdsFromForm({ ...defaults(), 'reddening.colours': 'r−r' }).errors).toEqual({ 'reddening.colours': 'Colours: “r−r” pairs a filter with itself.' });
 	});
 

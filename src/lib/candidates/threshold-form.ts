@@ -8,8 +8,10 @@
 import { z } from 'zod';
 import {
 	DEFAULT_KILONOVA_THRESHOLDS,
+	problemsByField,
 	RULES,
 	THRESHOLD_RANGES,
+	thresholdProblems,
 	type KilonovaThresholds,
 	type RuleId,
 	type RuleSource,
@@ -54,7 +56,7 @@ export const THRESHOLD_SECTIONS: ThresholdSection[] = [
 			{
 				name: 'credibleRegion.level',
 				label: 'Credible level',
-				unit: 'fraction',
+				unit: '',
 				meaning: 'The candidate must lie inside the smallest part of the sky map holding this share of the probability (0.9 = the 90% region).',
 				kind: 'number'
 			}
@@ -117,7 +119,7 @@ export const THRESHOLD_SECTIONS: ThresholdSection[] = [
 				meaning: 'A measured rate or magnitude decides a rule only when it clears the threshold by this many standard errors.',
 				kind: 'number'
 			},
-			{ name: 'verdict.minRulesMet', label: 'Rules to meet', unit: 'rules', meaning: 'With none failed, this many rules met make a candidate kilonova-like.', kind: 'integer' },
+			{ name: 'verdict.minRulesMet', label: 'Rules to meet', unit: '', meaning: 'With none failed, this many rules met make a candidate kilonova-like.', kind: 'integer' },
 			{
 				name: 'verdict.needLightCurveRule',
 				label: 'One of them must be fading or reddening',
@@ -160,7 +162,7 @@ export function formValuesOf(t: KilonovaThresholds): Record<string, string> {
 	return Object.fromEntries(THRESHOLD_FIELDS.map((f) => [f.name, fieldText(t, f)]));
 }
 
-const labelOf = (f: ThresholdField) => (f.unit && f.unit !== 'fraction' && f.unit !== 'rules' ? `${f.label} (${f.unit})` : f.label);
+const labelOf = (f: ThresholdField) => (f.unit ? `${f.label} (${f.unit})` : f.label);
 
 function numberField(f: ThresholdField) {
 	const label = labelOf(f);
@@ -256,24 +258,28 @@ export const thresholdForm = z.object(
 
 /**
  * Read a submitted form (field name → text; a checkbox left unticked is absent) into thresholds,
- * or the message for each field that could not be read. Ranges are not checked here: the
- * thresholds go through `thresholdProblems` when saved.
+ * or the message for each field that needs fixing: the ones that cannot be read, and at the same
+ * time those the rules' own check (`thresholdProblems`) refuses, judged with the defaults in place
+ * of the unreadable ones, so that one round of fixing is enough. The saved thresholds go through
+ * the same check again.
  */
 export function thresholdsFromForm(values: Record<string, unknown>): { thresholds: KilonovaThresholds; errors?: never } | { errors: Record<string, string>; thresholds?: never } {
-	const parsed = thresholdForm.safeParse(values);
-	if (!parsed.success) {
-		const errors: Record<string, string> = {};
-		for (const issue of parsed.error.issues) errors[String(issue.path[0] ?? '_form')] ??= issue.message;
-		return { errors };
-	}
-	const v = parsed.data as Record<string, unknown>;
+	const errors: Record<string, string> = {};
 	const t = structuredClone(DEFAULT_KILONOVA_THRESHOLDS) as unknown as Record<string, Record<string, unknown>>;
 	for (const f of THRESHOLD_FIELDS) {
+		const parsed = thresholdForm.shape[f.name].safeParse(values[f.name]);
+		if (!parsed.success) {
+			errors[f.name] = parsed.error.issues[0]?.message ?? `${f.label} cannot be read.`;
+			continue;
+		}
 		const [section, key] = f.name.split('.');
-		if (key === undefined) (t as Record<string, unknown>)[section] = v[f.name];
-		else t[section][key] = v[f.name];
+		if (key === undefined) (t as Record<string, unknown>)[section] = parsed.data;
+		else t[section][key] = parsed.data;
 	}
-	return { thresholds: t as unknown as KilonovaThresholds };
+	const thresholds = t as unknown as KilonovaThresholds;
+	if (Object.keys(errors).length === 0) return { thresholds };
+	for (const [field, message] of Object.entries(problemsByField(thresholdProblems(thresholds)))) errors[field] ??= message;
+	return { errors };
 }
 
 /** The coordinators' changes: only the values that differ from `defaults`, section by section (`{}` when none do). */

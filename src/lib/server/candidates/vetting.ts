@@ -19,7 +19,7 @@ import { restartService } from '../platform/services';
 import type { SessionUser } from '../people/auth';
 import { can } from '../people/permissions';
 import { readSkyMap, type SkyMap } from '../../sky/index.ts';
-import { thresholdProblems, DEFAULT_KILONOVA_THRESHOLDS, RULES, withDefaults, type KilonovaThresholds, type KilonovaVerdict, type RuleId, type ThresholdChanges } from '../../candidates/rules.ts';
+import { problemsByField, thresholdProblems, DEFAULT_KILONOVA_THRESHOLDS, RULES, withDefaults, type KilonovaThresholds, type KilonovaVerdict, type RuleId, type ThresholdChanges } from '../../candidates/rules.ts';
 import { lookUpDirections, vetCandidate, type CandidateVetting, type RankedGalaxy } from '../../candidates/vetting.ts';
 import type { PhotometryPoint } from '../../candidates/photometry.ts';
 import { positionErrText } from '../../candidates/position.ts';
@@ -122,10 +122,8 @@ export function setThresholds(user: SessionUser, raw: unknown, now = new Date())
 	const changes = parsed.data as ThresholdChanges;
 	const problems = thresholdProblems(withDefaults(changes));
 	if (problems.length) {
-		// Per value, as a sentence (the form puts it beside its field; the API's details are keyed by the same paths).
-		const fields: Record<string, string> = {};
-		for (const p of problems) fields[p.field] ??= `${p.message.charAt(0).toUpperCase()}${p.message.slice(1)}.`;
-		throw new CandidateError(422, 'invalid', `The thresholds cannot be used: ${problems.map((p) => p.message).join('; ')}.`, fields);
+		// Per value too (the form puts each beside its field; the API's details are keyed by the same paths).
+		throw new CandidateError(422, 'invalid', `The thresholds cannot be used: ${problems.map((p) => p.message).join('; ')}.`, problemsByField(problems));
 	}
 	db.insert(table.kilonovaRules)
 		.values({ id: 1, changes, updatedBy: user.id, updatedAt: now })
