@@ -128,6 +128,7 @@ export interface LivePayloads {
 		name: string;
 		raDeg: number;
 		decDeg: number;
+		positionErrArcsec: number | null;
 		magnitude: number;
 		filter: string;
 		teamId: string;

@@ -47,6 +47,9 @@ const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean; allowed
 	{ path: '/inbox/streams?/save', allowed: ['admin', 'coordinator'] },
 	{ path: '/inbox/streams?/reset', allowed: ['admin', 'coordinator'] },
 	{ path: '/catalogs/upload', allowed: ['admin', 'coordinator'] },
+	// The kilonova rules: an empty form is refused field by field; restoring the defaults needs no input (the thresholds are the defaults here already).
+	{ path: '/candidates/rules?/save', allowed: ['coordinator'] },
+	{ path: '/candidates/rules?/restore', allowed: ['coordinator'], ok: true },
 	// Event pages, on an event of the matrix's own (published in beforeAll).
 	{ path: '/events/{eventId}?/acknowledge', allowed: ['duty', 'coordinator'] },
 	// Closing needs a reason and a tick (400 without); reopening an event that is not closed is refused (409): nothing changes.

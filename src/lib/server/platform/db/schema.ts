@@ -727,6 +727,8 @@ export const candidate = sqliteTable(
 		name: text('name').notNull(),
 		raDeg: real('ra_deg').notNull(),
 		decDeg: real('dec_deg').notNull(),
+		/** Radius of the position's uncertainty as the team states it, arcsec; null when none was given. */
+		positionErrArcsec: real('position_err_arcsec'),
 		discoveredAt: integer('discovered_at', { mode: 'timestamp_ms' }).notNull(),
 		/** AB magnitude at discovery. */
 		magnitude: real('magnitude').notNull(),
