@@ -264,7 +264,10 @@ export const noticeInbox = sqliteTable(
 		id: integer('id').primaryKey({ autoIncrement: true }),
 		/** From the XML; a malformed notice gets a synthetic key so that its raw text is still kept. */
 		ivorn: text('ivorn').notNull().unique(),
+		/** The notice as received, whatever its format (the column's name predates JSON notices). */
 		rawXml: text('raw_xml').notNull(),
+		/** Which reader the raw text needs: VOEvent XML or a JSON notice (src/lib/alerts/notice-json.ts). */
+		format: text('format', { enum: ['voevent', 'json'] }).notNull().default('voevent'),
 		via: text('via', { enum: ['vtp', 'api', 'upload', 'backfill'] }).notNull(),
 		receivedAt: integer('received_at', { mode: 'timestamp_ms' }).notNull(),
 		processedAt: integer('processed_at', { mode: 'timestamp_ms' }),
