@@ -301,10 +301,10 @@ export function buildJsonNotice(n: {
 	createdAt: string;
 	event: null | {
 		time: string;
-		farHz: number;
+		farHz: number | null;
 		significant: boolean;
 		instruments: string[];
-		classification: { BNS: number; NSBH: number; BBH: number; Terrestrial: number };
+		classification: Partial<{ BNS: number; NSBH: number; BBH: number; Terrestrial: number }>;
 		properties: { HasNS: number; HasRemnant: number; HasMassGap: number } | null;
 		skymap: Uint8Array | null;
 	};
