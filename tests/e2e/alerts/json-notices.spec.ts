@@ -99,6 +99,17 @@ test('a JSON notice uploaded by hand becomes an event with the map it carries an
 	}).toPass({ timeout: 15_000 });
 	await page.setViewportSize({ width: 390, height: 844 });
 	await page.screenshot({ path: `${SCREENS}/json-notice-2-targets-phone.png`, fullPage: true });
+	await page.setViewportSize({ width: 1280, height: 900 });
+
+	// An update without a map: the same event, which keeps the map it has; then a retraction.
+	const area90 = formatArea(analyseSkymap(new Uint8Array(map)).area90);
+	await uploadFile(page, `${BY_HAND}-update.json`, jsonNotice(BY_HAND, 'update', null));
+	await expect(page.getByTestId('timeline-item')).toHaveCount(2, { timeout: 15_000 });
+	await expect(page.getByTestId('timeline-item').filter({ hasText: 'no map' })).toHaveCount(1);
+	await expect(page.getByTestId('area90')).toHaveText(area90);
+	await uploadFile(page, `${BY_HAND}-retraction.json`, jsonNotice(BY_HAND, 'retraction', null));
+	await expect(page.locator('[data-testid="timeline-item"][data-kind="retraction"]')).toHaveCount(1, { timeout: 15_000 });
+	expect(new URL(page.url()).pathname).toBe(`/events/${eventId}`);
 });
 
 test('the API takes JSON notices by Content-Type: initial with its map, a repeat, an update without one, a retraction, and refuses hostile ones in words', async ({ page }) => {
