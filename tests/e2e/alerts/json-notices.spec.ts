@@ -16,13 +16,14 @@ mkdirSync(WORK, { recursive: true });
 const BY_HAND = 'SX30120201';
 const BY_API = 'SX30120202';
 const RETRACTED = 'SX30120203';
+const UPDATED_BY_HAND = 'SX30120205';
 
 // Leave the board as the other tests expect: remove this file's events.
 test.afterAll(() => {
 	const sqlite = new Database(process.env.DATABASE_URL ?? 'tests/e2e/.artifacts/e2e.sqlite');
 	sqlite.pragma('busy_timeout = 5000');
 	sqlite.pragma('foreign_keys = ON');
-	sqlite.prepare('DELETE FROM gw_event WHERE source_event_id IN (?, ?, ?)').run(BY_HAND, BY_API, RETRACTED);
+	sqlite.prepare('DELETE FROM gw_event WHERE source_event_id IN (?, ?, ?, ?)').run(BY_HAND, BY_API, RETRACTED, UPDATED_BY_HAND);
 	// The refused notices stay in the inbox, as they should; remove them too.
 	sqlite.prepare("DELETE FROM notice_inbox WHERE format = 'json' AND processed_at IS NOT NULL AND error IS NOT NULL").run();
 	sqlite.close();
@@ -99,17 +100,6 @@ test('a JSON notice uploaded by hand becomes an event with the map it carries an
 	}).toPass({ timeout: 15_000 });
 	await page.setViewportSize({ width: 390, height: 844 });
 	await page.screenshot({ path: `${SCREENS}/json-notice-2-targets-phone.png`, fullPage: true });
-	await page.setViewportSize({ width: 1280, height: 900 });
-
-	// An update without a map: the same event, which keeps the map it has; then a retraction.
-	const area90 = formatArea(analyseSkymap(new Uint8Array(map)).area90);
-	await uploadFile(page, `${BY_HAND}-update.json`, jsonNotice(BY_HAND, 'update', null));
-	await expect(page.getByTestId('timeline-item')).toHaveCount(2, { timeout: 15_000 });
-	await expect(page.getByTestId('timeline-item').filter({ hasText: 'no map' })).toHaveCount(1);
-	await expect(page.getByTestId('area90')).toHaveText(area90);
-	await uploadFile(page, `${BY_HAND}-retraction.json`, jsonNotice(BY_HAND, 'retraction', null));
-	await expect(page.locator('[data-testid="timeline-item"][data-kind="retraction"]')).toHaveCount(1, { timeout: 15_000 });
-	expect(new URL(page.url()).pathname).toBe(`/events/${eventId}`);
 });
 
 test('the API takes JSON notices by Content-Type: initial with its map, a repeat, an update without one, a retraction, and refuses hostile ones in words', async ({ page }) => {
@@ -148,4 +138,25 @@ test('the API takes JSON notices by Content-Type: initial with its map, a repeat
 	expect(await refused(other.replace('"far": 3e-10', '"far": 1e999'))).toBe('event.far must be a finite number (Hz)');
 	expect(await refused(other.replace('"significant": true', '"significant": "yes"'))).toBe('event.significant must be true or false');
 	expect((await post(readFileSync('tests/fixtures/notices/json/retraction.json', 'utf8'), 'application/octet-stream')).status()).toBe(415);
+});
+
+test('an update without a map and a retraction, uploaded by hand as JSON, join their event, which keeps its map', async ({ page }) => {
+	test.setTimeout(45_000);
+	await signInAs(page, 'coordinator');
+	const map = nightMap(UPDATED_BY_HAND);
+	const t0 = Date.now() - 120_000;
+	const created = await page.request.post('/api/v1/notices', { data: jsonNotice(UPDATED_BY_HAND, 'initial', map, new Date(t0)), headers: { 'content-type': 'application/json' } });
+	expect(created.status()).toBe(201);
+	const { eventId } = (await created.json()) as { eventId: string };
+
+	await uploadFile(page, `${UPDATED_BY_HAND}-update.json`, jsonNotice(UPDATED_BY_HAND, 'update', null, new Date(t0 + 30_000)));
+	await expect(page.getByTestId('event-page')).toBeVisible({ timeout: 20_000 });
+	expect(new URL(page.url()).pathname).toBe(`/events/${eventId}`);
+	await expect(page.getByTestId('timeline-item')).toHaveCount(2);
+	await expect(page.getByTestId('timeline-item').filter({ hasText: 'no map' })).toHaveCount(1);
+	await expect(page.getByTestId('area90')).toHaveText(formatArea(analyseSkymap(new Uint8Array(map)).area90));
+
+	await uploadFile(page, `${UPDATED_BY_HAND}-retraction.json`, jsonNotice(UPDATED_BY_HAND, 'retraction', null, new Date(t0 + 60_000)));
+	await expect(page.getByTestId('event-page')).toBeVisible({ timeout: 20_000 });
+	await expect(page.locator('[data-testid="timeline-item"][data-kind="retraction"]')).toHaveCount(1);
 });
