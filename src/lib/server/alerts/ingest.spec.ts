@@ -559,6 +559,8 @@ describe('ingest: VOEvent semantics and stream vocabularies', () => {
 		expect((await ingest(std('cdata-whitespace.xml'))).outcome).toBe('notice-added');
 		const event = database.select().from(table.gwEvent).get()!;
 		expect(event).toMatchObject({ id: 'sx30050202', latestKind: 'update', farHz: 3e-12 });
+	});
+});
 
 describe('ingest: JSON notices carry their sky map', () => {
 	it('stores and analyses the embedded map exactly like a fetched one, keeping the raw JSON and its format in the inbox', async () => {
