@@ -105,7 +105,7 @@ test('an unsubscribe link from a received mail works signed out, after a confirm
 		return ctx;
 	};
 	const coordinator = await api('coordinator');
-	const xml = readFileSync('tests/fixtures/notices/bns-initial.xml', 'utf8').replaceAll('SX30041207', 'SX30120201');
+	const xml = readFileSync('tests/fixtures/notices/bns-initial.xml', 'utf8').replaceAll('SX30041207', 'SX30120221');
 	const published = await coordinator.post('/api/v1/notices', { data: xml, headers: { 'content-type': 'application/xml' } });
 	expect(published.status(), await published.text()).toBe(201);
 	eventId = (await published.json()).eventId;

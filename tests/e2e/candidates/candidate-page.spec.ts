@@ -8,7 +8,7 @@ import { nightPeak, publishNightEvent } from '../support/events';
 const SCREENS = 'test-results/screens';
 mkdirSync(SCREENS, { recursive: true });
 
-const SOURCE_ID = 'SX30120201';
+const SOURCE_ID = 'SX30120231';
 const VERDICT = 'kilonova-like';
 /** What "live" means here: each step shows on the watching page within this long, without a reload. */
 const LIVE_MS = 5_000;

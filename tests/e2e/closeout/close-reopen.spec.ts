@@ -7,7 +7,7 @@ import { BASE_URL } from '../../../playwright.config';
 
 const SCREENS = 'test-results/screens';
 mkdirSync(SCREENS, { recursive: true });
-const SOURCE_ID = 'SX30120201';
+const SOURCE_ID = 'SX30120211';
 let eventId = '';
 
 /** One pointing on the report page: the first telescope, its first filter, a minute ago. */
