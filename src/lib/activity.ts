@@ -58,6 +58,7 @@ const PHRASES: { readonly [A in LiveAction]: string } = {
 	'skymap.failed': 'Sky map could not be used',
 	'event.retracted': 'Event retracted by the source',
 	'triage.policy-changed': 'Triage policy changed',
+	'event.closed': 'Event closed',
 	'catalog.progress': 'Catalogue import under way'
 };
 

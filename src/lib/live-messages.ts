@@ -69,6 +69,8 @@ export interface LivePayloads {
 	'skymap.analysed': EventNotice & { skymapId: string; summary: SkymapSummary; retried?: number };
 	'skymap.failed': EventNotice & { error: string };
 	'triage.policy-changed': { policy: TriagePolicyInput };
+	/** A coordinator closed the event (close-out stage); the record is then sent to the mailing list. */
+	'event.closed': { eventId: string; reason: string; note: string | null; by: string };
 
 	// ── duty ──
 	'duty.paged': EventNotice & { level: number; to: string[]; fallback: boolean };
@@ -196,6 +198,7 @@ export const ACTION_TOPIC: { readonly [A in LiveAction]: LiveTopic } = {
 	'skymap.analysed': 'alerts',
 	'skymap.failed': 'alerts',
 	'triage.policy-changed': 'alerts',
+	'event.closed': 'alerts',
 	'duty.paged': 'duty',
 	'duty.escalated': 'duty',
 	'duty.escalation-exhausted': 'duty',

@@ -17,7 +17,7 @@ export const KILONOVA_MODEL = {
 	name: 'AT2017gfo-like kilonova',
 	peakAbsoluteMag: KILONOVA_PEAK_ABS_MAG,
 	source:
-		'Peak absolute magnitude about −16 for an AT2017gfo-like kilonova (value from memory); apparent magnitude m = M + 5 log10(d / 10 pc), no K-correction or extinction.'
+		'peak absolute magnitude M = −16 (AT2017gfo, value from memory); apparent magnitude m = M + 5 log10(d / 10 pc), without K-correction or extinction.'
 } as const;
 
 /** Distance modulus μ = 5 log10(d / 10 pc) for a distance in Mpc. */

@@ -97,7 +97,7 @@ export function reportMarkdown(r: EventReport): string {
 						.filter((f) => f.rateMagPerDay !== null)
 						.map((f) => `; ${f.filter} ${signedRate(f.rateMagPerDay!)} mag/d`)
 						.join(''),
-				k.classification.text
+				k.classification.text.replace(/\.$/, '')
 			])
 		),
 		''
@@ -148,7 +148,7 @@ export function bulletinText(r: EventReport, collaboration = 'The Strainline col
 	else {
 		lines.push(`${r.candidates.length} candidate${r.candidates.length === 1 ? ' was' : 's were'} reported:`);
 		for (const k of r.candidates) {
-			lines.push(`  ${k.name} at RA ${k.raDeg.toFixed(4)}, Dec ${k.decDeg >= 0 ? '+' : '−'}${Math.abs(k.decDeg).toFixed(4)} (${num(k.discoveryMag, 1)} mag, ${k.discoveryFilter}): ${k.classification.status === 'none' ? 'not classified' : k.classification.text}.`);
+			lines.push(`  ${k.name} at RA ${k.raDeg.toFixed(4)}, Dec ${k.decDeg >= 0 ? '+' : '−'}${Math.abs(k.decDeg).toFixed(4)} (${num(k.discoveryMag, 1)} mag, ${k.discoveryFilter}): ${k.classification.status === 'none' ? 'not classified' : k.classification.text.replace(/\.$/, '')}.`);
 		}
 	}
 	if (r.annotation) lines.push('', r.annotation.text);
