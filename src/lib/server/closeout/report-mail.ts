@@ -8,16 +8,11 @@ import { onRecorded } from '../platform/realtime';
 import { restartService } from '../platform/services';
 import { eventLink } from '../duty/paging';
 import { reportMarkdown, bulletinText } from '../../closeout/markdown.ts';
-import { eventReport, recordSky } from './report';
+import { eventReport, recordSky, reportFileName } from './report';
 import { reportPdf } from './report-pdf';
 import { mailingList } from './mailing-list';
 
 export type ReportMailOutcome = { sent: true; to: string; bytes: { markdown: number; pdf: number } } | { sent: false; reason: 'no-address' };
-
-/** File names of the downloads and attachments: the source id, made safe for a file name. */
-export function reportFileName(sourceEventId: string, ext: 'md' | 'pdf'): string {
-	return `${sourceEventId.replace(/[^A-Za-z0-9._-]+/g, '_')}-record.${ext}`;
-}
 
 /** E-mail the event's report to the mailing list; nothing is sent while no address is set. */
 export async function sendReportToList(eventId: string, now = new Date()): Promise<ReportMailOutcome> {

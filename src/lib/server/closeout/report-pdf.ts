@@ -13,7 +13,7 @@ import type { EventReport } from '../../closeout/report.ts';
 import { duration, exposure, num, pct, signedMag, utc } from '../../closeout/format.ts';
 import { niceStep, skyProjection, skyWindow, splitAtSeam, stepPoints, type Box } from '../../closeout/charts.ts';
 import { footprintPolygon } from '../../targeting/sky-geometry.ts';
-import type { RecordSky } from './report';
+import { eventReport, recordSky, reportFileName, type RecordSky } from './report';
 import { pdfFonts } from './pdf-fonts';
 
 
@@ -21,15 +21,21 @@ const INK = '#14202e';
 const MUTED = '#5b6878';
 const RULE = '#c9d1db';
 /** The chirp teal and the ember orange of the app's palette (tailwind.config.ts). */
-const TEAL = '#1c9a93';
-const EMBER = '#e06a2c';
-const TEAM_COLOURS = ['#1c9a93', '#e06a2c', '#5a6fd6', '#b0468a', '#6c9a1c', '#a07a1a'];
+const TEAL = '#0b8374';
+const EMBER = '#cf4114';
+const TEAM_COLOURS = ['#0b8374', '#cf4114', '#5a6fd6', '#b0468a', '#6c9a1c', '#a07a1a'];
 
 const MARGIN = 48;
 const PAGE = { width: 595.28, height: 841.89 };
 const CONTENT_WIDTH = PAGE.width - 2 * MARGIN;
 
 type Doc = InstanceType<typeof PDFDocument>;
+
+/** An event's report as a PDF file: its name and bytes. */
+export async function recordPdf(eventId: string, now = new Date()): Promise<{ fileName: string; bytes: Buffer }> {
+	const report = eventReport(eventId, now);
+	return { fileName: reportFileName(report.event.sourceEventId, 'pdf'), bytes: await reportPdf(report, recordSky(eventId)) };
+}
 
 /** The report as PDF bytes. */
 export function reportPdf(report: EventReport, sky: RecordSky): Promise<Buffer> {

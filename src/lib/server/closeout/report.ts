@@ -17,6 +17,7 @@ import { listCandidates } from '../candidates/candidates';
 import { getCandidateDetailById } from '../candidates/detail';
 import { buildReport, type EventReport, type ReportCandidate, type ReportDeedInput, type ReportAnnotation } from '../../closeout/report.ts';
 import { footprintOf } from '../../targeting/telescope.ts';
+import { reportMarkdown } from '../../closeout/markdown.ts';
 import type { FootprintShape } from '../../targeting/sky-geometry.ts';
 import { RECORD_NOTE_MAX_CHARS } from '../../limits.ts';
 
@@ -26,6 +27,17 @@ export class EventNotFound extends DomainError {
 	constructor(eventId: string) {
 		super(404, 'not_found', `No event ${eventId}.`);
 	}
+}
+
+/** File names of the downloads and attachments: the source id, made safe for a file name. */
+export function reportFileName(sourceEventId: string, ext: 'md' | 'pdf'): string {
+	return `${sourceEventId.replace(/[^A-Za-z0-9._-]+/g, '_')}-record.${ext}`;
+}
+
+/** The report as a Markdown file: its name and text. */
+export function recordMarkdown(eventId: string, now = new Date()): { fileName: string; text: string } {
+	const report = eventReport(eventId, now);
+	return { fileName: reportFileName(report.event.sourceEventId, 'md'), text: reportMarkdown(report) };
 }
 
 /** The report of one event, made now from its rows; throws EventNotFound for an unknown id. */

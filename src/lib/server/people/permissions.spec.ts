@@ -44,7 +44,10 @@ describe('permissions table', () => {
 			'candidates.classify': ['spectroscopist', 'coordinator'],
 			'candidates.decide': ['duty', 'observer', 'spectroscopist', 'coordinator'],
 			'candidates.discuss': ['admin', 'coordinator', 'duty', 'observer', 'spectroscopist'],
-			'kilonova.thresholds': ['coordinator']
+			'kilonova.thresholds': ['coordinator'],
+			'records.annotate': ['coordinator'],
+			'records.send': ['coordinator'],
+			'settings.mailing-list': ['admin', 'coordinator']
 		};
 		expect(Object.keys(PERMISSIONS).sort()).toEqual(Object.keys(expected).sort());
 		for (const [perm, roles] of Object.entries(expected) as [Permission, Role[]][]) {

@@ -47,7 +47,11 @@ export const PERMISSIONS = {
 	'candidates.classify': { roles: ['spectroscopist', 'coordinator'] },
 	'candidates.decide': { roles: ['duty', 'observer', 'spectroscopist', 'coordinator'] },
 	'candidates.discuss': { roles: ['admin', 'coordinator', 'duty', 'observer', 'spectroscopist'] },
-	'kilonova.thresholds': { roles: ['coordinator'] }
+	'kilonova.thresholds': { roles: ['coordinator'] },
+	// The event record: the coordinators write its note and send it; where it goes is a collaboration setting.
+	'records.annotate': { roles: ['coordinator'] },
+	'records.send': { roles: ['coordinator'] },
+	'settings.mailing-list': { roles: ['admin', 'coordinator'] }
 } as const satisfies Record<string, { roles: readonly Role[]; robot?: boolean }>;
 
 export type Permission = keyof typeof PERMISSIONS;
