@@ -139,8 +139,10 @@ export function bulletinText(r: EventReport, collaboration = 'The Strainline col
 	if (filters) lines.push(`Filters used: ${filters}.`);
 	const limits = r.telescopes.flatMap((t) => t.filters.map((f) => f.medianLimitingMag));
 	if (limits.length) {
+		const lo = num(Math.min(...limits));
+		const hi = num(Math.max(...limits));
 		lines.push(
-			`Median limiting magnitudes ranged from ${num(Math.min(...limits))} to ${num(Math.max(...limits))}` +
+			(lo === hi ? `The median limiting magnitude was ${lo}` : `Median limiting magnitudes ranged from ${lo} to ${hi}`) +
 				(r.kilonova ? `, against about ${num(r.kilonova.expectedMag)} expected for an ${r.kilonova.model} at ${num(r.kilonova.distanceMpc, 0)} Mpc.` : '.')
 		);
 	}

@@ -43,7 +43,7 @@ export const actions: Actions = {
 		if (failure) return failure;
 		try {
 			const saved = saveRecordNote(user, params.eventId, data.note);
-			return { done: saved ? 'Note saved. It appears in the page, the Markdown, the PDF and the mail.' : 'Note removed.' };
+			return { noteDone: saved ? 'Note saved. It appears in the page, the Markdown, the PDF and the mail.' : 'Note removed.' };
 		} catch (e) {
 			return failFromError(form, e, { field: 'note' });
 		}
@@ -51,7 +51,7 @@ export const actions: Actions = {
 	send: async ({ params }) => {
 		requireUser('records.send');
 		const outcome = await sendReportToList(params.eventId);
-		if (!outcome.sent) return { done: 'Not sent: no mailing-list address is set.' };
-		return { done: `Sent to ${outcome.to} with the Markdown and the PDF attached.` };
+		if (!outcome.sent) return { sendDone: 'Not sent: no mailing-list address is set.' };
+		return { sendDone: `Sent to ${outcome.to} with the Markdown and the PDF attached.` };
 	}
 };
