@@ -295,7 +295,7 @@ function drawSky(doc: Doc, sky: RecordSky, box: Box): void {
 		doc.moveTo(f.x, yy).lineTo(f.x + f.width, yy).lineWidth(0.3).strokeColor(RULE).stroke();
 		doc.text(`${d > 0 ? '+' : d < 0 ? '−' : ''}${Math.abs(+d.toFixed(1))}°`, f.x + 2, yy + 1, { lineBreak: false });
 	}
-	const raStep = niceStep(2 * window.raHalfSpanDeg);
+	const raStep = niceStep(2 * window.raHalfSpanDeg, 3);
 	const raFrom = window.raCentreDeg - window.raHalfSpanDeg;
 	for (let a = Math.ceil(raFrom / raStep) * raStep; a <= window.raCentreDeg + window.raHalfSpanDeg; a += raStep) {
 		const [xx] = proj.project(a, window.decMinDeg);
