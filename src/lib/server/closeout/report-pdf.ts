@@ -220,14 +220,17 @@ function frameLabel(doc: Doc, box: Box, title: string): Box {
 /** Sky and galaxy coverage against hours since the merger, as steps. */
 function drawCurve(doc: Doc, r: EventReport, box: Box): void {
 	const plot = frameLabel(doc, box, 'Coverage against time since merger');
-	const sky = stepPoints(r.coverage.curve.map((p) => ({ hoursSinceMerger: p.hoursSinceMerger, value: p.sky })));
-	const gal = stepPoints(r.coverage.curve.map((p) => ({ hoursSinceMerger: p.hoursSinceMerger, value: p.galaxies })));
+	// The last level runs on past the last pointing, so that it reads as a level and not an edge.
+	const lastHours = Math.max(0, ...r.coverage.curve.map((p) => p.hoursSinceMerger ?? 0));
+	const tEnd = lastHours * 1.25 || 1;
+	const sky = stepPoints(r.coverage.curve.map((p) => ({ hoursSinceMerger: p.hoursSinceMerger, value: p.sky })), tEnd);
+	const gal = stepPoints(r.coverage.curve.map((p) => ({ hoursSinceMerger: p.hoursSinceMerger, value: p.galaxies })), tEnd);
 	doc.rect(plot.x, plot.y, plot.width, plot.height).lineWidth(0.5).strokeColor(RULE).stroke();
 	if (!sky.length && !gal.length) {
 		doc.font('body').fontSize(8.5).fillColor(MUTED).text(r.times.merger ? 'No pointings reported.' : 'No merger time: no curve.', plot.x + 8, plot.y + plot.height / 2 - 5, { width: plot.width - 16, align: 'center' });
 		return;
 	}
-	const tMax = Math.max(...[...sky, ...gal].map(([t]) => t)) * 1.05 || 1;
+	const tMax = tEnd;
 	const yMax = Math.min(1, Math.max(0.05, ...[...sky, ...gal].map(([, v]) => v)) * 1.1);
 	const x = (t: number) => plot.x + (Math.max(0, t) / tMax) * plot.width;
 	const y = (v: number) => plot.y + plot.height - (v / yMax) * plot.height;
