@@ -4,8 +4,9 @@
 import http from 'node:http';
 import { attachSocketIO } from './src/lib/server/platform/socket-host.js';
 
-// Uploaded sky maps are larger than adapter-node's 512 kB default body limit.
-process.env.BODY_SIZE_LIMIT ??= '80M';
+// Uploaded sky maps are larger than adapter-node's 512 kB default body limit, and a JSON notice
+// may carry a sky map of up to SKYMAP_MAX_MB (64 MiB by default) in base64: about 86 MiB in all.
+process.env.BODY_SIZE_LIMIT ??= '96M';
 const { handler } = await import('./build/handler.js');
 const server = http.createServer(handler);
 attachSocketIO(server);

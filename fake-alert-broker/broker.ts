@@ -3,20 +3,27 @@
  * their acks, keep-alives (iamalive) on a timer, and an HTTP server for the sky maps it makes
  * and for an archive of past notices (`GET /notices?since=ISO`) so subscribers can back-fill.
  *
+ * Notices are VOEvent XML or JSON notices (`format`). VTP carries XML only, so a JSON notice is
+ * published to the archive alone, where subscribers read it (on (re)connection and on a timer).
+ *
  * Importable: tests start it on ephemeral loopback ports and drive it with publish().
  */
 import { EventEmitter } from 'node:events';
 import http from 'node:http';
 import net from 'node:net';
 import { sniffIvorn } from '../src/lib/alerts/voevent.ts';
+import { sniffJsonNoticeIvorn, type NoticeFormat } from '../src/lib/alerts/notice-json.ts';
 import { buildIamalive, encodeFrame, FrameDecoder, messageKind, parseTransport } from '../src/lib/alerts/vtp.ts';
 import { BROKER_IVORN } from './notices.ts';
 import { listScenarios, loadScenario, renderScenario } from './scenarios.ts';
 
+/** One archived notice: its format and text (`xml` too for a VOEvent, the layout before JSON notices). */
 export interface ArchiveItem {
 	ivorn: string | null;
 	publishedAt: string;
-	xml: string;
+	format: NoticeFormat;
+	text: string;
+	xml?: string;
 }
 
 export interface BrokerOptions {
@@ -51,6 +58,8 @@ export interface PlayOptions {
 	signal?: AbortSignal;
 	/** Seconds between two scenarios when playing several. */
 	gapSeconds?: number;
+	/** Publish VOEvents over VTP (default), or JSON notices, with their maps inside, to the archive only. */
+	format?: NoticeFormat;
 }
 
 interface Pending {
@@ -159,7 +168,7 @@ export class FakeBroker extends EventEmitter<BrokerEvents> {
 	 */
 	async publish(xml: string): Promise<PublishResult> {
 		const ivorn = sniffIvorn(xml);
-		this.archiveItems.push({ ivorn, publishedAt: new Date().toISOString(), xml });
+		this.archiveItems.push({ ivorn, publishedAt: new Date().toISOString(), format: 'voevent', text: xml, xml });
 		const timeoutMs = this.opts.ackTimeoutMs ?? 5000;
 		const waits = [...this.subscribers.values()].map(
 			(s) =>
@@ -189,6 +198,19 @@ export class FakeBroker extends EventEmitter<BrokerEvents> {
 		return result;
 	}
 
+	/**
+	 * Archive a JSON notice (as given, a malformed one too). It is not sent over VTP, an XML
+	 * transport: subscribers read it from the archive. Resolves at once, delivered to nobody.
+	 */
+	async publishJson(text: string): Promise<PublishResult> {
+		const ivorn = sniffJsonNoticeIvorn(text);
+		this.archiveItems.push({ ivorn, publishedAt: new Date().toISOString(), format: 'json', text });
+		const result: PublishResult = { ivorn, delivered: 0, acked: 0, naked: 0, timedOut: 0 };
+		this.log(`archived JSON notice ${ivorn ?? '(unreadable)'} (${text.length} bytes)`);
+		this.emit('published', result);
+		return result;
+	}
+
 	/** Play one scenario, or all of them one after another. Resolves when done (or aborted). */
 	async play(name: string, o: PlayOptions = {}): Promise<PublishResult[]> {
 		const names = name === 'all' ? playOrder(listScenarios()) : [name];
@@ -203,6 +225,10 @@ export class FakeBroker extends EventEmitter<BrokerEvents> {
 				for (const step of steps) {
 					await sleep((step.delaySeconds * 1000) / speed, o.signal);
 					if (o.signal?.aborted || this.stopped) return results;
+					if (o.format === 'json') {
+						results.push(await this.publishJson(step.json()));
+						continue;
+					}
 					if (step.map) this.addFile(step.map.name, step.map.build());
 					results.push(await this.publish(step.xml));
 				}

@@ -10,7 +10,9 @@
  *   --once            play once, wait for acks, then exit
  *   --loop            play again and again (each cycle gets new event ids)
  *   --iamalive S      seconds between keep-alives (default 60)
- *   --write DIR       write the scenario's notices and sky maps into DIR and exit
+ *   --format F        voevent (default: XML over VTP) or json (JSON notices with their maps
+ *                     inside, in the HTTP archive only: VTP carries XML; subscribers poll it)
+ *   --write DIR       write the scenario's notices (and, for VOEvents, sky maps) into DIR and exit
  *   --list            list the scenarios and exit
  */
 import { parseArgs } from 'node:util';
@@ -37,6 +39,7 @@ async function main(): Promise<void> {
 			loop: { type: 'boolean' },
 			iamalive: { type: 'string' },
 			write: { type: 'string' },
+			format: { type: 'string' },
 			list: { type: 'boolean' },
 			help: { type: 'boolean', short: 'h' }
 		},
@@ -44,7 +47,7 @@ async function main(): Promise<void> {
 	});
 	if (values.help) {
 		process.stdout.write(
-			'usage: npm run broker -- [--vtp-port N] [--http-port N] [--host H] [--scenario NAME|all] [--speed X] [--seed N] [--once|--loop] [--iamalive S] [--write DIR] [--list]\n'
+			'usage: npm run broker -- [--vtp-port N] [--http-port N] [--host H] [--scenario NAME|all] [--speed X] [--seed N] [--once|--loop] [--iamalive S] [--format voevent|json] [--write DIR] [--list]\n'
 		);
 		return;
 	}
@@ -59,12 +62,14 @@ async function main(): Promise<void> {
 	const vtpPort = Math.floor(num(values['vtp-port'], 'vtp-port', 8099));
 	const httpPort = Math.floor(num(values['http-port'], 'http-port', 8098));
 	const host = values.host ?? '127.0.0.1';
+	const format = values.format ?? 'voevent';
+	if (format !== 'voevent' && format !== 'json') throw new Error(`--format must be voevent or json, got "${format}"`);
 
 	if (values.write) {
 		const names = scenario === 'all' ? listScenarios() : [scenario];
 		const httpBase = `http://${host}:${httpPort}`;
 		for (const n of names) {
-			const files = writeScenario(n, `${values.write}/${n}`, { epoch: new Date(), httpBase, seed, speed });
+			const files = writeScenario(n, `${values.write}/${n}`, { epoch: new Date(), httpBase, seed, speed, format });
 			process.stdout.write(`${n}: wrote ${files.length} files\n`);
 		}
 		return;
@@ -86,7 +91,7 @@ async function main(): Promise<void> {
 	process.on('SIGINT', shutdown);
 	process.on('SIGTERM', shutdown);
 
-	await broker.play(scenario, { speed, seed, loop: values.loop, signal: abort.signal });
+	await broker.play(scenario, { speed, seed, loop: values.loop, signal: abort.signal, format });
 	if (values.once) {
 		await broker.stop();
 		return;

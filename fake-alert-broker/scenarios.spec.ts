@@ -4,6 +4,7 @@ import { join } from 'node:path';
 import { gunzipSync } from 'node:zlib';
 import { describe, expect, it } from 'vitest';
 import { farHzToPerYear, parseVoevent } from '../src/lib/alerts/voevent.ts';
+import { parseJsonNotice } from '../src/lib/alerts/notice-json.ts';
 import { antisolarRaDeg, listScenarios, loadScenario, renderScenario, rotateSky, writeScenario } from './scenarios.ts';
 import { readSkyMap, summarise } from '../src/lib/sky/index.ts';
 import { nightWindow, observableWindow } from '../src/lib/targeting/night.ts';
@@ -28,6 +29,33 @@ describe('scenarios', () => {
 				expect(n.ivorn).toBe(s.ivorn);
 				expect(n.sourceEventId).toMatch(/^SX/);
 				expect(n.skymapUrl === null).toBe(s.map === null);
+			}
+		}
+	});
+
+	it('renders every scenario as JSON notices too: the same content as the VOEvent, the map inside, test events with the mock prefix', () => {
+		expect.hasAssertions();
+		for (const name of listScenarios()) {
+			for (const s of renderScenario(loadScenario(name), { epoch, httpBase, seed: 1 })) {
+				if (name === 'malformed') {
+					expect(() => parseJsonNotice(s.json())).toThrow(/not valid JSON/);
+					continue;
+				}
+				const fromXml = parseVoevent(s.xml);
+				const { notice, embeddedSkymap } = parseJsonNotice(s.json());
+				expect(notice).toMatchObject({
+					kind: fromXml.kind,
+					role: fromXml.role,
+					sourceEventId: fromXml.role === 'observation' ? fromXml.sourceEventId : `M${fromXml.sourceEventId}`,
+					authoredAt: fromXml.authoredAt,
+					eventTime: fromXml.eventTime,
+					classification: fromXml.classification,
+					properties: fromXml.properties
+				});
+				if (fromXml.far === null) expect(notice.far).toBeNull();
+				else expect(notice.far! / fromXml.far).toBeCloseTo(1, 12);
+				if (s.map) expect(Buffer.from(embeddedSkymap!).equals(s.map.build())).toBe(true);
+				else expect(embeddedSkymap).toBeNull();
 			}
 		}
 	});

@@ -7,6 +7,7 @@ import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { z } from 'zod';
 import { BROKER_IVORN, buildNoticeXml } from './notices.ts';
+import { buildJsonNotice } from '../src/lib/alerts/notice-json.ts';
 import { gaussian, mulberry32, seedFor } from './prng.ts';
 import { generateSkymap, radecToVec, skymapToFits, type SkymapSpec } from './skymap.ts';
 import { sunPosition } from '../src/lib/targeting/sun-moon.ts';
@@ -146,8 +147,18 @@ export interface RenderedStep {
 	sourceEventId: string;
 	kind: ScenarioStep['kind'];
 	xml: string;
+	/**
+	 * The same notice as a JSON notice with its map inside (built on demand). JSON has no role: a
+	 * test or utility step's event id gets the mock prefix "M" (docs/notice-format.md).
+	 */
+	json: () => string;
 	map: RenderedMap | null;
 }
+
+/** Detectors named in the broker's JSON notices (invented scenarios; the network's site codes). */
+const DEMO_INSTRUMENTS = ['H1', 'L1', 'V1'];
+/** "Significant" as the sender flags it: FAR below one per month (common practice for compact-binary alerts). */
+const SIGNIFICANT_FAR_PER_YEAR = 12;
 
 export interface RenderOptions {
 	/** Start of the scenario; Who/Date = epoch + atSeconds / speed. A scenario with `nightSky` is placed opposite the Sun at this time. */
@@ -218,21 +229,49 @@ export function renderScenario(sc: Scenario, o: RenderOptions): RenderedStep[] {
 		});
 		if (s.malformed === 'unclosed-tag') xml = xml.replace('  </What>\n', '');
 		if (s.malformed === 'missing-event-id') xml = xml.replace(/\s*<Param name="SourceEventId"[^>]*\/>/, '');
-		out.push({ delaySeconds: s.delaySeconds, atSeconds: at, ivorn, sourceEventId: eventId, kind: s.kind, xml, map });
+		const builtMap = map;
+		const json = () => {
+			let text = buildJsonNotice({
+				supereventId: s.role === 'observation' ? eventId : `M${eventId}`,
+				kind: s.kind,
+				createdAt: authoredAt,
+				event:
+					s.kind === 'retraction'
+						? null
+						: {
+								time: eventTime,
+								farHz: s.farPerYear === undefined ? null : s.farPerYear / SECONDS_PER_JULIAN_YEAR,
+								significant: s.farPerYear !== undefined && s.farPerYear < SIGNIFICANT_FAR_PER_YEAR,
+								instruments: DEMO_INSTRUMENTS,
+								classification: s.classification ?? {},
+								properties: s.properties ?? null,
+								skymap: builtMap ? builtMap.build() : null
+							}
+			});
+			// The JSON counterparts of the broken XML: a document cut short, a missing id.
+			if (s.malformed === 'unclosed-tag') text = text.trimEnd().replace(/}$/, '');
+			if (s.malformed === 'missing-event-id') text = text.replace(/\s*"superevent_id": "[^"]*",/, '');
+			return text;
+		};
+		out.push({ delaySeconds: s.delaySeconds, atSeconds: at, ivorn, sourceEventId: eventId, kind: s.kind, xml, json, map });
 	});
 	return out;
 }
 
-/** Write a scenario's notices (NN-<ivorn fragment>.xml) and sky maps into `dir`. */
-export function writeScenario(name: string, dir: string, o: RenderOptions): string[] {
+/**
+ * Write a scenario's notices (NN-<ivorn fragment>.xml, or .json with `format: 'json'`, the map
+ * inside) and, for VOEvents, the sky maps they name into `dir`.
+ */
+export function writeScenario(name: string, dir: string, o: RenderOptions & { format?: 'voevent' | 'json' }): string[] {
 	const steps = renderScenario(loadScenario(name), o);
 	mkdirSync(dir, { recursive: true });
 	const written: string[] = [];
 	steps.forEach((s, i) => {
-		const file = join(dir, `${String(i + 1).padStart(2, '0')}-${s.ivorn.split('#')[1]}.xml`);
-		writeFileSync(file, s.xml);
+		const asJson = o.format === 'json';
+		const file = join(dir, `${String(i + 1).padStart(2, '0')}-${s.ivorn.split('#')[1]}.${asJson ? 'json' : 'xml'}`);
+		writeFileSync(file, asJson ? s.json() : s.xml);
 		written.push(file);
-		if (s.map) {
+		if (s.map && !asJson) {
 			const mapFile = join(dir, s.map.name);
 			writeFileSync(mapFile, s.map.build());
 			written.push(mapFile);

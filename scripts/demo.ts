@@ -6,7 +6,10 @@
  * test event and a malformed notice. Ctrl-C stops everything.
  *
  *   npm run demo -- [--no-build] [--scenario NAME|all] [--speed X] [--loop]
- *                   [--vtp-port N] [--http-port N]
+ *                   [--vtp-port N] [--http-port N] [--format voevent|json]
+ *
+ * With `--format json` the broker publishes JSON notices (maps inside) to its HTTP archive
+ * instead of VOEvents over VTP, and the app reads the archive every 5 s (VTP_ARCHIVE_POLL_S).
  *
  * At the default speed of 1 the neutron-star story takes about 85 s.
  */
@@ -24,12 +27,15 @@ const { values: args } = parseArgs({
 		speed: { type: 'string', default: '1' },
 		loop: { type: 'boolean' },
 		'vtp-port': { type: 'string', default: '8099' },
-		'http-port': { type: 'string', default: '8098' }
+		'http-port': { type: 'string', default: '8098' },
+		format: { type: 'string', default: 'voevent' }
 	},
 	strict: true
 });
 const speed = Number(args.speed);
 if (!Number.isFinite(speed) || speed <= 0) throw new Error(`--speed must be a positive number, got "${args.speed}"`);
+const format = args.format;
+if (format !== 'voevent' && format !== 'json') throw new Error(`--format must be voevent or json, got "${args.format}"`);
 
 const port = Number(process.env.PORT ?? 3000);
 const origin = process.env.ORIGIN ?? `http://localhost:${port}`;
@@ -52,6 +58,8 @@ const broker = await startBroker({
 });
 env.VTP_BROKER = `127.0.0.1:${broker.vtpPort}`;
 env.VTP_ARCHIVE_URL = broker.httpBase;
+// JSON notices are not sent over VTP: the app reads them from the archive on a timer.
+if (format === 'json') env.VTP_ARCHIVE_POLL_S ??= '5';
 
 const children: ChildProcess[] = [];
 const abort = new AbortController();
@@ -82,9 +90,9 @@ console.log('  coordinator: coordinator@strainline.demo / coordinator-demo-pass;
 const until = Date.now() + 60_000;
 while (broker.subscriberCount() === 0 && Date.now() < until && !abort.signal.aborted) await new Promise((r) => setTimeout(r, 250));
 if (!abort.signal.aborted) {
-	console.log(`[broker] playing "${args.scenario}" at speed ${speed}${args.loop ? ', looping' : ''}`);
+	console.log(`[broker] playing "${args.scenario}" at speed ${speed}${args.loop ? ', looping' : ''}${format === 'json' ? ', as JSON notices in the archive' : ''}`);
 	broker
-		.play(args.scenario!, { speed, loop: args.loop, signal: abort.signal })
+		.play(args.scenario!, { speed, loop: args.loop, signal: abort.signal, format })
 		.then(() => {
 			if (!abort.signal.aborted) console.log(`[broker] scenario "${args.scenario}" played; still serving sky maps and the archive`);
 		})

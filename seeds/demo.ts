@@ -77,9 +77,27 @@ export async function seedDemoCatalog(database: DB): Promise<{ created: boolean 
 	return { created: true };
 }
 
+/**
+ * Demo people added to the scenario after a demo database was made (the second spectroscopist),
+ * so an older demo database gains them too; their teams are found by name. Returns the e-mails added.
+ */
+export async function seedMissingDemoPeople(database: DB): Promise<string[]> {
+	const known = new Set(database.select({ email: table.user.email }).from(table.user).all().map((u) => u.email));
+	const teams = new Map(database.select({ id: table.team.id, name: table.team.name }).from(table.team).all().map((t) => [t.name, t.id]));
+	const added: string[] = [];
+	for (const p of DEMO_PEOPLE) {
+		if (known.has(p.email)) continue;
+		const teamIds = p.teams.map((k) => teams.get(DEMO_TEAMS.find((t) => t.key === k)?.name ?? '')).filter((id): id is string => Boolean(id));
+		await createUser({ email: p.email, name: p.name, password: p.password, roles: p.roles, teamIds, isDemo: true });
+		added.push(p.email);
+	}
+	return added;
+}
+
 export async function seedDemo(database: DB): Promise<{ created: boolean }> {
 	const already = database.select({ id: table.user.id }).from(table.user).where(eq(table.user.email, DEMO_PEOPLE[0].email)).get();
 	if (already) {
+		await seedMissingDemoPeople(database);
 		seedDemoRoster(database);
 		await seedDemoCatalog(database);
 		return { created: false };

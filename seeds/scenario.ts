@@ -63,7 +63,7 @@ export const DEMO_TELESCOPES: DemoTelescope[] = [
 	{ ...base, team: 'himalaya', name: 'Changthang 2.0 m', siteName: 'Changthang plateau (demo)', latitudeDeg: 32.78, longitudeDeg: 78.96, elevationM: 4500, apertureM: 2.0, fovShape: 'circle', fovWidthDeg: 0.25, fovHeightDeg: 0.25, filters: ['r', 'i', 'J', 'H'], limitingMag: 21.8, limitingMagExposureS: 600 }
 ];
 
-/** One person per role (and two more observers for a second and third team). */
+/** One person per role (and two more observers for a second and third team, and a second spectroscopist for a second opinion). */
 export const DEMO_PEOPLE: DemoPerson[] = [
 	{ email: 'admin@strainline.demo', name: 'Ada Ferreira-Lind', password: 'admin-demo-pass', roles: ['admin'], teams: [] },
 	{ email: 'coordinator@strainline.demo', name: 'Tomás Okafor-Reyes', password: 'coordinator-demo-pass', roles: ['coordinator'], teams: [] },
@@ -72,5 +72,6 @@ export const DEMO_PEOPLE: DemoPerson[] = [
 	{ email: 'observer2@strainline.demo', name: 'Lerato Voss', password: 'observer2-demo-pass', roles: ['observer'], teams: ['karoo'] },
 	{ email: 'observer3@strainline.demo', name: 'Ines Halloran', password: 'observer3-demo-pass', roles: ['observer'], teams: ['canaria', 'sonora'] },
 	{ email: 'spectro@strainline.demo', name: 'Priya Marchetti', password: 'spectro-demo-pass', roles: ['spectroscopist'], teams: [] },
+	{ email: 'spectro2@strainline.demo', name: 'Anouk Tembo', password: 'spectro2-demo-pass', roles: ['spectroscopist'], teams: [] },
 	{ email: 'viewer@strainline.demo', name: 'Jonah Whitcombe', password: 'viewer-demo-pass', roles: ['viewer'], teams: [] }
 ];

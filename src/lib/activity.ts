@@ -58,7 +58,8 @@ const PHRASES: { readonly [A in LiveAction]: string } = {
 	'skymap.failed': 'Sky map could not be used',
 	'event.retracted': 'Event retracted by the source',
 	'triage.policy-changed': 'Triage policy changed',
-	'event.closed': 'Event closed',
+	'event.closed': 'Event closed by a coordinator',
+	'event.reopened': 'Event reopened by a coordinator',
 	'catalog.progress': 'Catalogue import under way'
 };
 

@@ -40,3 +40,13 @@ const PLAIN_NUMBER = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/;
 export function spreadsheetText(value: string): string {
 	return FORMULA_START.test(value) && !PLAIN_NUMBER.test(value) ? `'${value}` : value;
 }
+
+/** RFC 4180 field: quoted when it holds a comma, quote, CR or LF; quotes doubled inside. */
+export function csvField(value: string): string {
+	return /[",\r\n]/.test(value) ? `"${value.replace(/"/g, '""')}"` : value;
+}
+
+/** Rows as RFC 4180 CSV: a header line, CRLF line ends, each field quoted as needed (`csvField`). */
+export function csvTable(header: readonly string[], rows: readonly (readonly string[])[]): string {
+	return [header, ...rows].map((r) => r.map(csvField).join(',')).join('\r\n') + '\r\n';
+}

@@ -6,6 +6,27 @@ export type NoticeKind = 'preliminary' | 'initial' | 'update' | 'retraction' | '
 export type NoticeRole = 'observation' | 'test' | 'utility';
 export type EventState = 'active' | 'retracted' | 'closed';
 
+/** Why a coordinator closed an event (stored as these ids; shown with `CLOSE_REASON_LABELS`). */
+export const CLOSE_REASONS = ['search-complete', 'retracted', 'not-pursued', 'counterpart-found'] as const;
+export type CloseReason = (typeof CLOSE_REASONS)[number];
+
+/** The reasons in our words: `short` inside a sentence ("closed … (search complete)"), `long` in the form's choice. */
+export const CLOSE_REASON_LABELS: { readonly [R in CloseReason]: { short: string; long: string } } = {
+	'search-complete': { short: 'search complete', long: 'Search complete: the region was covered as far as planned' },
+	retracted: { short: 'alert retracted', long: 'Alert retracted: the source withdrew it' },
+	'not-pursued': { short: 'not followed up', long: 'Not followed up: we decided not to pursue it' },
+	'counterpart-found': { short: 'counterpart found', long: 'Counterpart found: the search is over' }
+};
+
+/** Who closed an event, when, why, with their note (null while the event is open). */
+export interface ClosureView {
+	reason: CloseReason;
+	note: string | null;
+	/** The closer's name (null when their account is gone). */
+	by: string | null;
+	at: string;
+}
+
 export interface Classification {
 	BNS: number | null;
 	NSBH: number | null;
@@ -73,6 +94,8 @@ export interface EventView {
 	retractedAt: string | null;
 	/** The reason the retraction notice gave, in the source's words (null: none given, or not retracted). */
 	retractionReason: string | null;
+	/** Set while the event is closed. */
+	closure: ClosureView | null;
 	latestKind: NoticeKind | null;
 	farHz: number | null;
 	classification: Classification | null;
@@ -88,3 +111,7 @@ export interface EventDetail extends EventView {
 	escalateAfterMin: number;
 	skymaps: (SkymapView & { id: string; createdAt: string })[];
 }
+
+/** What an event's exports hold, one file each as CSV or JSON (`/events/{id}/export/{kind}.{csv|json}`). */
+export const EXPORT_KINDS = ['pointings', 'claims', 'candidates', 'photometry'] as const;
+export type ExportKind = (typeof EXPORT_KINDS)[number];

@@ -15,6 +15,7 @@ export const FIELD_LABELS: Record<string, string> = {
 	observedAt: 'Time (UTC)',
 	raDeg: 'RA (deg, J2000)',
 	decDeg: 'Dec (deg, J2000)',
+	positionErrArcsec: 'Position uncertainty (arcsec)',
 	fieldId: 'Field id',
 	filter: 'Filter',
 	exposureS: 'Exposure (s)',

@@ -41,3 +41,17 @@ export const REPLAY_DEBOUNCE_MS = 250;
 
 /** Longest coordinator's note on an event's record, characters. */
 export const RECORD_NOTE_MAX_CHARS = 4000;
+
+/** Longest note a coordinator may give when closing or reopening an event. */
+export const CLOSE_NOTE_MAX_CHARS = 2000;
+
+/** Closed events per page in the archive. */
+export const ARCHIVE_PAGE_SIZE = 20;
+
+/**
+ * Largest position uncertainty (radius, arcsec) a candidate may be reported with. Optical
+ * astrometry of a transient is good to well under an arcsecond against a reference catalogue, and
+ * a wide-field camera with arcsecond-scale pixels states a few arcseconds (common practice); a
+ * minute of arc is already more than the 2″ duplicate check and a slit could use.
+ */
+export const POSITION_ERR_ARCSEC_MAX = 60;

@@ -69,8 +69,11 @@ export interface LivePayloads {
 	'skymap.analysed': EventNotice & { skymapId: string; summary: SkymapSummary; retried?: number };
 	'skymap.failed': EventNotice & { error: string };
 	'triage.policy-changed': { policy: TriagePolicyInput };
-	/** A coordinator closed the event (close-out stage); the record is then sent to the mailing list. */
+
+	// ── close-out ──
+	/** `reason`: one of CLOSE_REASONS (event-view.ts); `by`: the coordinator's name. */
 	'event.closed': { eventId: string; reason: string; note: string | null; by: string };
+	'event.reopened': { eventId: string; note: string | null; by: string };
 
 	// ── duty ──
 	'duty.paged': EventNotice & { level: number; to: string[]; fallback: boolean };
@@ -125,6 +128,7 @@ export interface LivePayloads {
 		name: string;
 		raDeg: number;
 		decDeg: number;
+		positionErrArcsec: number | null;
 		magnitude: number;
 		filter: string;
 		teamId: string;
@@ -199,6 +203,7 @@ export const ACTION_TOPIC: { readonly [A in LiveAction]: LiveTopic } = {
 	'skymap.failed': 'alerts',
 	'triage.policy-changed': 'alerts',
 	'event.closed': 'alerts',
+	'event.reopened': 'alerts',
 	'duty.paged': 'duty',
 	'duty.escalated': 'duty',
 	'duty.escalation-exhausted': 'duty',

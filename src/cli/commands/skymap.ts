@@ -1,21 +1,28 @@
 import { readFileSync } from 'node:fs';
 import type { CommandModule } from '../strainline.ts';
 import { analyseSkymap } from '../../lib/sky/index.ts';
+import { detectNoticeFormat, parseJsonNotice } from '../../lib/alerts/notice-json.ts';
 
+/** The map in FILE: a FITS file (maybe gzip), or the map a JSON notice carries. */
 function readInput(path: string | undefined): Uint8Array {
-	if (!path) throw new Error('missing FILE (a HEALPix FITS sky map, optionally .gz)');
+	if (!path) throw new Error('missing FILE (a HEALPix FITS sky map, optionally .gz, or a JSON notice carrying one)');
+	let bytes: Uint8Array;
 	try {
-		return new Uint8Array(readFileSync(path));
+		bytes = new Uint8Array(readFileSync(path));
 	} catch (e) {
 		throw new Error(`cannot read ${path}: ${(e as NodeJS.ErrnoException).code ?? (e as Error).message}`);
 	}
+	if (detectNoticeFormat(new TextDecoder('utf-8').decode(bytes.subarray(0, 4096))) !== 'json') return bytes;
+	const { notice, embeddedSkymap } = parseJsonNotice(bytes);
+	if (!embeddedSkymap) throw new Error(`${path}: this ${notice.kind} notice carries no sky map`);
+	return embeddedSkymap;
 }
 
 const round = (v: number, digits: number) => Number(v.toFixed(digits));
 
 const command: CommandModule = {
-	summary: 'Summarise a HEALPix sky map: 50%/90% credible areas (deg²), distance (Mpc), peak.',
-	usage: 'FILE [--json]',
+	summary: 'Summarise a HEALPix sky map (or the one a JSON notice carries): 50%/90% credible areas (deg²), distance (Mpc), peak.',
+	usage: 'FILE|NOTICE.json [--json]',
 	options: {},
 	async run(positionals) {
 		const [path] = positionals;

@@ -96,7 +96,11 @@ export const noticeSchema = z.object({
 		.nullable(),
 	citations: z.array(z.object({ ivorn: ivornSchema, cite: z.enum(CITE_TYPES) })).max(64),
 	/** A retraction's stated reason, when the notice gives one (absent otherwise). */
-	reason: z.string().min(1).max(MAX_REASON_CHARS).optional()
+	reason: z.string().min(1).max(MAX_REASON_CHARS).optional(),
+	/** The sender's own significance flag, when the notice gives one (JSON notices do). */
+	significant: z.boolean().optional(),
+	/** Detectors that saw the event ("H1", "L1" …), when the notice names them (JSON notices do). */
+	instruments: z.array(z.string().min(1).max(16)).max(16).optional()
 });
 
 export type Notice = z.infer<typeof noticeSchema>;

@@ -167,33 +167,85 @@ export function withDefaults(changes: ThresholdChanges = {}): KilonovaThresholds
 	};
 }
 
-/** What is wrong with a set of thresholds, in plain words; empty when they can be used. */
-export function checkThresholds(t: KilonovaThresholds): string[] {
-	const errors: string[] = [];
-	const range = (what: string, v: unknown, lo: number, hi: number, unit = '') => {
-		if (typeof v !== 'number' || !Number.isFinite(v) || v < lo || v > hi) errors.push(`${what} must be between ${lo}${unit} and ${hi}${unit}`);
-	};
-	range('the decision sigma', t.decisionSigma, 0, 5);
-	range('the credible level', t.credibleRegion.level, 0.9, 0.95);
-	range('the smallest distance p-value', t.hostDistance.minPValue, 0.001, 0.5);
-	range('the fade rate', t.fastFade.minRateMagPerDay, 0, 5, ' mag/day');
-	range('the fade window', t.fastFade.withinDays, 0.5, 60, ' days');
-	range('the colour rate', t.reddening.minRateMagPerDay, -2, 2, ' mag/day');
-	range('the colour window', t.reddening.withinDays, 0.5, 60, ' days');
-	range('the pairing window', t.reddening.pairWindowDays, 0, 2, ' days');
-	range('the brightest absolute magnitude', t.peakLuminosity.brightestMag, -25, 0);
-	range('the faintest absolute magnitude', t.peakLuminosity.faintestMag, -25, 0);
-	if (t.peakLuminosity.brightestMag >= t.peakLuminosity.faintestMag) errors.push('the brightest absolute magnitude must be more negative than the faintest');
-	if (!Array.isArray(t.fastFade.filters) || t.fastFade.filters.length === 0) errors.push('the fade rule needs at least one filter');
-	if (!Array.isArray(t.peakLuminosity.filters) || t.peakLuminosity.filters.length === 0) errors.push('the brightness rule needs at least one filter');
+/** A number the thresholds hold, by its path in `KilonovaThresholds`. */
+export type ThresholdNumberPath =
+	| 'decisionSigma'
+	| 'credibleRegion.level'
+	| 'hostDistance.minPValue'
+	| 'fastFade.minRateMagPerDay'
+	| 'fastFade.withinDays'
+	| 'reddening.minRateMagPerDay'
+	| 'reddening.withinDays'
+	| 'reddening.pairWindowDays'
+	| 'peakLuminosity.brightestMag'
+	| 'peakLuminosity.faintestMag'
+	| 'verdict.minRulesMet';
+
+/**
+ * The range (inclusive) each number may take, in its own unit, with the words that name it.
+ * The ranges keep a threshold meaningful (a credible level below 90% would flag candidates
+ * outside the region searched; common practice); they are not physics.
+ */
+export const THRESHOLD_RANGES: Record<Exclude<ThresholdNumberPath, 'verdict.minRulesMet'>, { what: string; min: number; max: number; unit: string }> = {
+	decisionSigma: { what: 'the decision sigma', min: 0, max: 5, unit: '' },
+	'credibleRegion.level': { what: 'the credible level', min: 0.9, max: 0.95, unit: '' },
+	'hostDistance.minPValue': { what: 'the smallest distance p-value', min: 0.001, max: 0.5, unit: '' },
+	'fastFade.minRateMagPerDay': { what: 'the fade rate', min: 0, max: 5, unit: ' mag/day' },
+	'fastFade.withinDays': { what: 'the fade window', min: 0.5, max: 60, unit: ' days' },
+	'reddening.minRateMagPerDay': { what: 'the colour rate', min: -2, max: 2, unit: ' mag/day' },
+	'reddening.withinDays': { what: 'the colour window', min: 0.5, max: 60, unit: ' days' },
+	'reddening.pairWindowDays': { what: 'the pairing window', min: 0, max: 2, unit: ' days' },
+	'peakLuminosity.brightestMag': { what: 'the brightest absolute magnitude', min: -25, max: 0, unit: '' },
+	'peakLuminosity.faintestMag': { what: 'the faintest absolute magnitude', min: -25, max: 0, unit: '' }
+};
+
+/** The value at a dotted path of the thresholds (`fastFade.minRateMagPerDay`). */
+export function thresholdAt(t: KilonovaThresholds, path: string): unknown {
+	return path.split('.').reduce<unknown>((v, k) => (v && typeof v === 'object' ? (v as Record<string, unknown>)[k] : undefined), t);
+}
+
+/** One thing wrong with a set of thresholds: the path of the value it is about, and the problem in plain words. */
+export interface ThresholdProblem {
+	field: string;
+	message: string;
+}
+
+/** What is wrong with a set of thresholds, each with the value it is about; empty when they can be used. */
+export function thresholdProblems(t: KilonovaThresholds): ThresholdProblem[] {
+	const problems: ThresholdProblem[] = [];
+	for (const [field, r] of Object.entries(THRESHOLD_RANGES)) {
+		const v = thresholdAt(t, field);
+		if (typeof v !== 'number' || !Number.isFinite(v) || v < r.min || v > r.max) {
+			problems.push({ field, message: `${r.what} must be between ${r.min}${r.unit} and ${r.max}${r.unit}` });
+		}
+	}
+	if (t.peakLuminosity.brightestMag >= t.peakLuminosity.faintestMag) {
+		problems.push({ field: 'peakLuminosity.brightestMag', message: 'the brightest absolute magnitude must be more negative than the faintest' });
+	}
+	if (!Array.isArray(t.fastFade.filters) || t.fastFade.filters.length === 0) problems.push({ field: 'fastFade.filters', message: 'the fade rule needs at least one filter' });
+	if (!Array.isArray(t.peakLuminosity.filters) || t.peakLuminosity.filters.length === 0) {
+		problems.push({ field: 'peakLuminosity.filters', message: 'the brightness rule needs at least one filter' });
+	}
 	if (!Array.isArray(t.reddening.colours) || t.reddening.colours.length === 0 || t.reddening.colours.some((c) => !Array.isArray(c) || c.length !== 2 || c[0] === c[1])) {
-		errors.push('the colour rule needs at least one pair of two different filters');
+		problems.push({ field: 'reddening.colours', message: 'the colour rule needs at least one pair of two different filters' });
 	}
 	const ruleCount = Object.keys(RULES).length;
 	if (!Number.isInteger(t.verdict.minRulesMet) || t.verdict.minRulesMet < 1 || t.verdict.minRulesMet > ruleCount) {
-		errors.push(`the number of rules to meet must be a whole number from 1 to ${ruleCount}`);
+		problems.push({ field: 'verdict.minRulesMet', message: `the number of rules to meet must be a whole number from 1 to ${ruleCount}` });
 	}
-	return errors;
+	return problems;
+}
+
+/** The first problem of each value as a sentence, keyed by the value's path (for a form's fields and the API's details). */
+export function problemsByField(problems: readonly ThresholdProblem[]): Record<string, string> {
+	const fields: Record<string, string> = {};
+	for (const p of problems) fields[p.field] ??= `${p.message.charAt(0).toUpperCase()}${p.message.slice(1)}.`;
+	return fields;
+}
+
+/** What is wrong with a set of thresholds, in plain words; empty when they can be used. */
+export function checkThresholds(t: KilonovaThresholds): string[] {
+	return thresholdProblems(t).map((p) => p.message);
 }
 
 /**

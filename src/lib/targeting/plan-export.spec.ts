@@ -1,8 +1,8 @@
 import { describe, expect, it } from 'vitest';
 import { planNetwork } from './plan.ts';
 import type { NetworkPlan, PlanTarget, PlanTelescope } from './plan-types.ts';
+import { csvField } from '../csv.ts';
 import {
-	csvField,
 	formatDecDms,
 	formatRaHms,
 	observingListCsv,

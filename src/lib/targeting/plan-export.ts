@@ -5,7 +5,7 @@
  * Pure: plain data in, text out.
  */
 import type { NetworkPlan, PlanAssignment, TelescopePlan } from './plan-types.ts';
-import { spreadsheetText } from '../csv.ts';
+import { csvField, spreadsheetText } from '../csv.ts';
 
 export interface SexagesimalOptions {
 	/** Decimals of the last field (seconds of time for RA, arcseconds for Dec). */
@@ -139,11 +139,6 @@ function rowOf(a: PlanAssignment): ObservingListRow {
 /** The observing list of one telescope, in plan order. */
 export function observingListRows(plan: NetworkPlan, telescopeId: string): ObservingListRow[] {
 	return telescopePlanOf(plan, telescopeId).assignments.map(rowOf);
-}
-
-/** RFC 4180 field: quoted when it holds a comma, quote, CR or LF; quotes doubled inside. */
-export function csvField(value: string): string {
-	return /[",\r\n]/.test(value) ? `"${value.replace(/"/g, '""')}"` : value;
 }
 
 function fixed(x: number, decimals: number): string {

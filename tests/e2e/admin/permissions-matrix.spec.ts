@@ -47,8 +47,14 @@ const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean; allowed
 	{ path: '/inbox/streams?/save', allowed: ['admin', 'coordinator'] },
 	{ path: '/inbox/streams?/reset', allowed: ['admin', 'coordinator'] },
 	{ path: '/catalogs/upload', allowed: ['admin', 'coordinator'] },
+	// The kilonova rules: an empty form is refused field by field; restoring the defaults needs no input (the thresholds are the defaults here already).
+	{ path: '/candidates/rules?/save', allowed: ['coordinator'] },
+	{ path: '/candidates/rules?/restore', allowed: ['coordinator'], ok: true },
 	// Event pages, on an event of the matrix's own (published in beforeAll).
 	{ path: '/events/{eventId}?/acknowledge', allowed: ['duty', 'coordinator'] },
+	// Closing needs a reason and a tick (400 without); reopening an event that is not closed is refused (409): nothing changes.
+	{ path: '/events/{eventId}?/close', allowed: ['coordinator'] },
+	{ path: '/events/{eventId}?/reopen', allowed: ['coordinator'], allowedStatus: 409 },
 	{ path: '/events/{eventId}/targets?/claim', allowed: ['observer', 'coordinator'] },
 	{ path: '/events/{eventId}/targets?/start', allowed: ['observer', 'coordinator'] },
 	{ path: '/events/{eventId}/targets?/done', allowed: ['observer', 'coordinator'] },
@@ -76,11 +82,17 @@ const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean; allowed
 ];
 
 /**
- * Every role against every mutating API route of the candidate work, on a candidate of the
- * matrix's event. Each body is refused by validation, so a role that may act gets `allowedStatus`
+ * Every role against every mutating API route of the candidate work and of closing an event, on the
+ * matrix's event and its candidate (and the event's exports, which every signed-in member may read). Each body is refused by validation, so a role that may act gets `allowedStatus`
  * (nothing is changed), a role that may not gets 403 and nobody signed in gets 401.
  */
-const API_MATRIX: { method: 'POST' | 'PUT' | 'DELETE'; path: string; data?: unknown; allowed: RoleName[]; allowedStatus: number }[] = [
+const API_MATRIX: { method: 'GET' | 'POST' | 'PUT' | 'DELETE'; path: string; data?: unknown; allowed: RoleName[]; allowedStatus: number }[] = [
+	// No reason given (422); the event is not closed, so there is nothing to reopen (409).
+	{ method: 'POST', path: '/api/v1/events/{eventId}/close', data: {}, allowed: ['coordinator'], allowedStatus: 422 },
+	{ method: 'POST', path: '/api/v1/events/{eventId}/reopen', data: {}, allowed: ['coordinator'], allowedStatus: 409 },
+	// An event's record is readable by every signed-in member, never by nobody.
+	{ method: 'GET', path: '/events/{eventId}/export/claims.csv', allowed: [...ROLES_LIST], allowedStatus: 200 },
+	{ method: 'GET', path: '/events/{eventId}/export/pointings.json', allowed: [...ROLES_LIST], allowedStatus: 200 },
 	{ method: 'POST', path: '/api/v1/candidates/{candidateId}/photometry', data: {}, allowed: ['observer', 'spectroscopist', 'coordinator'], allowedStatus: 422 },
 	{ method: 'POST', path: '/api/v1/candidates/{candidateId}/spectra', allowed: ['spectroscopist', 'coordinator'], allowedStatus: 422 },
 	{ method: 'POST', path: '/api/v1/candidates/{candidateId}/take', data: { note: 'x'.repeat(600) }, allowed: ['spectroscopist', 'coordinator'], allowedStatus: 422 },
@@ -159,7 +171,7 @@ for (const role of [...ROLES_LIST, null] as const) {
 		const seen: string[] = [];
 		const wanted: string[] = [];
 		for (const row of API_MATRIX) {
-			const url = row.path.replace('{candidateId}', candidateId);
+			const url = row.path.replace('{candidateId}', candidateId).replace('{eventId}', eventId);
 			const res = await ctx.fetch(url, { method: row.method, headers: { accept: 'application/json' }, ...(row.data !== undefined ? { data: row.data } : {}) });
 			const expected = role === null ? 401 : row.allowed.includes(role) ? row.allowedStatus : 403;
 			seen.push(`${row.method} ${row.path} ${res.status()}`);

@@ -23,7 +23,7 @@ function skymapFile(sourceId: string, peak: { raDeg: number; decDeg: number } = 
 }
 
 /** The fixture notice, renamed and moved to now (merger 30 min ago) so that tonight's pointings are after it. */
-function noticeXml(sourceId: string): string {
+export function noticeXml(sourceId: string): string {
 	const merger = new Date(Date.now() - 30 * 60_000).toISOString();
 	return readFileSync('tests/fixtures/notices/bns-initial.xml', 'utf8')
 		.replaceAll('SX30041207', sourceId)

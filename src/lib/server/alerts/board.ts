@@ -8,6 +8,7 @@ import * as table from '../platform/db/schema';
 import { ackState, escalateAfterMin, pagesFor, type PageView } from '../duty/paging';
 import type { AckView, EventDetail, EventView, PageRow, SkymapView } from '../../event-view';
 import { QUIET_ACTIONS } from '../../activity';
+import { closureOf } from './events';
 
 export type { AckView, EventView, NoticeView, PageRow, SkymapView } from '../../event-view';
 
@@ -85,8 +86,9 @@ function views(events: table.GwEvent[]): { views: EventView[]; pages: Map<string
 		const current = skymapView(latestMap ?? latestNoticeMap);
 		if (current && latestNoticeMap?.error && latestNoticeMap !== latestMap) current.error = latestNoticeMap.error;
 		const ofEvent = notices.filter((n) => n.notice.eventId === e.id);
-		// The retraction that made the event retracted is its earliest (ingest.ts, refreshEvent).
-		const retraction = e.state === 'retracted' ? ofEvent.find((n) => n.notice.kind === 'retraction') : undefined;
+		// The retraction that made the event retracted is its earliest (ingest.ts, refreshEvent); a
+		// closed event keeps it too.
+		const retraction = e.retractedAt ? ofEvent.find((n) => n.notice.kind === 'retraction') : undefined;
 		const reason = (retraction?.notice.parsed as { reason?: unknown } | undefined)?.reason;
 		return {
 			id: e.id,
@@ -97,6 +99,7 @@ function views(events: table.GwEvent[]): { views: EventView[]; pages: Map<string
 			createdAt: e.createdAt.toISOString(),
 			retractedAt: iso(e.retractedAt),
 			retractionReason: typeof reason === 'string' && reason ? reason : null,
+			closure: closureOf(e),
 			latestKind: e.latestKind,
 			farHz: e.farHz,
 			classification: e.classification,

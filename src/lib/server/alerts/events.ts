@@ -7,6 +7,8 @@ import { asc, desc, eq } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { farHzToPerYear } from '../../alerts/voevent.ts';
+import { DomainError } from '../platform/errors';
+import { CLOSE_REASON_LABELS, type ClosureView } from '../../event-view.ts';
 
 export interface SkymapBrief {
 	skymapId: string;
@@ -31,6 +33,8 @@ export interface EventListItem {
 	classification: table.Classification | null;
 	skymap: SkymapBrief | null;
 	triage: table.TriageVerdict | null;
+	/** Who closed the event, when, why and their note; null while it is open. */
+	closure: ClosureView | null;
 	createdAt: string;
 	updatedAt: string | null;
 }
@@ -62,6 +66,7 @@ function item(e: table.GwEvent, summary: table.SkymapSummary | null | undefined)
 		classification: e.classification,
 		skymap: brief(e.latestSkymapId, summary),
 		triage: e.triage,
+		closure: closureOf(e),
 		createdAt: e.createdAt.toISOString(),
 		updatedAt: e.updatedAt?.toISOString() ?? null
 	};
@@ -180,4 +185,49 @@ export function catalogInUse(): string | null {
 			.limit(1)
 			.get()?.id ?? null
 	);
+}
+
+type ClosureFields = Pick<table.GwEvent, 'state' | 'closedAt' | 'closeReason' | 'closeNote' | 'closedBy'>;
+
+/** The closure of an event row (who by name, when, why, the note), or null when it is not closed. */
+export function closureOf(e: ClosureFields): ClosureView | null {
+	if (e.state !== 'closed' || !e.closedAt) return null;
+	const by = e.closedBy ? (db.select({ name: table.user.name }).from(table.user).where(eq(table.user.id, e.closedBy)).get()?.name ?? null) : null;
+	return { reason: e.closeReason ?? 'search-complete', note: e.closeNote ?? null, by, at: e.closedAt.toISOString() };
+}
+
+/** An instant as ISO 8601 UTC to the second. */
+const isoSecond = (iso: string) => iso.replace(/\.\d{3}Z$/, 'Z');
+
+/**
+ * The sentence refusing work on a closed event: who closed it, when, why, and what to do.
+ * `doing` completes it, e.g. "new pointings are not recorded".
+ */
+export function closedMessage(closure: ClosureView, doing: string): string {
+	return (
+		`This event was closed by ${closure.by ?? 'a coordinator'} at ${isoSecond(closure.at)} (${CLOSE_REASON_LABELS[closure.reason].short}): ` +
+		`${doing}. Ask a coordinator to reopen it.`
+	);
+}
+
+/** Work refused because its event is closed: 409 `event_closed`, naming who closed it, when and why. */
+export class EventClosed extends DomainError {
+	constructor(
+		readonly closure: ClosureView,
+		doing: string
+	) {
+		super(409, 'event_closed', closedMessage(closure, doing));
+	}
+}
+
+/**
+ * Refuse new work on a closed event (pointings, claims, candidates, photometry, spectrum takes):
+ * throws EventClosed. Takes the event row when the caller has it, else its id (an unknown id passes:
+ * the caller answers 404 in its own words). Every later stage asks this before storing anything.
+ */
+export function assertEventOpen(event: string | ClosureFields, doing: string): void {
+	const row = typeof event === 'string' ? db.select().from(table.gwEvent).where(eq(table.gwEvent.id, event)).get() : event;
+	if (!row) return;
+	const closure = closureOf(row);
+	if (closure) throw new EventClosed(closure, doing);
 }

@@ -17,6 +17,7 @@ export interface InboxProblem {
 	inboxId: number;
 	key: string;
 	via: table.NoticeInboxRow['via'];
+	format: table.NoticeInboxRow['format'];
 	receivedAt: string;
 	processedAt: string | null;
 	attempts: number;
@@ -48,6 +49,7 @@ export function listInboxProblems(limit = 50): InboxProblem[] {
 		inboxId: r.id,
 		key: r.ivorn.startsWith('invalid:') ? 'no readable IVORN' : r.ivorn,
 		via: r.via,
+		format: r.format,
 		receivedAt: r.receivedAt.toISOString(),
 		processedAt: r.processedAt?.toISOString() ?? null,
 		attempts: r.attempts,

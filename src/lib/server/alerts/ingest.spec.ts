@@ -12,6 +12,8 @@ import { onRecorded, type LiveMessage } from '../platform/realtime';
 import { storedFileExists, useStorageRoot } from '../platform/storage';
 import { updatePolicy, DEFAULT_TRIAGE_POLICY } from './triage-policy';
 import { commitNotice, eventIdFor, processInbox, reprocessNotice, retryPending, retrySkymaps } from './ingest';
+import { clearSkyMapCache, skyMapById } from './skymap-cache';
+import { gzipSync } from 'node:zlib';
 import { submitNotice } from './service';
 import { saveVocabulary, vocabularyFor } from './streams';
 import { vocabularySchema } from '../../alerts/voevent.ts';
@@ -43,9 +45,44 @@ async function ingest(xml: string, via: 'vtp' | 'api' = 'vtp') {
 	return processInbox(c.inboxId, { fetch: fetchOpts });
 }
 
+const FORMATS = ['voevent', 'json'] as const;
+const json = (name: string) => raw(`json/${name}`);
+
+/**
+ * One invented story in either format (the JSON fixtures are written by
+ * tests/fixtures/notices/json-fixtures.ts with the VOEvent fixtures' ids, times and figures).
+ */
+const stories = {
+	voevent: {
+		preliminary: () => notice('bns-preliminary.xml'),
+		initial: () => notice('bns-initial.xml'),
+		update: () => notice('bns-update.xml'),
+		retraction: () => notice('retraction.xml'),
+		/** The retraction fixture turned onto the neutron-star event, authored 08:10 UTC. */
+		retractionOfBns: () =>
+			notice('retraction.xml', [
+				['SX30041315-2-retraction', 'SX30041207-9-retraction'],
+				['SX30041315-1-preliminary', 'SX30041207-1-preliminary'],
+				['SX30041315', 'SX30041207'],
+				['2030-04-13T15:40:00', '2030-04-12T08:10:00']
+			]),
+		testRole: () => notice('test-role.xml'),
+		retractionReason: 'Retracted: instrumental artefact.' as string | null
+	},
+	json: {
+		preliminary: () => json('bns-preliminary.json'),
+		initial: () => json('bns-initial.json'),
+		update: () => json('bns-update.json'),
+		retraction: () => json('retraction.json'),
+		retractionOfBns: () => json('retraction.json').replace('SX30041315', 'SX30041207').replace('2030-04-13T15:40:00Z', '2030-04-12T08:10:00Z'),
+		testRole: () => json('test-role.json'),
+		retractionReason: null as string | null
+	}
+};
+
 /** Process the fixture notice and crash right after the given durable step. */
-async function crashAt(at: 'stored' | 'analysed') {
-	const c = commitNotice(notice('bns-initial.xml'), 'vtp');
+async function crashAt(at: 'stored' | 'analysed', text = notice('bns-initial.xml')) {
+	const c = commitNotice(text, 'vtp');
 	await expect(
 		processInbox(c.inboxId, {
 			fetch: fetchOpts,
@@ -141,10 +178,11 @@ describe('ingest: one notice end to end', () => {
 	});
 });
 
-describe('ingest: idempotent and resumable', () => {
+describe.each(FORMATS)('ingest (%s notices): idempotent and resumable', (format) => {
+	const story = () => stories[format];
 	it('the same IVORN twice gives one inbox row and one notice; the API answers 201 then 200', async () => {
 		expect.hasAssertions();
-		const xml = notice('bns-preliminary.xml');
+		const xml = story().preliminary();
 		const first = await submitNotice(xml, 'api', { fetch: fetchOpts });
 		const second = await submitNotice(xml, 'api', { fetch: fetchOpts });
 		expect(first.status).toBe(201);
@@ -159,7 +197,7 @@ describe('ingest: idempotent and resumable', () => {
 
 	it('a row committed but never processed is completed by retryPending()', async () => {
 		expect.hasAssertions();
-		const c = commitNotice(notice('bns-preliminary.xml'), 'vtp');
+		const c = commitNotice(story().preliminary(), 'vtp');
 		expect(database.select().from(table.gwEvent).all()).toHaveLength(0);
 		const done = await retryPending({ fetch: fetchOpts });
 		expect(done.map((d) => d.inboxId)).toEqual([c.inboxId]);
@@ -169,7 +207,7 @@ describe('ingest: idempotent and resumable', () => {
 
 	it('a crash after the notice was stored and before the sky map is resumed without doubles', async () => {
 		expect.hasAssertions();
-		await crashAt('stored');
+		await crashAt('stored', story().initial());
 		expect(database.select().from(table.notice).all()).toHaveLength(1);
 		expect(database.select().from(table.skymap).all()).toHaveLength(0);
 		expect(database.select().from(table.noticeInbox).get()!.processedAt).toBeNull();
@@ -186,46 +224,45 @@ describe('ingest: idempotent and resumable', () => {
 
 	it('a crash after analysis reuses the stored sky map', async () => {
 		expect.hasAssertions();
-		await crashAt('analysed');
+		await crashAt('analysed', story().initial());
 		await retryPending({ fetch: fetchOpts });
 		expect(database.select().from(table.skymap).all()).toHaveLength(1);
 		expect(database.select().from(table.gwEvent).get()!.latestSkymapId).toBe(database.select().from(table.skymap).get()!.id);
 	});
 });
 
-describe('ingest: history, supersede chain and retraction', () => {
+describe.each(FORMATS)('ingest (%s notices): history, supersede chain and retraction', (format) => {
+	const story = () => stories[format];
 	it('places notices by their own authored time whatever the arrival order', async () => {
 		expect.hasAssertions();
 		// Arrival: update (authored 08:15:30.5Z), preliminary (07:31:09Z), initial (08:02:00Z).
-		const update = await ingest(notice('bns-update.xml'));
-		const prelim = await ingest(notice('bns-preliminary.xml'));
-		const initial = await ingest(notice('bns-initial.xml'));
+		const update = await ingest(story().update());
+		const prelim = await ingest(story().preliminary());
+		const initial = await ingest(story().initial());
 		expect([update.outcome, prelim.outcome, initial.outcome]).toEqual(['event-created', 'notice-added', 'notice-added']);
 		const event = database.select().from(table.gwEvent).get()!;
 		expect(event.latestNoticeId).toBe(update.noticeId);
 		expect(event.latestKind).toBe('update');
 		expect(event.farHz).toBe(1.2e-12);
-		const updateMap = database.select().from(table.skymap).where(eq(table.skymap.noticeId, update.noticeId!)).get()!;
-		expect(event.latestSkymapId).toBe(updateMap.id);
+		// The VOEvent update names its own map; the JSON update carries none, so the initial's map stays shown.
+		const latestMapNotice = format === 'voevent' ? update : initial;
+		const latestMap = database.select().from(table.skymap).where(eq(table.skymap.noticeId, latestMapNotice.noticeId!)).get()!;
+		expect(event.latestSkymapId).toBe(latestMap.id);
+		expect(database.select().from(table.skymap).all()).toHaveLength(format === 'voevent' ? 3 : 2);
 		const prelimMap = database.select().from(table.skymap).where(eq(table.skymap.noticeId, prelim.noticeId!)).get()!;
-		expect(prelimMap.summary!.area90).toBeGreaterThan(updateMap.summary!.area90 * 5);
+		expect(prelimMap.summary!.area90).toBeGreaterThan(latestMap.summary!.area90 * 5);
 		const history = database.select().from(table.notice).orderBy(table.notice.authoredAt).all();
 		expect(history.map((n) => n.kind)).toEqual(['preliminary', 'initial', 'update']);
-		expect(history[2].supersedesIvorn).toBe('ivo://strainline.example/fake-broker#SX30041207-2-initial');
+		// JSON notices cite nothing: the order comes from the authored times alone.
+		expect(history[2].supersedesIvorn).toBe(format === 'voevent' ? 'ivo://strainline.example/fake-broker#SX30041207-2-initial' : null);
 		const latestFlags = log.filter((m): m is LiveMessage<'notice.processed'> => m.type === 'notice.processed' && m.room === 'board').map((m) => m.payload.latest);
 		expect(latestFlags).toEqual([true, false, false]);
 	});
 
 	it('a retraction marks the event retracted once, says so on both rooms, and wins over later-arriving updates', async () => {
 		expect.hasAssertions();
-		await ingest(notice('bns-preliminary.xml'));
-		const retraction = notice('retraction.xml', [
-			['SX30041315-2-retraction', 'SX30041207-9-retraction'],
-			['SX30041315-1-preliminary', 'SX30041207-1-preliminary'],
-			['SX30041315', 'SX30041207'],
-			['2030-04-13T15:40:00', '2030-04-12T08:10:00']
-		]);
-		const r = await ingest(retraction);
+		await ingest(story().preliminary());
+		const r = await ingest(story().retractionOfBns());
 		expect(r.outcome).toBe('event-retracted');
 		let event = database.select().from(table.gwEvent).get()!;
 		expect(event.state).toBe('retracted');
@@ -237,12 +274,13 @@ describe('ingest: history, supersede chain and retraction', () => {
 		const retracted = log.filter((m) => m.type === 'event.retracted');
 		expect(retracted.map((m) => m.room).sort()).toEqual(['board', 'event:sx30041207']);
 		// The source's stated reason and the claims freed (none here) travel with the message.
-		expect(retracted[0].payload).toEqual({ eventId: 'sx30041207', noticeId: r.noticeId, reason: 'Retracted: instrumental artefact.' });
+		// (A JSON retraction states no reason.)
+		expect(retracted[0].payload).toEqual({ eventId: 'sx30041207', noticeId: r.noticeId, reason: story().retractionReason });
 		const processed = log.filter((m) => m.type === 'notice.processed' && m.room === 'board').at(-1)!.payload;
 		expect(processed).toMatchObject({ kind: 'retraction', significant: false, latest: true });
 
 		// An update authored later than the retraction, arriving after it.
-		await ingest(notice('bns-update.xml'));
+		await ingest(story().update());
 		event = database.select().from(table.gwEvent).get()!;
 		expect(event.state).toBe('retracted');
 		expect(event.latestKind).toBe('update');
@@ -252,7 +290,7 @@ describe('ingest: history, supersede chain and retraction', () => {
 
 	it('a retraction arriving before any other notice still creates the event, retracted', async () => {
 		expect.hasAssertions();
-		const r = await ingest(notice('retraction.xml'));
+		const r = await ingest(story().retraction());
 		expect(r.outcome).toBe('event-retracted');
 		const event = database.select().from(table.gwEvent).get()!;
 		expect(event).toMatchObject({ id: 'sx30041315', state: 'retracted', latestKind: 'retraction', farHz: null, latestSkymapId: null });
@@ -262,8 +300,9 @@ describe('ingest: history, supersede chain and retraction', () => {
 
 	it('keeps a test-role event, marked as such and not significant', async () => {
 		expect.hasAssertions();
-		await ingest(notice('test-role.xml'));
+		await ingest(story().testRole());
 		const event = database.select().from(table.gwEvent).get()!;
+		expect(event.sourceEventId).toBe(format === 'voevent' ? 'SXT0001' : 'MSXT0001');
 		expect(event.role).toBe('test');
 		expect(event.triage!.reasons).toContain('role test ≠ observation → skip');
 		expect(log.find((m) => m.type === 'notice.processed')!.payload).toMatchObject({ role: 'test', significant: false });
@@ -520,5 +559,80 @@ describe('ingest: VOEvent semantics and stream vocabularies', () => {
 		expect((await ingest(std('cdata-whitespace.xml'))).outcome).toBe('notice-added');
 		const event = database.select().from(table.gwEvent).get()!;
 		expect(event).toMatchObject({ id: 'sx30050202', latestKind: 'update', farHz: 3e-12 });
+	});
+});
+
+describe('ingest: JSON notices carry their sky map', () => {
+	it('stores and analyses the embedded map exactly like a fetched one, keeping the raw JSON and its format in the inbox', async () => {
+		expect.hasAssertions();
+		clearSkyMapCache();
+		const text = json('bns-initial.json');
+		const r = await ingest(text);
+		expect(r).toMatchObject({ outcome: 'event-created', eventId: 'sx30041207', error: null });
+		const inbox = database.select().from(table.noticeInbox).get()!;
+		expect(inbox).toMatchObject({ format: 'json', rawXml: text, ivorn: 'ivo://json-notice/SX30041207#initial-2030-04-12T08:02:00.000Z', error: null });
+		const map = database.select().from(table.skymap).get()!;
+		// Same file, same place, same figures as the fetched map of the VOEvent test above.
+		expect(map).toMatchObject({ sourceUrl: null, fetchAttempts: 0, error: null, retryAt: null, filePath: `skymaps/sx30041207/${r.noticeId}.fits.gz` });
+		expect(map.bytes).toBe(readFileSync(dir + 'skymap-demo.multiorder.fits.gz').length);
+		expect(map.summary!.area90 / astropy.area90Deg2).toBeCloseTo(1, 6);
+		expect(map.summary!.area50 / astropy.area50Deg2).toBeCloseTo(1, 6);
+		expect(storedFileExists(map.filePath!)).toBe(true);
+		expect(skyMapById(map.id)).not.toBeNull();
+		const event = database.select().from(table.gwEvent).get()!;
+		expect(event).toMatchObject({ latestSkymapId: map.id, latestKind: 'initial', state: 'active' });
+		expect(event.triage!.verdict).toBe('follow');
+		const stored = database.select().from(table.notice).get()!;
+		expect(stored.parsed).toMatchObject({ significant: true, instruments: ['H1', 'L1', 'V1'] });
+		expect(actions('board')).toEqual(['event.created', 'skymap.analysed', 'notice.processed']);
+	});
+
+	it('the same map gives the same figures whether the notice carries it or names it', async () => {
+		expect.hasAssertions();
+		await ingest(notice('bns-initial.xml'));
+		const fetched = database.select().from(table.skymap).get()!;
+		database = createTestDatabase();
+		await ingest(json('bns-initial.json'));
+		const embedded = database.select().from(table.skymap).get()!;
+		expect(embedded.summary).toEqual(fetched.summary);
+		expect(embedded.sha256).toBe(fetched.sha256);
+	});
+
+	it('refuses a gzip bomb inside a notice with the reason, keeps it in the inbox, and takes it on reprocessing once the limit allows', async () => {
+		expect.hasAssertions();
+		const bomb = gzipSync(Buffer.alloc(12 * 1024 * 1024));
+		const doc = JSON.parse(json('bns-update.json'));
+		doc.event.skymap = bomb.toString('base64');
+		const text = JSON.stringify(doc);
+		const saved = config.alerts.skymapMaxInflatedBytes;
+		config.alerts.skymapMaxInflatedBytes = 4 * 1024 * 1024;
+		let inboxId: number;
+		try {
+			const api = await submitNotice(text, 'api', { format: 'json' });
+			expect(api.status).toBe(422);
+			expect(api.outcome.error).toBe('the sky map inside the notice unpacks to more than 4 MiB, the limit for a sky map');
+			inboxId = api.outcome.inboxId;
+			expect(database.select().from(table.noticeInbox).get()).toMatchObject({ format: 'json', rawXml: text, error: api.outcome.error });
+			expect(database.select().from(table.gwEvent).all()).toHaveLength(0);
+		} finally {
+			config.alerts.skymapMaxInflatedBytes = saved;
+		}
+		// Under the normal limit the same row is taken; the zeros are no sky map, which the event says.
+		const again = await reprocessNotice(inboxId);
+		expect(again).toMatchObject({ outcome: 'event-created', eventId: 'sx30041207' });
+		expect(again!.error).toMatch(/^the sky map could not be analysed: /);
+		expect(database.select().from(table.noticeInbox).all()).toHaveLength(1);
+	});
+
+	it('a broken JSON notice is kept under its content hash with the reason; a JSON resend is a repeat', async () => {
+		expect.hasAssertions();
+		const broken = await submitNotice('{"superevent_id": "SX1", ', 'api', { format: 'json' });
+		expect(broken.status).toBe(422);
+		expect(broken.outcome.error).toMatch(/^notice is not valid JSON: /);
+		expect(database.select().from(table.noticeInbox).get()!.ivorn).toMatch(/^invalid:sha256:/);
+		const first = await submitNotice(json('bns-update.json'), 'api', { format: 'json' });
+		const resent = await submitNotice(json('bns-update.json'), 'api');
+		expect(first.status).toBe(201);
+		expect(resent).toMatchObject({ status: 200, duplicate: true });
 	});
 });

@@ -1,7 +1,8 @@
 /**
- * Alert ingestion: the inbox first (raw XML, unique IVORN), then processing — parse, upsert the
- * event, attach the notice, place it in the event's history by its own authored time, fetch and
- * analyse the sky map, apply the triage policy, and tell the board.
+ * Alert ingestion: the inbox first (raw text as received, its format, unique IVORN), then
+ * processing — parse (VOEvent XML or a JSON notice, by the row's format), upsert the event, attach
+ * the notice, place it in the event's history by its own authored time, fetch (or take from the
+ * notice) and analyse the sky map, apply the triage policy, and tell the board.
  *
  * Every step can be repeated: an inbox row whose processing did not finish is processed again
  * (`retryPending`), and each step first looks for what an earlier attempt already stored. So a
@@ -13,13 +14,14 @@ import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { randomId } from '../people/auth';
 import { record, SYSTEM, type Actor } from '../platform/realtime';
-import { fetchSkymap, SkymapFetchError, skymapReadError, skymapReadOptions, type SkymapFetchOptions } from './skymap-fetch';
+import { fetchSkymap, jsonNoticeLimits, SkymapFetchError, skymapReadError, skymapReadOptions, type SkymapFetchOptions } from './skymap-fetch';
 import { keepSkyMap } from './skymap-cache';
 import { readStoredFile, saveSkymapFile } from '../platform/storage';
 import { policyInput, factsOf } from './triage-policy';
 import { catalogInUse } from './events';
 import { NoticeWaitError, sniffIvorn, type Notice as ParsedNotice } from '../../alerts/voevent.ts';
 import { readNotice } from './streams';
+import { detectNoticeFormat, parseJsonNotice, sniffJsonNoticeIvorn, type NoticeFormat } from '../../alerts/notice-json.ts';
 import { evaluateTriage } from '../../alerts/triage.ts';
 import { analyseSkymap, skyRaster, type SkyMap } from '../../sky/index.ts';
 
@@ -44,14 +46,21 @@ function syntheticKey(rawXml: string): string {
 
 /**
  * Store the raw notice in the inbox (the ack waits for this). A repeat of a known IVORN writes
- * nothing and returns the existing row.
+ * nothing and returns the existing row. The format is the caller's (a Content-Type, an archive
+ * entry's label) or else read from the text's first character; a JSON notice is known by the
+ * IVORN its reader gives it (event, alert type, creation time).
  */
-export function commitNotice(rawXml: string, via: InboxVia, opts: { uploadedSkymapPath?: string | null; now?: Date } = {}): CommitResult {
-	const sniffed = sniffIvorn(rawXml);
+export function commitNotice(
+	rawXml: string,
+	via: InboxVia,
+	opts: { uploadedSkymapPath?: string | null; now?: Date; format?: NoticeFormat } = {}
+): CommitResult {
+	const format = opts.format ?? detectNoticeFormat(rawXml) ?? 'voevent';
+	const sniffed = format === 'json' ? sniffJsonNoticeIvorn(rawXml) : sniffIvorn(rawXml);
 	const ivorn = sniffed && IVORN_SHAPE.test(sniffed) ? sniffed : syntheticKey(rawXml);
 	const inserted = db
 		.insert(table.noticeInbox)
-		.values({ ivorn, rawXml, via, receivedAt: opts.now ?? new Date(), uploadedSkymapPath: opts.uploadedSkymapPath ?? null })
+		.values({ ivorn, rawXml, format, via, receivedAt: opts.now ?? new Date(), uploadedSkymapPath: opts.uploadedSkymapPath ?? null })
 		.onConflictDoNothing({ target: table.noticeInbox.ivorn })
 		.returning({ id: table.noticeInbox.id })
 		.get();
@@ -65,7 +74,7 @@ export function commitNotice(rawXml: string, via: InboxVia, opts: { uploadedSkym
 	if (refusedEarlier) {
 		// A corrected resend of a notice that was refused as malformed: not a repeat, take the new text.
 		db.update(table.noticeInbox)
-			.set({ rawXml, via, receivedAt: opts.now ?? new Date(), processedAt: null, error: null, attempts: 0, uploadedSkymapPath: opts.uploadedSkymapPath ?? null })
+			.set({ rawXml, format, via, receivedAt: opts.now ?? new Date(), processedAt: null, error: null, attempts: 0, uploadedSkymapPath: opts.uploadedSkymapPath ?? null })
 			.where(eq(table.noticeInbox.id, existing.id))
 			.run();
 		return { inboxId: existing.id, ivorn, duplicate: false };
@@ -181,8 +190,10 @@ async function runProcess(inboxId: number, opts: IngestOptions): Promise<IngestO
 	db.update(table.noticeInbox).set({ attempts: row.attempts + 1 }).where(eq(table.noticeInbox.id, inboxId)).run();
 
 	let parsed: ParsedNotice;
+	let embeddedSkymap: Uint8Array | null = null;
 	try {
-		parsed = readNotice(row.rawXml).notice;
+		if (row.format === 'json') ({ notice: parsed, embeddedSkymap } = parseJsonNotice(row.rawXml, jsonNoticeLimits()));
+		else parsed = readNotice(row.rawXml).notice;
 	} catch (e) {
 		if (e instanceof NoticeWaitError) {
 			// Out of order: kept, unprocessed, with the reason; read again once a cited packet is stored.
@@ -206,7 +217,7 @@ async function runProcess(inboxId: number, opts: IngestOptions): Promise<IngestO
 	}
 	opts.onStage?.('stored', { eventId: stored.eventId, noticeId: stored.noticeId });
 
-	const sky = await attachSkymap(stored.eventId, stored.noticeId, parsed, row.uploadedSkymapPath, opts.fetch);
+	const sky = await attachSkymap(stored.eventId, stored.noticeId, parsed, { uploadedPath: row.uploadedSkymapPath, embedded: embeddedSkymap }, opts.fetch);
 	opts.onStage?.('analysed', { eventId: stored.eventId, noticeId: stored.noticeId });
 
 	const event = db.transaction((tx) => {
@@ -304,7 +315,7 @@ function storeNotice(n: ParsedNotice, inboxId: number): Stored {
 				.get();
 			eventCreated = true;
 		}
-		const before = event.state;
+		const retractedBefore = event.retractedAt !== null;
 		let noticeId: string;
 		if (existingNotice) {
 			noticeId = existingNotice.id;
@@ -335,7 +346,8 @@ function storeNotice(n: ParsedNotice, inboxId: number): Stored {
 			eventId: event.id,
 			noticeId,
 			eventCreated,
-			becameRetracted: before !== 'retracted' && after.state === 'retracted',
+			// A closed event stays closed, but its teams still hear of the retraction.
+			becameRetracted: !retractedBefore && after.retractionNoticeId !== null,
 			retractionNoticeId: after.retractionNoticeId
 		};
 	});
@@ -364,7 +376,8 @@ function refreshEvent(tx: Tx, eventId: string): { state: table.GwEvent['state'];
 		.orderBy(asc(table.notice.authoredAt), asc(table.skymap.createdAt))
 		.all();
 	const map = maps.at(-1) ?? null;
-	const state: table.GwEvent['state'] = retraction ? 'retracted' : event.state === 'retracted' ? 'active' : event.state;
+	// A coordinator's close stands whatever arrives; reopening it finds 'retracted' again (closeout/close.ts).
+	const state: table.GwEvent['state'] = event.state === 'closed' ? 'closed' : retraction ? 'retracted' : 'active';
 	const eventTime = (content?.parsed as { eventTime?: string | null } | undefined)?.eventTime;
 	const next = {
 		state,
@@ -390,30 +403,38 @@ interface SkyResult {
 	error: string | null;
 }
 
-/** Fetch (or read the uploaded file), analyse and store the notice's sky map; reuse an earlier attempt's row. */
+/**
+ * Fetch (or read the uploaded file, or take the map the notice carries), analyse and store the
+ * notice's sky map; reuse an earlier attempt's row. An uploaded file wins over an embedded map,
+ * and either over a URL. An embedded map is stored and analysed exactly like a fetched one.
+ */
 async function attachSkymap(
 	eventId: string,
 	noticeId: string,
 	n: ParsedNotice,
-	uploadedPath: string | null,
+	given: { uploadedPath: string | null; embedded: Uint8Array | null },
 	fetchOpts: SkymapFetchOptions | undefined
 ): Promise<SkyResult | null> {
-	if (n.kind === 'retraction' && !uploadedPath) return null;
-	if (!uploadedPath && !n.skymapUrl) return null;
+	const { uploadedPath, embedded } = given;
+	const local = uploadedPath !== null || embedded !== null;
+	if (n.kind === 'retraction' && !local) return null;
+	if (!local && !n.skymapUrl) return null;
 	const earlier = db.select().from(table.skymap).where(eq(table.skymap.noticeId, noticeId)).get();
 	if (earlier) return { skymapId: earlier.id, summary: earlier.summary, error: earlier.error };
 
-	const sourceUrl = uploadedPath ? null : n.skymapUrl;
+	const sourceUrl = local ? null : n.skymapUrl;
 	let bytes: Buffer;
 	try {
-		bytes = uploadedPath ? readStoredFile(uploadedPath) : (await fetchSkymap(n.skymapUrl!, fetchOpts)).bytes;
+		if (uploadedPath) bytes = readStoredFile(uploadedPath);
+		else if (embedded) bytes = Buffer.from(embedded.buffer, embedded.byteOffset, embedded.byteLength);
+		else bytes = (await fetchSkymap(n.skymapUrl!, fetchOpts)).bytes;
 	} catch (e) {
 		const error = e instanceof SkymapFetchError ? e.message : `could not read the sky map: ${(e as Error).message}`;
-		const retry = !uploadedPath && isTransient(e) ? { fetchAttempts: 1, retryAt: retryTime(1, new Date()) } : { fetchAttempts: uploadedPath ? 0 : 1 };
+		const retry = !local && isTransient(e) ? { fetchAttempts: 1, retryAt: retryTime(1, new Date()) } : { fetchAttempts: local ? 0 : 1 };
 		return insertSkymap({ eventId, noticeId, sourceUrl, error: retry.retryAt ? `${error} (will try again)` : error, ...retry });
 	}
 	const analysis = analyse(eventId, noticeId, bytes);
-	const result = insertSkymap({ eventId, noticeId, sourceUrl, fetchAttempts: uploadedPath ? 0 : 1, ...analysis.columns });
+	const result = insertSkymap({ eventId, noticeId, sourceUrl, fetchAttempts: local ? 0 : 1, ...analysis.columns });
 	if (analysis.map) keepSkyMap(result.skymapId, analysis.map);
 	return result;
 }

@@ -285,6 +285,29 @@ describe('VtpListener against the fake broker (loopback)', () => {
 		expect((await fetch(`${b.httpBase}/skymaps/nope.fits.gz`)).status).toBe(404);
 	});
 
+	it('back-fills both formats, each with its label; an entry with only `xml` (the older layout) is a VOEvent', async () => {
+		expect.hasAssertions();
+		const b = await broker();
+		await b.publish('<VOEvent ivorn="ivo://x#1"/>');
+		await b.publishJson('{"superevent_id": "SX1"}');
+		const archive = (await (await fetch(`${b.httpBase}/notices`)).json()) as { notices: { format: string; text: string; xml?: string }[] };
+		expect(archive.notices.map((n) => [n.format, n.text, n.xml])).toEqual([
+			['voevent', '<VOEvent ivorn="ivo://x#1"/>', '<VOEvent ivorn="ivo://x#1"/>'],
+			['json', '{"superevent_id": "SX1"}', undefined]
+		]);
+		const got: [string, string][] = [];
+		const commit = async (text: string, format: string) => void got.push([format, text]);
+		expect(await backfillFromArchive({ baseUrl: b.httpBase, since: new Date(0), commit })).toBe(2);
+		expect(got).toEqual([
+			['voevent', '<VOEvent ivorn="ivo://x#1"/>'],
+			['json', '{"superevent_id": "SX1"}']
+		]);
+		const older = async () => new Response(JSON.stringify({ notices: [{ ivorn: null, publishedAt: '2030-01-01T00:00:00Z', xml: '<old/>' }] }));
+		got.length = 0;
+		expect(await backfillFromArchive({ baseUrl: 'http://archive.invalid', since: new Date(0), commit, fetch: older as unknown as typeof fetch })).toBe(1);
+		expect(got).toEqual([['voevent', '<old/>']]);
+	});
+
 	it('drops a connection whose frame header claims more than the limit', async () => {
 		const b = await broker();
 		const l = listener(b, { commit: async () => undefined, maxFrameBytes: 1000 });

@@ -10,6 +10,7 @@
 import { EventEmitter } from 'node:events';
 import net from 'node:net';
 import { sniffIvorn } from '../../alerts/voevent.ts';
+import type { NoticeFormat } from '../../alerts/notice-json.ts';
 import {
 	buildAck,
 	buildIamalive,
@@ -316,22 +317,30 @@ export function startListener(opts: ListenerOptions): VtpListener {
 	return l;
 }
 
+/**
+ * One notice in a broker's archive: `{ ivorn, publishedAt, format, text }`, where `format` is
+ * "voevent" or "json" and `text` the notice as published. An entry with only `xml` (the layout
+ * before JSON notices) is a VOEvent.
+ */
 export interface ArchiveItem {
 	ivorn: string | null;
 	publishedAt: string;
-	xml: string;
+	format?: NoticeFormat;
+	text?: string;
+	xml?: string;
 }
 
 /**
  * Back-fill from a broker's notice archive (`GET {baseUrl}/notices?since=ISO` →
- * `{ notices: [{ ivorn, publishedAt, xml }] }`, oldest first), committing each notice in order.
- * Used after a restart to fetch what was published while we were away; the caller's commit
- * dedupes by IVORN. Returns how many were committed.
+ * `{ notices: ArchiveItem[] }`, oldest first), committing each notice in order with its format.
+ * Used after a restart to fetch what was published while we were away, and (JSON notices, which
+ * VTP does not carry) on a timer; the caller's commit dedupes by IVORN. Returns how many were
+ * committed.
  */
 export async function backfillFromArchive(opts: {
 	baseUrl: string;
 	since: string | Date;
-	commit: (rawXml: string) => Promise<void>;
+	commit: (raw: string, format: NoticeFormat) => Promise<void>;
 	timeoutMs?: number;
 	maxBytes?: number;
 	fetch?: typeof fetch;
@@ -348,8 +357,9 @@ export async function backfillFromArchive(opts: {
 	if (!Array.isArray(data.notices)) throw new Error('archive answer has no notices array');
 	let n = 0;
 	for (const item of data.notices) {
-		if (typeof item?.xml !== 'string') continue;
-		await opts.commit(item.xml);
+		const text = typeof item?.text === 'string' ? item.text : item?.xml;
+		if (typeof text !== 'string') continue;
+		await opts.commit(text, item.format === 'json' ? 'json' : 'voevent');
 		n++;
 	}
 	return n;

@@ -154,4 +154,37 @@ describe('alert service against the fake broker (loopback)', () => {
 		expect(row.error).toMatch(/missing required Param SourceEventId/);
 		expect(row.rawXml).toBe(bad);
 	});
+
+	it('reads JSON notices from the archive on a timer (VTP carries XML only): every scenario notice once, maps from inside the notices', async () => {
+		expect.hasAssertions();
+		const b = await broker();
+		const s = new AlertsService({
+			broker: `127.0.0.1:${b.vtpPort}`,
+			archiveUrl: b.httpBase,
+			archivePollMs: 100,
+			retryIntervalMs: 60_000,
+			// No host may be fetched from: every map must come from inside its notice.
+			fetch: { allowedHosts: [], timeoutMs: 1000 },
+			listener: { backoff: { initialMs: 50, maxMs: 300, jitter: 0.5 }, silenceTimeoutMs: 5000, connectTimeoutMs: 1000 },
+			log: () => undefined
+		});
+		cleanups.push(() => s.stop());
+		await s.start();
+		await waitFor(() => b.subscriberCount() === 1, 3000, 'connection');
+		const results = await b.play('bns', { speed: 1000, format: 'json' });
+		expect(results.map((r) => r.delivered)).toEqual([0, 0, 0]);
+		await waitFor(() => processedIvorns().length === 3, 8000, 'the archive poll');
+		// Several more polls re-offer the same notices: nothing changes.
+		const polls = s.lastBackfill!.at;
+		await waitFor(() => s.lastBackfill!.at > polls, 3000, 'another poll');
+		await s.stop();
+		const inbox = database.select().from(table.noticeInbox).all();
+		expect(inbox).toHaveLength(3);
+		expect(inbox.every((r) => r.format === 'json' && r.via === 'backfill' && r.error === null)).toBe(true);
+		expect(inbox.map((r) => r.ivorn.split('#')[1].split('-')[0])).toEqual(['preliminary', 'initial', 'update']);
+		const maps = database.select().from(table.skymap).all();
+		expect(maps.length).toBeGreaterThanOrEqual(1);
+		expect(maps.every((m) => m.error === null && m.sourceUrl === null && m.summary !== null)).toBe(true);
+		expect(database.select().from(table.gwEvent).get()).toMatchObject({ sourceEventId: 'SX30041207', latestKind: 'update' });
+	});
 });

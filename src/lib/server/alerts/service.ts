@@ -11,6 +11,7 @@ import { runningService, service, stopService } from '../platform/services';
 import { SYSTEM, type Actor } from '../platform/realtime';
 import type { SkymapFetchOptions } from './skymap-fetch';
 import { backfillFromArchive, parseBrokerAddress, VtpListener, type ListenerOptions, type ListenerStatus } from './listener';
+import type { NoticeFormat } from '../../alerts/notice-json.ts';
 import { commitNotice, processInbox, retryPending, retrySkymaps, type CommitResult, type InboxVia, type IngestOutcome } from './ingest';
 
 export type LogFn = (level: 'info' | 'warn' | 'error', message: string) => void;
@@ -25,6 +26,8 @@ export interface AlertsServiceOptions {
 	backfillOverlapMs?: number;
 	/** With an empty inbox, how far back the first back-fill reaches. */
 	backfillInitialMs?: number;
+	/** Read the archive this often besides on (re)connection; 0 = only then. Default: `VTP_ARCHIVE_POLL_S`. */
+	archivePollMs?: number;
 	fetch?: SkymapFetchOptions;
 	listener?: Partial<Omit<ListenerOptions, 'host' | 'port' | 'commit'>>;
 	log?: LogFn;
@@ -53,6 +56,7 @@ export class AlertsService {
 	private readonly log: LogFn;
 	private readonly working = new Set<Promise<unknown>>();
 	private retryTimer: NodeJS.Timeout | null = null;
+	private pollTimer: NodeJS.Timeout | null = null;
 	private backfilling: Promise<number> | null = null;
 	private stopped = false;
 	lastBackfill: { at: string; committed: number; error: string | null } | null = null;
@@ -71,7 +75,8 @@ export class AlertsService {
 					log: this.log,
 					...opts.listener,
 					commit: async (xml) => {
-						this.commit(xml, 'vtp');
+						// VTP is an XML transport: whatever arrives on it is read as a VOEvent.
+						this.commit(xml, 'vtp', 'voevent');
 					}
 				})
 			: null;
@@ -92,6 +97,14 @@ export class AlertsService {
 			this.track(retrySkymaps(this.ingestOptions()));
 		}, every);
 		this.retryTimer.unref();
+		const pollMs = this.opts.archivePollMs ?? config.alerts.archivePollMs;
+		if (this.archiveUrl && pollMs > 0) {
+			// JSON notices are not sent over VTP: they are read from the archive, on this timer.
+			this.pollTimer = setInterval(() => {
+				if (!this.stopped) void this.backfill();
+			}, pollMs);
+			this.pollTimer.unref();
+		}
 		if (this.listener) this.log('info', `listening to ${this.listener.status().host}:${this.listener.status().port}${this.archiveUrl ? `, back-fill from ${this.archiveUrl}` : ''}`);
 	}
 
@@ -99,6 +112,7 @@ export class AlertsService {
 	async stop(): Promise<void> {
 		this.stopped = true;
 		if (this.retryTimer) clearInterval(this.retryTimer);
+		if (this.pollTimer) clearInterval(this.pollTimer);
 		await this.listener?.stop();
 		await this.backfilling?.catch(() => undefined);
 		while (this.working.size) await Promise.allSettled([...this.working]);
@@ -123,8 +137,8 @@ export class AlertsService {
 	}
 
 	/** Store durably (what the ack waits for), then process in the background. */
-	commit(rawXml: string, via: InboxVia): CommitResult {
-		const c = commitNotice(rawXml, via);
+	commit(raw: string, via: InboxVia, format?: NoticeFormat): CommitResult {
+		const c = commitNotice(raw, via, { format });
 		if (!c.duplicate && !this.stopped) this.track(processInbox(c.inboxId, this.ingestOptions()));
 		return c;
 	}
@@ -143,7 +157,7 @@ export class AlertsService {
 		const since = last
 			? new Date(last.at.getTime() - (this.opts.backfillOverlapMs ?? 120_000))
 			: new Date(Date.now() - (this.opts.backfillInitialMs ?? 24 * 3600_000));
-		const run = backfillFromArchive({ baseUrl: this.archiveUrl, since, commit: async (xml) => void this.commit(xml, 'backfill') })
+		const run = backfillFromArchive({ baseUrl: this.archiveUrl, since, commit: async (text, format) => void this.commit(text, 'backfill', format) })
 			.then((n) => {
 				this.lastBackfill = { at: new Date().toISOString(), committed: n, error: null };
 				return n;
@@ -189,13 +203,14 @@ export interface SubmitResult {
  * A notice given by hand (API or upload page): stored in the inbox like any other, processed
  * at once so that the answer can name the event. A repeat of a known IVORN answers 200 with
  * the existing ids; a malformed notice is kept in the inbox and answered 422 with its reason.
+ * The format is the caller's (the API's Content-Type) or else read from the text.
  */
 export async function submitNotice(
-	rawXml: string,
+	raw: string,
 	via: Extract<InboxVia, 'api' | 'upload'>,
-	opts: { actor?: Actor; uploadedSkymapPath?: string | null; fetch?: SkymapFetchOptions } = {}
+	opts: { actor?: Actor; uploadedSkymapPath?: string | null; fetch?: SkymapFetchOptions; format?: NoticeFormat } = {}
 ): Promise<SubmitResult> {
-	const c = commitNotice(rawXml, via, { uploadedSkymapPath: opts.uploadedSkymapPath });
+	const c = commitNotice(raw, via, { uploadedSkymapPath: opts.uploadedSkymapPath, format: opts.format });
 	const outcome = await processInbox(c.inboxId, { actor: opts.actor, fetch: opts.fetch });
 	const status = outcome.outcome === 'rejected' ? 422 : outcome.outcome === 'waiting' ? 202 : c.duplicate || outcome.outcome === 'already-processed' ? 200 : 201;
 	return { status, duplicate: c.duplicate, outcome };

@@ -12,10 +12,25 @@ import net from 'node:net';
 import { config } from '../platform/config';
 import { DomainError } from '../platform/errors';
 import { FitsInflateLimitError, type ReadSkyMapOptions } from '../../sky/index.ts';
+import { DEFAULT_MAX_NOTICE_BYTES } from '../../alerts/voevent.ts';
+import { maxJsonNoticeBytes, type JsonNoticeOptions } from '../../alerts/notice-json.ts';
 
 /** Options for every read of a newly fetched or uploaded sky map: the server's inflated-size cap. */
 export function skymapReadOptions(options: ReadSkyMapOptions = {}): ReadSkyMapOptions {
 	return { ...options, maxDecompressedBytes: config.alerts.skymapMaxInflatedBytes };
+}
+
+/**
+ * Limits for reading a JSON notice: the notice limit for the notice itself, and for the map it
+ * carries the same size and inflation caps as a fetched map (SKYMAP_MAX_MB, SKYMAP_MAX_INFLATED_MB).
+ */
+export function jsonNoticeLimits(): Required<JsonNoticeOptions> {
+	return { maxBytes: DEFAULT_MAX_NOTICE_BYTES, maxSkymapBytes: config.alerts.skymapMaxBytes, maxInflatedBytes: config.alerts.skymapMaxInflatedBytes };
+}
+
+/** Largest JSON notice the server takes whole (the notice limit plus its largest map in base64). */
+export function maxJsonNoticeBytesAllowed(): number {
+	return maxJsonNoticeBytes(jsonNoticeLimits());
 }
 
 /** Why a sky map could not be read, in words for the event page and the upload form. */

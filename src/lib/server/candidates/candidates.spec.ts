@@ -7,6 +7,7 @@ import * as table from '../platform/db/schema';
 import { loadSessionUser, validateApiToken, type SessionUser } from '../people/auth';
 import { issueToken } from '../people/tokens';
 import { onRecorded, SYSTEM, type LiveMessage } from '../platform/realtime';
+import { POSITION_ERR_ARCSEC_MAX } from '../../limits';
 import {
 	angularSeparationDeg,
 	CandidateError,
@@ -187,6 +188,34 @@ describe('reportCandidate', () => {
 		// Limits themselves are accepted: 4 min ahead (clock skew), exactly 1 day before, mag 5 and 30, free-text filter without a telescope.
 		expect(reportCandidate(me, input(w.eventId, { name: 'a', discoveredAt: '2026-12-02T03:04:00Z', magnitude: 30 }), NOW).candidate.magnitude).toBe(30);
 		expect(reportCandidate(me, input(w.eventId, { name: 'b', discoveredAt: '2026-12-01T00:00:00Z', magnitude: 5, filter: 'ATLAS-o' }), NOW).candidate.filter).toBe('ATLAS-o');
+	});
+
+	it('keeps a position uncertainty in arcsec, and refuses one that is not positive, too large or not a number, in the form’s words', () => {
+		expect.hasAssertions();
+		const w = world();
+		const me = { user: w.observerA };
+		const words = `Position uncertainty (arcsec) must be more than 0 and at most ${POSITION_ERR_ARCSEC_MAX}.`;
+		const cases: [unknown, string][] = [
+			[0, words],
+			[-0.5, words],
+			[POSITION_ERR_ARCSEC_MAX + 0.01, words],
+			[Number.POSITIVE_INFINITY, 'Position uncertainty (arcsec) must be a number.'],
+			['1.5″', 'Position uncertainty (arcsec) must be a number.']
+		];
+		for (const [value, message] of cases) {
+			const e = refusal(() => reportCandidate(me, input(w.eventId, { positionErrArcsec: value as number }), NOW));
+			expect(e.status, String(value)).toBe(422);
+			expect(e.fields, String(value)).toEqual({ positionErrArcsec: message });
+			expect(e.message, String(value)).toBe(message);
+		}
+		expect(db.select().from(table.candidate).all()).toHaveLength(0);
+		// The limit itself is accepted; absent stays null (not zero).
+		const wide = reportCandidate(me, input(w.eventId, { name: 'wide', positionErrArcsec: POSITION_ERR_ARCSEC_MAX }), NOW).candidate;
+		expect(wide.positionErrArcsec).toBe(POSITION_ERR_ARCSEC_MAX);
+		const sharp = reportCandidate(me, input(w.eventId, { name: 'sharp', raDeg: 10, positionErrArcsec: 0.35 }), NOW).candidate;
+		expect(sharp.positionErrArcsec).toBe(0.35);
+		expect(reportCandidate(me, input(w.eventId, { name: 'none', raDeg: 20 }), NOW).candidate.positionErrArcsec).toBeNull();
+		expect(listCandidates(w.eventId).find((c) => c.name === 'sharp')?.positionErrArcsec).toBe(0.35);
 	});
 
 	it('answers a name already used in the event with 409 naming the team, whatever the case; another event may reuse it', () => {

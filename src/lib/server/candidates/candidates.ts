@@ -16,6 +16,8 @@ import { can } from '../people/permissions';
 import { DomainError } from '../platform/errors';
 import { actsForEveryTeam, mayUseTeam, mayUseTelescope } from '../people/scope';
 import { getTelescope } from '../people/telescopes';
+import { assertEventOpen } from '../alerts/events';
+import { POSITION_ERR_ARCSEC_MAX } from '../../limits';
 import '../../field-messages';
 
 const MIN = 60_000;
@@ -31,6 +33,7 @@ const RA_RANGE = 'RA (deg, J2000) must be from 0 up to (not including) 360.';
 const DEC_RANGE = 'Dec (deg, J2000) must be from −90 to 90.';
 const MAG_RANGE = 'Magnitude (AB) must be from 5 to 30.';
 const MAG_ERR_RANGE = 'Magnitude error must be from 0 to 5.';
+const POSITION_ERR_RANGE = `Position uncertainty (arcsec) must be more than 0 and at most ${POSITION_ERR_ARCSEC_MAX}.`;
 
 /** One candidate as reported. Numbers are numbers (forms convert first); times are ISO 8601. */
 export const candidateInput = z.object({
@@ -43,6 +46,8 @@ export const candidateInput = z.object({
 		.regex(/^[A-Za-z0-9._-]+$/, 'Name may contain letters, digits, "-", "_" and "." only.'),
 	raDeg: z.number().min(0, RA_RANGE).lt(360, RA_RANGE),
 	decDeg: z.number().min(-90, DEC_RANGE).max(90, DEC_RANGE),
+	/** Radius of the position's uncertainty, arcsec (the team's own figure: 1σ or the radius they quote). */
+	positionErrArcsec: z.number().gt(0, POSITION_ERR_RANGE).max(POSITION_ERR_ARCSEC_MAX, POSITION_ERR_RANGE).optional(),
 	discoveredAt: z.iso.datetime({ offset: true }),
 	magnitude: z.number().min(5, MAG_RANGE).max(30, MAG_RANGE),
 	magnitudeErr: z.number().min(0, MAG_ERR_RANGE).max(5, MAG_ERR_RANGE).optional(),
@@ -71,6 +76,8 @@ export interface CandidateRow {
 	name: string;
 	raDeg: number;
 	decDeg: number;
+	/** Radius of the position's uncertainty, arcsec; null when the team gave none. */
+	positionErrArcsec: number | null;
 	discoveredAt: string;
 	magnitude: number;
 	magnitudeErr: number | null;
@@ -219,6 +226,7 @@ export function reportCandidate(reporter: CandidateReporter, raw: CandidateInput
 	const eventId = typeof raw?.eventId === 'string' ? raw.eventId : '';
 	const event = db.select().from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
 	if (!event) throw new CandidateError(404, 'not_found', `No event ${eventId || '(none given)'}.`);
+	assertEventOpen(event, 'new candidates are not taken');
 	if (event.state === 'retracted')
 		throw new CandidateError(409, 'event_retracted', `Event ${event.sourceEventId} was retracted by its source; new candidates are not taken, so that no telescope time goes to a false alert.`);
 	const parsed = candidateInput.safeParse(raw);
@@ -255,6 +263,7 @@ export function reportCandidate(reporter: CandidateReporter, raw: CandidateInput
 				name: input.name,
 				raDeg: input.raDeg,
 				decDeg: input.decDeg,
+				positionErrArcsec: input.positionErrArcsec ?? null,
 				discoveredAt,
 				magnitude: input.magnitude,
 				magnitudeErr: input.magnitudeErr ?? null,
@@ -286,6 +295,7 @@ export function reportCandidate(reporter: CandidateReporter, raw: CandidateInput
 		name: row.name,
 		raDeg: row.raDeg,
 		decDeg: row.decDeg,
+		positionErrArcsec: row.positionErrArcsec,
 		magnitude: row.magnitude,
 		filter: row.filter,
 		teamId: row.teamId,
@@ -318,6 +328,7 @@ function candidateRows(where: SQL | undefined, limit?: number): CandidateRow[] {
 		name: c.name,
 		raDeg: c.raDeg,
 		decDeg: c.decDeg,
+		positionErrArcsec: c.positionErrArcsec,
 		discoveredAt: c.discoveredAt.toISOString(),
 		magnitude: c.magnitude,
 		magnitudeErr: c.magnitudeErr,

@@ -17,6 +17,8 @@ import { currentTake, listTakes, type SpectrumTakeView } from './takers';
 import { classificationSummary, listClassifications, type ClassificationView } from './classifications';
 import { listDecisions, type DecisionView } from './decisions';
 import { listComments, type CommentView } from './discussion';
+import { closureOf } from '../alerts/events';
+import type { ClosureView } from '../../event-view.ts';
 
 export interface CandidateHistoryEntry {
 	seq: number;
@@ -28,7 +30,8 @@ export interface CandidateHistoryEntry {
 
 export interface CandidateDetail {
 	candidate: CandidateRow;
-	event: { id: string; sourceEventId: string; state: table.GwEvent['state']; eventTime: string | null };
+	/** `closure`: who closed the event, when and why (null while open). */
+	event: { id: string; sourceEventId: string; state: table.GwEvent['state']; eventTime: string | null; closure: ClosureView | null };
 	/** Hours from the merger to now; null without a merger time. */
 	hoursSinceMerger: number | null;
 	/** The latest decision (why it stands where it does); null while it was never decided. */
@@ -61,11 +64,8 @@ function history(eventId: string, candidateId: string): CandidateHistoryEntry[] 
 export function getCandidateDetailById(candidateId: string, now = new Date()): CandidateDetail | null {
 	const candidate = candidateRow(candidateId);
 	if (!candidate) return null;
-	const event = db
-		.select({ id: table.gwEvent.id, sourceEventId: table.gwEvent.sourceEventId, state: table.gwEvent.state, eventTime: table.gwEvent.eventTime })
-		.from(table.gwEvent)
-		.where(eq(table.gwEvent.id, candidate.eventId))
-		.get()!;
+	const row = db.select().from(table.gwEvent).where(eq(table.gwEvent.id, candidate.eventId)).get()!;
+	const event = { id: row.id, sourceEventId: row.sourceEventId, state: row.state, eventTime: row.eventTime, closure: closureOf(row) };
 	const decisions = listDecisions(candidateId);
 	return {
 		candidate,

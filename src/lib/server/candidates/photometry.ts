@@ -12,6 +12,7 @@ import { randomId } from '../people/auth';
 import { can } from '../people/permissions';
 import { record } from '../platform/realtime';
 import { checkPhotometryRow, MAX_PHOTOMETRY_ROWS, parsePhotometryCsv, type PhotometryLineError, type PhotometryPoint } from '../../candidates/photometry.ts';
+import { assertEventOpen } from '../alerts/events';
 import { actorOfReporter, CandidateError, candidateForWork, fieldErrorsOf, joinFields, uniqueViolation, type CandidateReporter } from './candidates';
 import { vetEvent, type VetOutcome } from './vetting';
 
@@ -159,6 +160,7 @@ function store(reporter: CandidateReporter, candidateId: string, batch: Batch, s
 function add(reporter: CandidateReporter, candidateId: string, parse: (c: table.Candidate) => Batch, source: table.CandidatePhotometry['source'], now: Date): AddedPhotometry {
 	if (!can(reporter, 'candidates.photometry')) throw new CandidateError(403, 'forbidden', 'Your role does not allow reporting photometry.');
 	const { candidate, event } = candidateForWork(candidateId, 'photometry is not taken');
+	assertEventOpen(event, 'new photometry is not taken');
 	const batch = parse(candidate);
 	const problems = checkAgainstStore(candidate, batch, now);
 	if (problems.length) refuse(problems);

@@ -10,8 +10,9 @@ import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { randomId, type SessionUser } from '../people/auth';
 import { can } from '../people/permissions';
-import { actorOf, record } from '../platform/realtime';
+import { actorOf, record, type Actor } from '../platform/realtime';
 import { CandidateError, candidateForWork, uniqueViolation } from './candidates';
+import { assertEventOpen } from '../alerts/events';
 
 export const takeInput = z.object({ note: z.string().trim().max(500, 'the note must be at most 500 characters').optional() });
 
@@ -69,6 +70,7 @@ export function listTakes(candidateId: string): SpectrumTakeView[] {
 export function takeCandidate(user: SessionUser, candidateId: string, raw: unknown = {}, now = new Date()): SpectrumTakeView {
 	if (!can({ user }, 'candidates.spectroscopy')) throw new CandidateError(403, 'forbidden', 'Your role does not allow taking candidates for spectroscopy.');
 	const { candidate, event } = candidateForWork(candidateId, 'spectra are not planned');
+	assertEventOpen(event, 'its candidates are not taken for spectra');
 	const parsed = takeInput.safeParse(raw ?? {});
 	if (!parsed.success) throw new CandidateError(422, 'invalid', parsed.error.issues[0].message, { note: parsed.error.issues[0].message });
 	if (candidate.state === 'rejected') throw new CandidateError(409, 'rejected', `${candidate.name} was set aside; reopen it before planning a spectrum.`);
@@ -116,4 +118,29 @@ export function completeTake(userId: string, candidateId: string, now = new Date
 		.returning({ id: table.spectrumTake.id })
 		.get();
 	return row?.id ?? null;
+}
+
+/**
+ * End every open take of an event's candidates (the event was closed), each logged as
+ * `candidate.released` by `actor`. Returns the takes ended.
+ */
+export function releaseOpenTakes(eventId: string, actor: Actor, now = new Date()): { takeId: string; candidateId: string; userId: string }[] {
+	const open = db
+		.select({ takeId: table.spectrumTake.id, candidateId: table.candidate.id, name: table.candidate.name, userId: table.spectrumTake.userId })
+		.from(table.spectrumTake)
+		.innerJoin(table.candidate, eq(table.candidate.id, table.spectrumTake.candidateId))
+		.where(and(eq(table.candidate.eventId, eventId), eq(table.spectrumTake.state, 'taken')))
+		.all();
+	const ended: { takeId: string; candidateId: string; userId: string }[] = [];
+	for (const t of open) {
+		const changed = db
+			.update(table.spectrumTake)
+			.set({ state: 'released', endedAt: now })
+			.where(and(eq(table.spectrumTake.id, t.takeId), eq(table.spectrumTake.state, 'taken')))
+			.run().changes;
+		if (changed !== 1) continue;
+		record(actor, 'candidate.released', `event:${eventId}`, { candidateId: t.candidateId, eventId, name: t.name, takeId: t.takeId, userId: t.userId });
+		ended.push({ takeId: t.takeId, candidateId: t.candidateId, userId: t.userId });
+	}
+	return ended;
 }

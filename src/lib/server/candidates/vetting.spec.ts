@@ -166,6 +166,15 @@ describe('reacting to the log', () => {
 		expect(() => setThresholds(w.coordinator, { credibleRegion: { level: 0.5 } }, NOW)).toThrow('The thresholds cannot be used: the credible level must be between 0.9 and 0.95.');
 		expect(() => setThresholds(w.coordinator, { fastFade: { speed: 1 } }, NOW)).toThrow(/fastFade/);
 		expect(() => setThresholds(w.coordinator, { decisionSigma: 'two' }, NOW)).toThrow('decisionSigma: the decision sigma must be a number');
+		// Each problem is also given per value, keyed by its path, for the form and the API's details.
+		expect(() => setThresholds(w.coordinator, { peakLuminosity: { brightestMag: -10 }, fastFade: { withinDays: 0.1 } }, NOW)).toThrow(
+			expect.objectContaining({
+				fields: {
+					'fastFade.withinDays': 'The fade window must be between 0.5 days and 60 days.',
+					'peakLuminosity.brightestMag': 'The brightest absolute magnitude must be more negative than the faintest.'
+				}
+			})
+		);
 		expect(currentThresholds().changes).toEqual({});
 	});
 	it('leaves the candidates of a retracted event alone', () => {

@@ -19,9 +19,10 @@ import { restartService } from '../platform/services';
 import type { SessionUser } from '../people/auth';
 import { can } from '../people/permissions';
 import { readSkyMap, type SkyMap } from '../../sky/index.ts';
-import { checkThresholds, DEFAULT_KILONOVA_THRESHOLDS, RULES, withDefaults, type KilonovaThresholds, type KilonovaVerdict, type RuleId, type ThresholdChanges } from '../../candidates/rules.ts';
+import { problemsByField, thresholdProblems, DEFAULT_KILONOVA_THRESHOLDS, RULES, withDefaults, type KilonovaThresholds, type KilonovaVerdict, type RuleId, type ThresholdChanges } from '../../candidates/rules.ts';
 import { lookUpDirections, vetCandidate, type CandidateVetting, type RankedGalaxy } from '../../candidates/vetting.ts';
 import type { PhotometryPoint } from '../../candidates/photometry.ts';
+import { positionErrText } from '../../candidates/position.ts';
 import { CandidateError, fieldErrorsOf } from './candidates';
 import { candidateLink, candidateRecipients, mailRecipients } from './notify';
 import { eventClassOf } from '../people/notifications';
@@ -104,7 +105,8 @@ export function currentThresholds(): ThresholdsView {
 
 /**
  * Replace the coordinators' changes to the thresholds (`{}` returns to the defaults). Refused as
- * CandidateError 403 without the permission, 422 with every problem named. Logs
+ * CandidateError 403 without the permission, 422 with every problem named (per value, keyed by its
+ * path: `fastFade.minRateMagPerDay`). Logs
  * `kilonova.thresholds-changed` to the board and recomputes the vetting of every candidate of
  * the events not retracted (queued; `vettingIdle()` resolves when done).
  */
@@ -118,8 +120,11 @@ export function setThresholds(user: SessionUser, raw: unknown, now = new Date())
 		throw new CandidateError(422, 'invalid', message, fields);
 	}
 	const changes = parsed.data as ThresholdChanges;
-	const problems = checkThresholds(withDefaults(changes));
-	if (problems.length) throw new CandidateError(422, 'invalid', `The thresholds cannot be used: ${problems.join('; ')}.`, { thresholds: problems.join('; ') });
+	const problems = thresholdProblems(withDefaults(changes));
+	if (problems.length) {
+		// Per value too (the form puts each beside its field; the API's details are keyed by the same paths).
+		throw new CandidateError(422, 'invalid', `The thresholds cannot be used: ${problems.map((p) => p.message).join('; ')}.`, problemsByField(problems));
+	}
 	db.insert(table.kilonovaRules)
 		.values({ id: 1, changes, updatedBy: user.id, updatedAt: now })
 		.onConflictDoUpdate({ target: table.kilonovaRules.id, set: { changes, updatedBy: user.id, updatedAt: now } })
@@ -380,7 +385,7 @@ function announceKilonovaLike(event: table.GwEvent, c: table.Candidate, v: Candi
 					'',
 					...v.rules.reasons.map((x) => `  • ${x}`),
 					'',
-					`Position: RA ${c.raDeg.toFixed(5)}°, Dec ${c.decDeg.toFixed(5)}°; discovered ${c.discoveredAt.toISOString()} at ${c.magnitude} mag (${c.filter}).`,
+					`Position: RA ${c.raDeg.toFixed(5)}°, Dec ${c.decDeg.toFixed(5)}°${positionErrText(c.positionErrArcsec)}; discovered ${c.discoveredAt.toISOString()} at ${c.magnitude} mag (${c.filter}).`,
 					v.hosts.note,
 					'',
 					`Candidate page: ${link}`,

@@ -20,6 +20,7 @@ import { DomainError } from '../platform/errors';
 import { actsForEveryTeam, mayUseTeam, mayUseTelescope } from '../people/scope';
 import { LAPSE_MINUTES_MAX, LAPSE_MINUTES_MIN } from '../../limits.ts';
 import { config } from '../platform/config';
+import { assertEventOpen } from '../alerts/events';
 
 export const DEFAULT_LAPSE_MINUTES = 60;
 export const LAPSE_CHECK_MS = 30_000;
@@ -59,6 +60,7 @@ function uniqueViolation(e: unknown): boolean {
 function openEvent(eventId: string): table.GwEvent {
 	const event = db.select().from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
 	if (!event) throw new ClaimError(404, 'not_found', `No event ${eventId}.`);
+	assertEventOpen(event, 'its targets are no longer claimed');
 	if (event.state !== 'active') throw new ClaimError(409, 'event_' + event.state, `Event ${eventId} is ${event.state}; its targets cannot be claimed.`);
 	return event;
 }
@@ -331,7 +333,14 @@ async function tellTeam(c: table.Claim, minutes: number): Promise<void> {
 
 /** A retraction releases every open claim of the event, with the reason logged; returns the claims freed. */
 export function releaseForRetraction(eventId: string, actor: Actor = SYSTEM, now = new Date()): table.Claim[] {
-	const reason = 'event retracted';
+	return releaseOpenClaims(eventId, 'event retracted', actor, now);
+}
+
+/**
+ * Release every open claim of an event (a retraction, a coordinator closing it), each logged as
+ * `claim.released` with `reason`; returns the claims freed.
+ */
+export function releaseOpenClaims(eventId: string, reason: string, actor: Actor = SYSTEM, now = new Date()): table.Claim[] {
 	const released = db
 		.update(table.claim)
 		.set({ state: 'released', endedAt: now, note: reason })

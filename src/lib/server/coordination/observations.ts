@@ -4,7 +4,7 @@
  * claims whose galaxy lies inside the telescope's footprint centred on the pointing, and field
  * claims whose field centre lies inside it.
  */
-import { and, eq, inArray } from 'drizzle-orm';
+import { and, asc, eq, inArray, sql } from 'drizzle-orm';
 import { z } from 'zod';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
@@ -16,6 +16,7 @@ import { splitCsvLine } from '../../csv';
 import { DomainError } from '../platform/errors';
 import { mayUseTelescope } from '../people/scope';
 import { getTelescope } from '../people/telescopes';
+import { assertEventOpen } from '../alerts/events';
 import '../../field-messages';
 
 const MIN = 60_000;
@@ -79,6 +80,8 @@ export function reportMany(
 	o: { lines?: number[]; now?: Date } = {}
 ): { results: ReportResult[]; errors: { line: number; message: string }[] } {
 	const now = o.now ?? new Date();
+	// A closed event refuses the whole upload with one sentence rather than the same one per line.
+	for (const eventId of new Set(inputs.map((i) => i.eventId))) if (eventId) assertEventOpen(eventId, 'new pointings are not recorded');
 	const errors: { line: number; message: string }[] = [];
 	const prepared: Prepared[] = [];
 	inputs.forEach((raw, i) => {
@@ -131,6 +134,7 @@ function prepare(reporter: Reporter, raw: ObservationInput, now: Date): Prepared
 		throw new ObservationError(403, 'forbidden', `Telescope ${scope.name} belongs to a team you are not a member of.`);
 	const event = db.select().from(table.gwEvent).where(eq(table.gwEvent.id, input.eventId)).get();
 	if (!event) throw new ObservationError(404, 'not_found', `No event ${input.eventId}.`);
+	assertEventOpen(event, 'new pointings are not recorded');
 	// A retracted event has nothing left to cover: a pointing reported now would only inflate its coverage.
 	if (event.state === 'retracted')
 		throw new ObservationError(
@@ -336,4 +340,36 @@ export function parseObservationCsv(
 	if (errors.length) return { rows: [], lines: [], errors };
 	if (rows.length === 0) return { rows: [], lines: [], errors: [{ line: 1, message: 'no data rows' }] };
 	return { rows, lines: rowLines, errors: [] };
+}
+
+export interface PointingView extends table.Observation {
+	telescopeName: string;
+	teamName: string;
+	/** The person's name, or 'telescope <name>' for a token. */
+	reportedBy: string;
+}
+
+/** Every pointing reported for an event, by observation time, with names for telescope, team and reporter. */
+export function listPointings(eventId: string): PointingView[] {
+	return db
+		.select({
+			o: table.observation,
+			telescopeName: table.telescope.name,
+			teamName: table.team.name,
+			userName: table.user.name,
+			tokenTelescopeName: sql<string | null>`(SELECT t.name FROM api_token k JOIN telescope t ON t.id = k.telescope_id WHERE k.id = ${table.observation.reportedByTokenId})`
+		})
+		.from(table.observation)
+		.innerJoin(table.telescope, eq(table.telescope.id, table.observation.telescopeId))
+		.innerJoin(table.team, eq(table.team.id, table.observation.teamId))
+		.leftJoin(table.user, eq(table.user.id, table.observation.reportedByUserId))
+		.where(eq(table.observation.eventId, eventId))
+		.orderBy(asc(table.observation.observedAt), asc(table.observation.createdAt))
+		.all()
+		.map(({ o, telescopeName, teamName, userName, tokenTelescopeName }) => ({
+			...o,
+			telescopeName,
+			teamName,
+			reportedBy: userName ?? (tokenTelescopeName ? `telescope ${tokenTelescopeName}` : o.reportedByTokenId ? 'a telescope token' : '—')
+		}));
 }

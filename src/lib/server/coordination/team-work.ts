@@ -185,3 +185,28 @@ export function teamWork(eventId: string, user: SessionUser): TeamWork {
 		openClaims: claimRows(eventId, and(ofEvent, inArray(table.claim.state, [...table.OPEN_CLAIM_STATES])))
 	};
 }
+
+/** The teams that claimed a target of, or reported a pointing for, each of `eventIds` (by name). */
+export function teamsByEvent(eventIds: string[]): Map<string, { id: string; name: string }[]> {
+	const out = new Map<string, { id: string; name: string }[]>();
+	if (!eventIds.length) return out;
+	const claimed = db
+		.selectDistinct({ eventId: table.claim.eventId, id: table.team.id, name: table.team.name })
+		.from(table.claim)
+		.innerJoin(table.team, eq(table.team.id, table.claim.teamId))
+		.where(inArray(table.claim.eventId, eventIds))
+		.all();
+	const observed = db
+		.selectDistinct({ eventId: table.observation.eventId, id: table.team.id, name: table.team.name })
+		.from(table.observation)
+		.innerJoin(table.team, eq(table.team.id, table.observation.teamId))
+		.where(inArray(table.observation.eventId, eventIds))
+		.all();
+	for (const r of [...claimed, ...observed]) {
+		const list = out.get(r.eventId) ?? [];
+		if (!list.some((t) => t.id === r.id)) list.push({ id: r.id, name: r.name });
+		out.set(r.eventId, list);
+	}
+	for (const list of out.values()) list.sort((a, b) => a.name.localeCompare(b.name));
+	return out;
+}

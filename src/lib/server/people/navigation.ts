@@ -13,6 +13,9 @@ const NAV: readonly (NavItem & { permission: Permission })[] = [
 	{ href: '/', label: 'Board', permission: 'board.view' },
 	{ href: '/events', label: 'Events', permission: 'events.view' },
 	{ href: '/candidates', label: 'Candidates', permission: 'events.view' },
+	{ href: '/archive', label: 'Archive', permission: 'events.view' },
+	// Everyone may read the rules (from the candidates list); the menu leads the people who change them.
+	{ href: '/candidates/rules', label: 'Kilonova rules', permission: 'kilonova.thresholds' },
 	{ href: '/telescopes', label: 'Telescopes', permission: 'telescopes.view' },
 	{ href: '/teams', label: 'Teams', permission: 'teams.view' },
 	{ href: '/roster', label: 'Roster', permission: 'board.view' },

@@ -47,7 +47,8 @@ describe('permissions table', () => {
 			'kilonova.thresholds': ['coordinator'],
 			'records.annotate': ['coordinator'],
 			'records.send': ['coordinator'],
-			'settings.mailing-list': ['admin', 'coordinator']
+			'settings.mailing-list': ['admin', 'coordinator'],
+			'events.close': ['coordinator']
 		};
 		expect(Object.keys(PERMISSIONS).sort()).toEqual(Object.keys(expected).sort());
 		for (const [perm, roles] of Object.entries(expected) as [Permission, Role[]][]) {

@@ -26,6 +26,12 @@ export interface AlertsConfig {
 	vtpBroker: string | null;
 	/** Base URL of the broker's notice archive (`{url}/notices?since=`); null = no back-fill; "auto" = VTP port − 1 on the broker's host. */
 	vtpArchiveUrl: string | null;
+	/**
+	 * Seconds between two reads of the archive besides the one on every (re)connection; 0 = only on
+	 * connection. JSON notices reach us only this way (VTP carries XML), so a broker that publishes
+	 * JSON needs it set (`VTP_ARCHIVE_POLL_S`; the demo's `--format json` sets 5).
+	 */
+	archivePollMs: number;
 	/** Hosts sky maps may be fetched from (exact names, or ".domain" for any sub-domain). */
 	skymapHosts: string[];
 	skymapMaxBytes: number;
@@ -55,6 +61,7 @@ export function loadAlertsConfig(): AlertsConfig {
 	return {
 		vtpBroker: process.env.VTP_BROKER?.trim() || null,
 		vtpArchiveUrl: process.env.VTP_ARCHIVE_URL?.trim() || null,
+		archivePollMs: int('VTP_ARCHIVE_POLL_S', 0) * 1000,
 		skymapHosts: list('SKYMAP_HOSTS', ['127.0.0.1', 'localhost']),
 		skymapMaxBytes: int('SKYMAP_MAX_MB', 64) * 1024 * 1024,
 		skymapMaxInflatedBytes: int('SKYMAP_MAX_INFLATED_MB', 256) * 1024 * 1024,

@@ -14,6 +14,7 @@ import { isStoredRaster, packRaster } from '../../sky-view/raster-image.ts';
 import type { DisplayRaster, SkyBody, SkyCandidate, SkyContour, SkyFootprint, SkyTarget, TargetState } from '../../sky-view/types.ts';
 import { moonPhase, moonPosition, sunPosition } from '../../targeting/sun-moon.ts';
 import { footprintOf } from '../../targeting/telescope.ts';
+import { positionErrText } from '../../candidates/position.ts';
 import { formatProbability } from '../../alerts/display.ts';
 import { claimStateAt } from '../../closeout/replay.ts';
 
@@ -154,6 +155,7 @@ export function eventSky(
 		details: [
 			`${c.magnitude.toFixed(2)}${c.magnitudeErr != null ? ` ± ${c.magnitudeErr.toFixed(2)}` : ''} mag in ${c.filter}, found ${c.discoveredAt.slice(11, 16)} UTC`,
 			`${c.teamName}${c.telescopeName ? ` · ${c.telescopeName}` : ''}`,
+			...(c.positionErrArcsec !== null ? [`position uncertainty${positionErrText(c.positionErrArcsec)}`] : []),
 			...(c.classification ? [`classified: ${c.classification}`] : []),
 			...(c.near.length ? [`within ${c.near[0].separationArcsec.toFixed(1)}″ of ${c.near[0].name}`] : [])
 		]

@@ -164,7 +164,7 @@ export function targetsPageData(eventId: string, query: TargetQuery, user: Sessi
 		managing: manages
 			? { lapseMinutes: claims.lapseMinutesFor(event.eventId), telescopes: telescopes.map((t) => ({ id: t.id, name: t.name, teamName: t.teamName })) }
 			: null,
-		event: { id: event.eventId, sourceEventId: event.sourceEventId, state: event.state, skymap: event.skymap },
+		event: { id: event.eventId, sourceEventId: event.sourceEventId, state: event.state, skymap: event.skymap, closure: event.closure },
 		meta: meta && {
 			skymapId: meta.skymapId,
 			catalog: meta.catalog,

@@ -3,6 +3,7 @@ import { ROLES_LIST } from '../../../roles';
 import type { SkymapSummary } from '../../../sky/index';
 import { NOTIFICATION_KINDS, QUIET_ACTIONS, type KindChoice, type NotificationKind, type SourceClass } from '../../../notifications';
 import type { Classification, TriageVerdict } from '../../../event-view';
+import { CLOSE_REASONS } from '../../../event-view';
 import type { KilonovaVerdict, ThresholdChanges } from '../../../candidates/rules';
 import type { CandidateVetting } from '../../../candidates/vetting';
 import type { SpectrumFormat, SpectrumSummary } from '../../../candidates/spectrum';
@@ -263,7 +264,10 @@ export const noticeInbox = sqliteTable(
 		id: integer('id').primaryKey({ autoIncrement: true }),
 		/** From the XML; a malformed notice gets a synthetic key so that its raw text is still kept. */
 		ivorn: text('ivorn').notNull().unique(),
+		/** The notice as received, whatever its format (the column's name predates JSON notices). */
 		rawXml: text('raw_xml').notNull(),
+		/** Which reader the raw text needs: VOEvent XML or a JSON notice (src/lib/alerts/notice-json.ts). */
+		format: text('format', { enum: ['voevent', 'json'] }).notNull().default('voevent'),
 		via: text('via', { enum: ['vtp', 'api', 'upload', 'backfill'] }).notNull(),
 		receivedAt: integer('received_at', { mode: 'timestamp_ms' }).notNull(),
 		processedAt: integer('processed_at', { mode: 'timestamp_ms' }),
@@ -300,7 +304,11 @@ export const gwEvent = sqliteTable(
 		catalogId: text('catalog_id').references(() => catalog.id, { onDelete: 'set null' }),
 		triage: text('triage', { mode: 'json' }).$type<TriageVerdict>(),
 		retractedAt: integer('retracted_at', { mode: 'timestamp_ms' }),
+		/** While closed: when, why, the closer's note and who (cleared on reopening; the event log keeps the history). */
 		closedAt: integer('closed_at', { mode: 'timestamp_ms' }),
+		closeReason: text('close_reason', { enum: CLOSE_REASONS }),
+		closeNote: text('close_note'),
+		closedBy: text('closed_by').references(() => user.id, { onDelete: 'set null' }),
 		createdAt: createdAt(),
 		updatedAt: integer('updated_at', { mode: 'timestamp_ms' })
 	},
@@ -722,6 +730,8 @@ export const candidate = sqliteTable(
 		name: text('name').notNull(),
 		raDeg: real('ra_deg').notNull(),
 		decDeg: real('dec_deg').notNull(),
+		/** Radius of the position's uncertainty as the team states it, arcsec; null when none was given. */
+		positionErrArcsec: real('position_err_arcsec'),
 		discoveredAt: integer('discovered_at', { mode: 'timestamp_ms' }).notNull(),
 		/** AB magnitude at discovery. */
 		magnitude: real('magnitude').notNull(),

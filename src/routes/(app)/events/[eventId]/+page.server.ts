@@ -3,6 +3,7 @@ import { z } from 'zod';
 import type { Actions, PageServerLoad } from './$types';
 import { requirePermission, requireUser } from '$lib/server/people/guard';
 import { can } from '$lib/server/people/permissions';
+import { EXPORT_KINDS } from '$lib/event-view';
 import { validateForm, failFromError } from '$lib/server/platform/forms';
 import { eventDetail } from '$lib/server/alerts/board';
 import * as duty from '$lib/server/duty/paging';
@@ -13,6 +14,7 @@ import { isWideField } from '$lib/targeting/telescope';
 import { claimsOutsideRanking } from '$lib/server/targeting/event-catalog';
 import { replayBounds } from '$lib/server/closeout/sky-replay';
 import { listClaims } from '$lib/server/coordination/claims';
+import { closeEvent, closeInput, reopenEvent, reopenInput } from '$lib/server/closeout/close';
 
 export const load: PageServerLoad = ({ params, locals, depends }) => {
 	requirePermission('events.view');
@@ -31,6 +33,7 @@ export const load: PageServerLoad = ({ params, locals, depends }) => {
 	return {
 		event,
 		canAcknowledge: can({ user }, 'events.acknowledge'),
+		canClose: can({ user }, 'events.close'),
 		// The report page is only useful to someone with a telescope to report for.
 		mayReport: Boolean(user && telescopesFor(user).length && can({ user }, 'observations.report')),
 		sky: eventSky(event.id, current?.id ?? null, user, covered),
@@ -49,10 +52,13 @@ export const load: PageServerLoad = ({ params, locals, depends }) => {
 			computeMs: covered.computeMs
 		},
 		claiming: { telescopes, canClaim: telescopes.length > 0 && event.state === 'active' },
+		exports: EXPORT_KINDS,
 		// Claims a re-ranking (another catalogue, a new map) left outside the ranking: shown, never hidden.
 		outside: claimsOutsideRanking(event.id)
 	};
 };
+
+const closeSchema = closeInput.extend({ confirm: z.literal('yes', { error: 'Tick the box to confirm that open claims and spectrum takes are released.' }) });
 
 const ackSchema = z.object({ confirm: z.literal('yes', { error: 'Confirm the acknowledgement.' }) });
 
@@ -64,6 +70,28 @@ export const actions: Actions = {
 		try {
 			const { latencyS } = duty.acknowledge(user, params.eventId);
 			return { done: `Acknowledged ${Math.round(latencyS)} s after the notice arrived.` };
+		} catch (e) {
+			return failFromError(form, e);
+		}
+	},
+	close: async ({ request, params }) => {
+		const user = requireUser('events.close');
+		const { form, data, failure } = await validateForm(request, closeSchema);
+		if (failure) return failure;
+		try {
+			const { releasedClaimIds, releasedTakeIds } = closeEvent(user, params.eventId, data);
+			return { closed: { claims: releasedClaimIds.length, takes: releasedTakeIds.length } };
+		} catch (e) {
+			return failFromError(form, e);
+		}
+	},
+	reopen: async ({ request, params }) => {
+		const user = requireUser('events.close');
+		const { form, data, failure } = await validateForm(request, reopenInput);
+		if (failure) return failure;
+		try {
+			reopenEvent(user, params.eventId, data);
+			return { reopened: true };
 		} catch (e) {
 			return failFromError(form, e);
 		}

@@ -7,12 +7,18 @@ import { saveUpload } from '$lib/server/platform/storage';
 import { config } from '$lib/server/platform/config';
 import { DEFAULT_MAX_NOTICE_BYTES } from '$lib/alerts/voevent';
 import { readSkyMap } from '$lib/sky';
-import { skymapReadError, skymapReadOptions } from '$lib/server/alerts/skymap-fetch';
+import { maxJsonNoticeBytesAllowed, skymapReadError, skymapReadOptions } from '$lib/server/alerts/skymap-fetch';
+import { detectNoticeFormat } from '$lib/alerts/notice-json';
 
 export const load: PageServerLoad = () => {
 	requirePermission('notices.submit');
-	return { maxNoticeBytes: DEFAULT_MAX_NOTICE_BYTES, maxSkymapBytes: config.alerts.skymapMaxBytes };
+	return { maxNoticeBytes: DEFAULT_MAX_NOTICE_BYTES, maxJsonNoticeBytes: maxJsonNoticeBytesAllowed(), maxSkymapBytes: config.alerts.skymapMaxBytes };
 };
+
+/** Largest notice of the format its text shows: a JSON notice may carry its sky map in base64. */
+function limitFor(text: string): number {
+	return detectNoticeFormat(text) === 'json' ? maxJsonNoticeBytesAllowed() : DEFAULT_MAX_NOTICE_BYTES;
+}
 
 type Errors = Partial<Record<'xml' | 'noticeFile' | 'skymap' | '_form', string>>;
 
@@ -38,12 +44,17 @@ export const actions: Actions = {
 		const noticeFile = file(form, 'noticeFile');
 		let xml = pasted;
 		if (noticeFile) {
-			if (noticeFile.size > DEFAULT_MAX_NOTICE_BYTES) errors.noticeFile = `The notice file is larger than ${DEFAULT_MAX_NOTICE_BYTES} bytes.`;
+			// VOEvent or JSON is told by the content, not the file name; the size is checked before reading.
+			if (noticeFile.size > maxJsonNoticeBytesAllowed()) errors.noticeFile = `The notice file is larger than ${maxJsonNoticeBytesAllowed()} bytes.`;
 			else if (pasted.trim()) errors.noticeFile = 'Give either a file or pasted text, not both.';
-			else xml = await noticeFile.text();
+			else {
+				xml = await noticeFile.text();
+				const limit = limitFor(xml);
+				if (noticeFile.size > limit) errors.noticeFile = `The notice file is larger than ${limit} bytes, the limit for a VOEvent notice.`;
+			}
 		}
-		if (!noticeFile && !pasted.trim()) errors.xml = 'Paste the notice XML or choose a notice file.';
-		if (Buffer.byteLength(pasted, 'utf8') > DEFAULT_MAX_NOTICE_BYTES) errors.xml = `The notice is larger than ${DEFAULT_MAX_NOTICE_BYTES} bytes.`;
+		if (!noticeFile && !pasted.trim()) errors.xml = 'Paste the notice (VOEvent XML or JSON) or choose a notice file.';
+		if (Buffer.byteLength(pasted, 'utf8') > limitFor(pasted)) errors.xml = `The notice is larger than ${limitFor(pasted)} bytes.`;
 
 		const skymapFile = file(form, 'skymap');
 		let skymapBytes: Uint8Array | null = null;

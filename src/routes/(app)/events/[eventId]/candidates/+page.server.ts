@@ -8,6 +8,7 @@ import { teamsFor, telescopesFor } from '$lib/server/people/scope';
 import { listCandidates, reportCandidate, type CandidateInput } from '$lib/server/candidates/candidates';
 import type { SessionUser } from '$lib/server/people/auth';
 import { vetEvent, vettingSummaries } from '$lib/server/candidates/vetting';
+import { POSITION_ERR_ARCSEC_MAX } from '$lib/limits';
 
 /** The telescopes and teams a person may report for (coordinators: all). */
 function choices(user: SessionUser | null) {
@@ -27,12 +28,13 @@ export const load: PageServerLoad = ({ params, locals, depends }) => {
 	const candidates = listCandidates(event.eventId);
 	const vetted = vettingSummaries(candidates.map((c) => c.id));
 	return {
-		event: { id: event.eventId, sourceEventId: event.sourceEventId, state: event.state },
+		event: { id: event.eventId, sourceEventId: event.sourceEventId, state: event.state, closure: event.closure },
 		candidates: candidates.map((c) => ({ ...c, ...vetted.get(c.id)! })),
 		canReport,
 		mayReportObservations: Boolean(locals.user && can({ user: locals.user }, 'observations.report') && choices(locals.user).telescopes.length),
 		...(canReport ? choices(locals.user) : { telescopes: [], teams: [] }),
-		now: new Date().toISOString().slice(0, 19) + 'Z'
+		now: new Date().toISOString().slice(0, 19) + 'Z',
+		positionErrMaxArcsec: POSITION_ERR_ARCSEC_MAX
 	};
 };
 
@@ -45,6 +47,7 @@ export const actions: Actions = {
 			name: formText(form.get('name')) ?? '',
 			raDeg: formNumber(form.get('raDeg')),
 			decDeg: formNumber(form.get('decDeg')),
+			positionErrArcsec: formNumber(form.get('positionErrArcsec')),
 			discoveredAt: formUtc(formText(form.get('discoveredAt'))),
 			magnitude: formNumber(form.get('magnitude')),
 			magnitudeErr: formNumber(form.get('magnitudeErr')),

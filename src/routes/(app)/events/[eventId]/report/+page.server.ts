@@ -16,7 +16,7 @@ export const load: PageServerLoad = ({ params, locals }) => {
 	requirePermission('observations.report');
 	const event = getEvent(params.eventId);
 	if (!event) error(404, 'No such event.');
-	return { event: { id: event.eventId, sourceEventId: event.sourceEventId, state: event.state, eventTime: event.eventTime, retractedAt: event.retractedAt }, telescopes: ownTelescopes(locals.user), now: new Date().toISOString().slice(0, 19) + 'Z' };
+	return { event: { id: event.eventId, sourceEventId: event.sourceEventId, state: event.state, eventTime: event.eventTime, retractedAt: event.retractedAt, closure: event.closure }, telescopes: ownTelescopes(locals.user), now: new Date().toISOString().slice(0, 19) + 'Z' };
 };
 
 export const actions: Actions = {

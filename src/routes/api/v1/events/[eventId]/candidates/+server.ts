@@ -15,7 +15,8 @@ export const GET = apiRoute(({ params }) => {
 });
 
 /**
- * POST a candidate `{ name, raDeg, decDeg, discoveredAt, magnitude, magnitudeErr?, filter, telescopeId?, teamId?, notes? }`
+ * POST a candidate `{ name, raDeg, decDeg, positionErrArcsec?, discoveredAt, magnitude, magnitudeErr?, filter, telescopeId?, teamId?, notes? }`
+ * (`positionErrArcsec`: the radius of the position's uncertainty, more than 0 and at most POSITION_ERR_ARCSEC_MAX in limits.ts, 60)
  * with a person's or a telescope's bearer token (or a session). 201 `{ candidate, warning }`, where
  * `warning` names an earlier candidate within 2″ (stored all the same). Errors
  * `{ error: { code, message, details? } }` (details: the message per field, as for observations): 403, 404, 409 (name taken, naming the team; event retracted), 422.

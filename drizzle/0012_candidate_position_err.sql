@@ -1,0 +1,1 @@
+ALTER TABLE `candidate` ADD `position_err_arcsec` real;

@@ -1,0 +1,1 @@
+ALTER TABLE `notice_inbox` ADD `format` text DEFAULT 'voevent' NOT NULL;
