@@ -43,7 +43,9 @@ export async function sendReportToList(eventId: string, now = new Date()): Promi
 /** On `event.closed`, send the report to the list (a failure is logged, never thrown into the closing). */
 export function installReportMail(): () => void {
 	return restartService('closeout.report-mail', () => {
-		const off = onRecorded('event.closed', ({ eventId }) => {
+		// Closing is logged to the board and the event's room: send once, on the board's copy.
+		const off = onRecorded('event.closed', ({ eventId }, m) => {
+			if (m.room !== 'board') return;
 			sendReportToList(eventId).catch((e) => console.error(`[closeout] could not send the record of ${eventId} to the mailing list:`, e));
 		});
 		return { stop: off };

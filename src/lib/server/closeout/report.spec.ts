@@ -5,7 +5,6 @@ import { createTestDatabase } from '../platform/testing/database';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { receivedMail, stopFakeSmtp } from '../platform/fake-smtp';
-import { record, SYSTEM } from '../platform/realtime';
 import { clearSkyMapCache } from '../alerts/skymap-cache';
 import { classifyCandidate } from '../candidates/classifications';
 import { classificationMailIdle } from '../candidates/classifications';
@@ -14,6 +13,7 @@ import { giveGalaxies, world, type World } from '../candidates/testing';
 import { eventReport, saveRecordNote, recordNote, recordSky, EventNotFound } from './report';
 import { reportPdf } from './report-pdf';
 import { installReportMail, sendReportToList } from './report-mail';
+import { closeEvent, reopenEvent } from './close';
 import { mailingList, setMailingList } from './mailing-list';
 import { InputError } from '../platform/errors';
 
@@ -212,17 +212,21 @@ describe('the PDF and the mail to the list', () => {
 		expect(pdf.contentType).toBe('application/pdf');
 	});
 
-	it('is sent when the event is closed', async () => {
-		expect.assertions(1);
+	it('is sent once when a coordinator closes the event', async () => {
+		expect.assertions(2);
 		const to = `list-closed-${process.pid}-${Date.now()}@report.test`;
 		setMailingList(w.coordinator, to);
 		const stop = installReportMail();
 		try {
-			record(SYSTEM, 'event.closed', `event:${w.eventId}`, { eventId: w.eventId, reason: 'follow-up complete', note: null, by: w.coordinator.name });
+			// closeEvent logs to the board and the event's room; the list must get one mail, not two.
+			closeEvent(w.coordinator, w.eventId, { reason: 'search-complete' });
 			const mail = await waitForMail(to);
 			expect(mail.attachments.map((a) => a.filename).sort()).toEqual([`${w.sourceEventId}-record.md`, `${w.sourceEventId}-record.pdf`]);
+			await new Promise((r) => setTimeout(r, 1500));
+			expect(receivedMail().filter((m) => m.to.includes(to))).toHaveLength(1);
 		} finally {
 			stop();
+			reopenEvent(w.coordinator, w.eventId);
 		}
 	});
 });
