@@ -13,6 +13,7 @@ import { installClaims } from '$lib/server/coordination/claims';
 import { installMovedClaims } from '$lib/server/coordination/moved-claims';
 import { installNotifications } from '$lib/server/people/notifications';
 import { installVetting } from '$lib/server/candidates/vetting';
+import { installReportMail } from '$lib/server/closeout/report-mail';
 import { startAlerts } from '$lib/server/alerts/service';
 
 export const init: ServerInit = async () => {
@@ -24,6 +25,7 @@ export const init: ServerInit = async () => {
 	installMovedClaims();
 	installNotifications();
 	installVetting();
+	installReportMail();
 	await startMail();
 	// Last: the broker listener may start processing notices at once.
 	await startAlerts();

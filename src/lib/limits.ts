@@ -39,6 +39,9 @@ export const TIMELINE_PAGE_SIZE = 100;
 /** Wait after the replay slider stops moving before asking the server for that moment, ms. */
 export const REPLAY_DEBOUNCE_MS = 250;
 
+/** Longest coordinator's note on an event's record, characters. */
+export const RECORD_NOTE_MAX_CHARS = 4000;
+
 /** Longest note a coordinator may give when closing or reopening an event. */
 export const CLOSE_NOTE_MAX_CHARS = 2000;
 

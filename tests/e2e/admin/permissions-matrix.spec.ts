@@ -65,6 +65,10 @@ const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean; allowed
 	{ path: '/events/{eventId}/report?/report', allowed: ['observer', 'coordinator'] },
 	{ path: '/events/{eventId}/report?/upload', allowed: ['observer', 'coordinator'] },
 	{ path: '/events/{eventId}/candidates?/report', allowed: ['observer', 'coordinator'] },
+	// The event record: the note (an empty form is refused by validation) and sending (no address is set: nothing is sent).
+	{ path: '/events/{eventId}/record?/note', allowed: ['coordinator'] },
+	{ path: '/events/{eventId}/record?/send', allowed: ['coordinator'], ok: true },
+	{ path: '/admin/mailing-list', allowed: ['admin', 'coordinator'] },
 	// The candidate page, on the matrix's candidate.
 	{ path: '/events/{eventId}/candidates/AT-matrix?/photometry', allowed: ['observer', 'spectroscopist', 'coordinator'] },
 	// A note over 500 characters: an allowed role is refused it and takes nothing.

@@ -14,6 +14,8 @@ interface CaughtMail {
 	text: string;
 	/** The List-Unsubscribe header, '' when the mail has none. */
 	listUnsubscribe: string;
+	/** The "Attachments:" line of the caught file: `name (type, N bytes); …`, '' without any. */
+	attachments: string;
 }
 
 function readAll(): CaughtMail[] {
@@ -30,7 +32,7 @@ function readAll(): CaughtMail[] {
 			const raw = readFileSync(join(MAIL_DIR, n), 'utf8');
 			const [head, ...body] = raw.split('\n\n');
 			const field = (k: string) => head.split('\n').find((l) => l.startsWith(`${k}: `))?.slice(k.length + 2) ?? '';
-			return { to: field('To'), subject: field('Subject'), text: body.join('\n\n'), listUnsubscribe: field('List-Unsubscribe') };
+			return { to: field('To'), subject: field('Subject'), text: body.join('\n\n'), listUnsubscribe: field('List-Unsubscribe'), attachments: field('Attachments') };
 		});
 }
 

@@ -45,6 +45,9 @@ describe('permissions table', () => {
 			'candidates.decide': ['duty', 'observer', 'spectroscopist', 'coordinator'],
 			'candidates.discuss': ['admin', 'coordinator', 'duty', 'observer', 'spectroscopist'],
 			'kilonova.thresholds': ['coordinator'],
+			'records.annotate': ['coordinator'],
+			'records.send': ['coordinator'],
+			'settings.mailing-list': ['admin', 'coordinator'],
 			'events.close': ['coordinator']
 		};
 		expect(Object.keys(PERMISSIONS).sort()).toEqual(Object.keys(expected).sort());

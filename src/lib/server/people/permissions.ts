@@ -48,6 +48,10 @@ export const PERMISSIONS = {
 	'candidates.decide': { roles: ['duty', 'observer', 'spectroscopist', 'coordinator'] },
 	'candidates.discuss': { roles: ['admin', 'coordinator', 'duty', 'observer', 'spectroscopist'] },
 	'kilonova.thresholds': { roles: ['coordinator'] },
+	// The event record: the coordinators write its note and send it; where it goes is a collaboration setting.
+	'records.annotate': { roles: ['coordinator'] },
+	'records.send': { roles: ['coordinator'] },
+	'settings.mailing-list': { roles: ['admin', 'coordinator'] },
 	/** Close an event (its claims and spectrum takes are released; new work is refused) and reopen it. */
 	'events.close': { roles: ['coordinator'] }
 } as const satisfies Record<string, { roles: readonly Role[]; robot?: boolean }>;

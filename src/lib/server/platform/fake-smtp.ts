@@ -15,6 +15,8 @@ export interface ReceivedMail {
 	html: string | null;
 	/** The List-Unsubscribe header as sent, or null. */
 	listUnsubscribe: string | null;
+	/** Attached files as received (decoded). */
+	attachments: { filename: string; contentType: string; size: number; content: Buffer }[];
 }
 
 interface Mailbox {
@@ -51,6 +53,7 @@ function spool(dir: string, mail: ReceivedMail): void {
 		const name = `${String(Date.now()).padStart(15, '0')}-${String(mail.id).padStart(6, '0')}.txt`;
 		const head = [`To: ${mail.to.join(', ')}`, `From: ${mail.from}`, `Subject: ${mail.subject.replace(/\s+/g, ' ')}`, `Date: ${mail.receivedAt}`];
 		if (mail.listUnsubscribe) head.push(`List-Unsubscribe: ${mail.listUnsubscribe}`);
+		if (mail.attachments.length) head.push(`Attachments: ${mail.attachments.map((a) => `${a.filename} (${a.contentType}, ${a.size} bytes)`).join('; ')}`);
 		writeFileSync(join(dir, name), `${head.join('\n')}\n\n${mail.text}`, { mode: 0o600 });
 		const files = readdirSync(dir).filter((n) => n.endsWith('.txt')).sort();
 		for (const old of files.slice(0, Math.max(0, files.length - KEEP))) unlinkSync(join(dir, old));
@@ -85,7 +88,8 @@ export async function startFakeSmtp(port: number, spoolDir: string | null = null
 						subject: parsed.subject ?? '',
 						text: parsed.text ?? '',
 						html: typeof parsed.html === 'string' ? parsed.html : null,
-						listUnsubscribe: headerLine(parsed.headerLines, 'list-unsubscribe')
+						listUnsubscribe: headerLine(parsed.headerLines, 'list-unsubscribe'),
+						attachments: parsed.attachments.map((a) => ({ filename: a.filename ?? '', contentType: a.contentType, size: a.size, content: a.content }))
 					};
 					box.messages.unshift(mail);
 					box.messages.length = Math.min(box.messages.length, KEEP);

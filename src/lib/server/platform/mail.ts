@@ -3,12 +3,19 @@ import { config } from './config';
 import { join } from 'node:path';
 import { startFakeSmtp, fakeSmtpPort } from './fake-smtp';
 
+export interface MailAttachment {
+	filename: string;
+	content: Buffer | string;
+	contentType: string;
+}
+
 export interface OutgoingMail {
 	to: string;
 	subject: string;
 	text: string;
 	/** Extra headers (List-Unsubscribe, List-Unsubscribe-Post). */
 	headers?: Record<string, string>;
+	attachments?: MailAttachment[];
 }
 
 let transporter: Transporter | null = null;
@@ -31,7 +38,7 @@ export async function startMail(): Promise<void> {
 
 export async function sendMail(mail: OutgoingMail): Promise<void> {
 	if (!transporter) await startMail();
-	await transporter!.sendMail({ from: config.mailFrom, to: mail.to, subject: mail.subject, text: mail.text, headers: mail.headers });
+	await transporter!.sendMail({ from: config.mailFrom, to: mail.to, subject: mail.subject, text: mail.text, headers: mail.headers, attachments: mail.attachments });
 }
 
 export { fakeSmtpPort };

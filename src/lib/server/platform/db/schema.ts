@@ -925,3 +925,28 @@ export type CandidateVettingRow = typeof candidateVetting.$inferSelect;
 export type NotificationPreference = typeof notificationPreference.$inferSelect;
 export type NotificationOutboxRow = typeof notificationOutbox.$inferSelect;
 export type RankSnapshot = typeof rankSnapshot.$inferSelect;
+
+
+// ───────────────────────────── Close-out: the event record ─────────────────────────────
+
+/** The coordinator's note on an event's record, shown in every rendering of its report. */
+export const eventRecordNote = sqliteTable('event_record_note', {
+	eventId: text('event_id')
+		.primaryKey()
+		.references(() => gwEvent.id, { onDelete: 'cascade' }),
+	text: text('text').notNull(),
+	updatedBy: text('updated_by').references(() => user.id, { onDelete: 'set null' }),
+	updatedAt: integer('updated_at', { mode: 'timestamp_ms' }).notNull()
+});
+
+/** Collaboration-wide settings (one row, id = 1). */
+export const collaborationSetting = sqliteTable('collaboration_setting', {
+	id: integer('id').primaryKey(),
+	/** Where event reports are e-mailed when an event is closed; '' = not sent. */
+	mailingListAddress: text('mailing_list_address').notNull().default(''),
+	updatedBy: text('updated_by').references(() => user.id, { onDelete: 'set null' }),
+	updatedAt: integer('updated_at', { mode: 'timestamp_ms' })
+});
+
+export type EventRecordNote = typeof eventRecordNote.$inferSelect;
+export type CollaborationSetting = typeof collaborationSetting.$inferSelect;
