@@ -8,7 +8,7 @@ import { newestMail } from '../support/mail';
 const SCREENS = 'test-results/screens';
 mkdirSync(SCREENS, { recursive: true });
 
-const SOURCE_ID = 'SX30120201';
+const SOURCE_ID = 'SX30120241';
 let eventId = '';
 
 function database() {
