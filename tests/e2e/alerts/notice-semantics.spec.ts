@@ -18,6 +18,11 @@ const UTILITY_ID = `SXU3006${RUN}`;
 const OTHER_ID = `SX3007${RUN}`;
 const RENAMED_ID = `A${RUN}99`;
 const STREAM = `ivo://strainline.example/alt-pipeline-${RUN}`;
+// The same envelopes again, through the upload page, under names of their own.
+const UP_ID = `SX3009${RUN}`;
+const UP_OTHER_ID = `SX3010${RUN}`;
+const UP_TEST_ID = `SXT3009${RUN}`;
+const UP_UTILITY_ID = `SXU3009${RUN}`;
 const std = (name: string) => readFileSync(`tests/fixtures/notices/standard/${name}`, 'utf8');
 const ours = (xml: string) => xml.replaceAll('SX30050101', SOURCE_ID).replace('#withdrawal-0042', `#withdrawal-${RUN}`);
 
@@ -31,7 +36,9 @@ test.afterAll(() => {
 	const sqlite = new Database(process.env.DATABASE_URL ?? 'tests/e2e/.artifacts/e2e.sqlite');
 	sqlite.pragma('busy_timeout = 5000');
 	sqlite.pragma('foreign_keys = ON');
-	sqlite.prepare('DELETE FROM gw_event WHERE source_event_id IN (?, ?, ?, ?, ?)').run(SOURCE_ID, TEST_ID, UTILITY_ID, OTHER_ID, RENAMED_ID);
+	sqlite
+		.prepare('DELETE FROM gw_event WHERE source_event_id IN (?, ?, ?, ?, ?, ?, ?, ?, ?)')
+		.run(SOURCE_ID, TEST_ID, UTILITY_ID, OTHER_ID, RENAMED_ID, UP_ID, UP_OTHER_ID, UP_TEST_ID, UP_UTILITY_ID);
 	sqlite.prepare('DELETE FROM notice_stream WHERE stream = ?').run(STREAM);
 	// The retraction sent before its parents waits for packets that never come: take it out of the inbox.
 	sqlite.prepare('DELETE FROM notice_inbox WHERE ivorn = ?').run(`ivo://strainline.example/fake-broker#withdrawal-early-${RUN}`);
@@ -151,4 +158,31 @@ test("a coordinator edits a stream's vocabulary; the preview reads a renamed-Par
 	await phone.goto(`/inbox/streams?stream=${encodeURIComponent(STREAM)}`);
 	await expect(phone.getByTestId('stream-name')).toHaveText(STREAM);
 	await phone.screenshot({ path: `${SCREENS}/notice-streams-390.png`, fullPage: true });
+});
+
+test('the same envelopes through the upload page: both namespaces, kind only in the citations, CDATA, test and utility roles', async ({ browser }) => {
+	test.setTimeout(90_000);
+	const coordinator = await signedIn(browser, 'coordinator');
+	/** Upload one notice by hand; the page goes to its event. Returns the event's id. */
+	const upload = async (xml: string) => {
+		await coordinator.goto('/events/upload');
+		await expect(coordinator.locator('[data-hydrated="yes"]')).toBeVisible();
+		await coordinator.getByLabel('Notice XML').fill(xml);
+		await coordinator.getByRole('button', { name: 'Submit the notice' }).click();
+		await expect(coordinator.getByTestId('event-page')).toBeVisible({ timeout: 30_000 });
+		return new URL(coordinator.url()).pathname.split('/')[2];
+	};
+	const first = await upload(std('namespaced.xml').replaceAll('SX30050101', UP_ID));
+	expect(first).toBe(UP_ID.toLowerCase());
+	// Kind only in <Citations cite="supersedes">: an update of the same event.
+	expect(await upload(std('supersedes-only.xml').replaceAll('SX30050101', UP_ID))).toBe(first);
+	await expect(coordinator.getByTestId('timeline-item')).toHaveCount(2);
+	const other = await upload(std('default-namespace.xml').replaceAll('SX30050202', UP_OTHER_ID));
+	expect(other).toBe(UP_OTHER_ID.toLowerCase());
+	expect(await upload(std('cdata-whitespace.xml').replaceAll('SX30050202', UP_OTHER_ID))).toBe(other);
+	await expect(coordinator.getByTestId('timeline-item')).toHaveCount(2);
+	await upload(std('test-role.xml').replaceAll('SXT30050303', UP_TEST_ID));
+	await expect(coordinator.getByTestId('role-badge').first()).toHaveAttribute('data-role', 'test');
+	await upload(std('utility-role.xml').replaceAll('SXU30050404', UP_UTILITY_ID));
+	await expect(coordinator.getByTestId('role-badge').first()).toHaveAttribute('data-role', 'utility');
 });
