@@ -6,7 +6,7 @@
  *
  * Also the coordinator's note on the record, stored per event and shown in every rendering.
  */
-import { and, asc, eq, inArray, isNotNull, sql } from 'drizzle-orm';
+import { and, eq, inArray, isNotNull, sql } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { InputError, DomainError } from '../platform/errors';
@@ -17,6 +17,7 @@ import { listCandidates } from '../candidates/candidates';
 import { getCandidateDetailById } from '../candidates/detail';
 import { buildReport, type EventReport, type ReportCandidate, type ReportDeedInput, type ReportAnnotation } from '../../closeout/report.ts';
 import { footprintOf } from '../../targeting/telescope.ts';
+import { pointingsWithOptics } from '../coordination/observations';
 import { reportMarkdown } from '../../closeout/markdown.ts';
 import type { FootprintShape } from '../../targeting/sky-geometry.ts';
 import { RECORD_NOTE_MAX_CHARS } from '../../limits.ts';
@@ -53,23 +54,7 @@ export function eventReport(eventId: string, now = new Date()): EventReport {
 
 	const map = event.skymap ? skyMapById(event.skymap.skymapId) : null;
 
-	const observations = db
-		.select({
-			o: table.observation,
-			teamName: table.team.name,
-			telescopeName: table.telescope.name,
-			fovShape: table.telescope.fovShape,
-			fovWidthDeg: table.telescope.fovWidthDeg,
-			fovHeightDeg: table.telescope.fovHeightDeg,
-			reporter: table.user.name
-		})
-		.from(table.observation)
-		.innerJoin(table.telescope, eq(table.telescope.id, table.observation.telescopeId))
-		.innerJoin(table.team, eq(table.team.id, table.observation.teamId))
-		.leftJoin(table.user, eq(table.user.id, table.observation.reportedByUserId))
-		.where(eq(table.observation.eventId, eventId))
-		.orderBy(asc(table.observation.observedAt), sql`observation.rowid`)
-		.all();
+	const observations = pointingsWithOptics(eventId);
 
 	// The ranking of the current map only (a ranking left from an earlier map is not this map's).
 	const skymapId = event.skymap?.skymapId ?? null;
@@ -261,21 +246,7 @@ export function recordSky(eventId: string): RecordSky {
 	const skymapId = db.select({ id: table.gwEvent.latestSkymapId }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get()?.id ?? null;
 	const display = skymapId ? skymapDisplay(skymapId) : null;
 	const contours = Array.isArray(display?.contours) ? (display.contours as RecordSky['contours']) : [];
-	const footprints = db
-		.select({
-			raDeg: table.observation.raDeg,
-			decDeg: table.observation.decDeg,
-			team: table.team.name,
-			fovShape: table.telescope.fovShape,
-			fovWidthDeg: table.telescope.fovWidthDeg,
-			fovHeightDeg: table.telescope.fovHeightDeg
-		})
-		.from(table.observation)
-		.innerJoin(table.telescope, eq(table.telescope.id, table.observation.telescopeId))
-		.innerJoin(table.team, eq(table.team.id, table.observation.teamId))
-		.where(eq(table.observation.eventId, eventId))
-		.all()
-		.map((r) => ({ raDeg: r.raDeg, decDeg: r.decDeg, team: r.team, ...footprintOf(r) }));
+	const footprints = pointingsWithOptics(eventId).map((r) => ({ raDeg: r.o.raDeg, decDeg: r.o.decDeg, team: r.teamName, ...footprintOf(r) }));
 	const candidates = db
 		.select({ name: table.candidate.name, raDeg: table.candidate.raDeg, decDeg: table.candidate.decDeg })
 		.from(table.candidate)

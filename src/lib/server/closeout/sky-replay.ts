@@ -5,7 +5,7 @@
  * a map from its notice's receipt, a pointing from when it was recorded (reported to us), a claim
  * from its own claimed/started/done/ended times.
  */
-import { asc, eq, sql } from 'drizzle-orm';
+import { eq } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { InputError } from '../platform/errors';
@@ -14,6 +14,7 @@ import { skyMapById } from '../alerts/skymap-cache';
 import { eventSky, type SkyViewData } from '../targeting/event-sky';
 import { coverage, type ObservedFootprint } from '../../targeting/coverage.ts';
 import { footprintOf } from '../../targeting/telescope.ts';
+import { pointingsWithOptics } from '../coordination/observations';
 import { formatProbability } from '../../alerts/display.ts';
 import { changeMoments, claimOpenAt, mapAt, recordedBy, replayRange, type ReplayMap } from '../../closeout/replay.ts';
 
@@ -69,29 +70,10 @@ function history(eventId: string): History | null {
 			const n = notices.find((x) => x.id === m.noticeId)!;
 			return { id: m.id, noticeKind: n.kind, receivedAtMs: receivedMs.get(m.noticeId)!, authoredAtMs: n.authoredAt.getTime() };
 		});
-	const observations = db
-		.select({
-			id: table.observation.id,
-			createdAt: table.observation.createdAt,
-			observedAt: table.observation.observedAt,
-			raDeg: table.observation.raDeg,
-			decDeg: table.observation.decDeg,
-			filter: table.observation.filter,
-			limitingMag: table.observation.limitingMag,
-			teamId: table.observation.teamId,
-			teamName: table.team.name,
-			telescopeName: table.telescope.name,
-			fovShape: table.telescope.fovShape,
-			fovWidthDeg: table.telescope.fovWidthDeg,
-			fovHeightDeg: table.telescope.fovHeightDeg
-		})
-		.from(table.observation)
-		.innerJoin(table.telescope, eq(table.telescope.id, table.observation.telescopeId))
-		.innerJoin(table.team, eq(table.team.id, table.observation.teamId))
-		.where(eq(table.observation.eventId, eventId))
-		.orderBy(asc(table.observation.createdAt), sql`observation.rowid`)
-		.all()
-		.map((o) => ({ ...o, recordedAtMs: o.createdAt.getTime(), fov: o }));
+	// In the order they were reported to us (the replay's clock for footprints).
+	const observations = pointingsWithOptics(eventId)
+		.map(({ o, ...about }) => ({ ...o, ...about, recordedAtMs: o.createdAt.getTime(), fov: about }))
+		.sort((a, b) => a.recordedAtMs - b.recordedAtMs);
 	const claims = db
 		.select({ claimedAt: table.claim.claimedAt, startedAt: table.claim.startedAt, doneAt: table.claim.doneAt, endedAt: table.claim.endedAt })
 		.from(table.claim)

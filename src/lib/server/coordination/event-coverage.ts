@@ -8,13 +8,14 @@
  * The union is `coverage()` (src/lib/targeting/coverage.ts, checked against healpy on committed
  * fixtures); this module only gathers the inputs and caches the result per (map, observations).
  */
-import { and, asc, eq, sql } from 'drizzle-orm';
+import { and, eq, sql } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { clearSkyMapCache, skyMapById } from '../alerts/skymap-cache';
 import { coverage, galaxyCoverage, type ObservedFootprint } from '../../targeting/coverage.ts';
 import type { FootprintShape } from '../../targeting/sky-geometry.ts';
 import { footprintOf } from '../../targeting/telescope.ts';
+import { pointingsWithOptics } from './observations';
 
 /**
  * Edge resolution: pixel side ≤ the footprint's smallest side / 32 (coverage.ts's default). The
@@ -89,28 +90,7 @@ export function eventCoverage(eventId: string): EventCoverage | null {
 	const key = [sky.id, count(table.observation, eq(table.observation.eventId, eventId)), count(table.claim, doneGalaxy), rankedCount].join('|');
 	if (resultCache?.key === key) return resultCache.value;
 
-	const rows = db
-		.select({
-			id: table.observation.id,
-			observedAt: table.observation.observedAt,
-			raDeg: table.observation.raDeg,
-			decDeg: table.observation.decDeg,
-			filter: table.observation.filter,
-			limitingMag: table.observation.limitingMag,
-			teamId: table.observation.teamId,
-			teamName: table.team.name,
-			telescopeName: table.telescope.name,
-			fovShape: table.telescope.fovShape,
-			fovWidthDeg: table.telescope.fovWidthDeg,
-			fovHeightDeg: table.telescope.fovHeightDeg
-		})
-		.from(table.observation)
-		.innerJoin(table.telescope, eq(table.telescope.id, table.observation.telescopeId))
-		.innerJoin(table.team, eq(table.team.id, table.observation.teamId))
-		.where(eq(table.observation.eventId, eventId))
-		// Simultaneous pointings in the order they were reported.
-		.orderBy(asc(table.observation.observedAt), sql`observation.rowid`)
-		.all();
+	const rows = pointingsWithOptics(eventId).map(({ o, ...about }) => ({ ...o, ...about }));
 	const doneGalaxyClaims = db
 		.select({ targetId: table.claim.targetId, teamId: table.claim.teamId, teamName: table.team.name })
 		.from(table.claim)

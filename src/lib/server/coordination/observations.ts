@@ -350,6 +350,31 @@ export interface PointingView extends table.Observation {
 }
 
 /** Every pointing reported for an event, by observation time, with names for telescope, team and reporter. */
+/**
+ * An event's pointings with their team, telescope (name and field of view) and reporting person, in
+ * the order they were taken (simultaneous ones in the order they were reported). The one query behind
+ * coverage, the record and the replay.
+ */
+export function pointingsWithOptics(eventId: string) {
+	return db
+		.select({
+			o: table.observation,
+			teamName: table.team.name,
+			telescopeName: table.telescope.name,
+			fovShape: table.telescope.fovShape,
+			fovWidthDeg: table.telescope.fovWidthDeg,
+			fovHeightDeg: table.telescope.fovHeightDeg,
+			reporter: table.user.name
+		})
+		.from(table.observation)
+		.innerJoin(table.telescope, eq(table.telescope.id, table.observation.telescopeId))
+		.innerJoin(table.team, eq(table.team.id, table.observation.teamId))
+		.leftJoin(table.user, eq(table.user.id, table.observation.reportedByUserId))
+		.where(eq(table.observation.eventId, eventId))
+		.orderBy(asc(table.observation.observedAt), sql`observation.rowid`)
+		.all();
+}
+
 export function listPointings(eventId: string): PointingView[] {
 	return db
 		.select({
