@@ -35,7 +35,7 @@ describe('the work pool', () => {
 				return e as Error;
 			}
 		})()!;
-		const remote = await runWork('readSpectrum', { bytes: bad, options: {} }).catch((e: unknown) => e as Error);
+		const remote = (await runWork('readSpectrum', { bytes: bad, options: {} }).catch((e: unknown) => e)) as Error;
 		expect(remote).toBeInstanceOf(SpectrumError);
 		expect(remote.message).toBe(local.message);
 

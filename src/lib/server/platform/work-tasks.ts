@@ -12,8 +12,7 @@
 import { analyseSkymap, readSkyMap, skyRaster, type ReadSkyMapOptions, type SkyMap, type SkymapSummary, type SkyRaster } from '../../sky/index.ts';
 import { FitsError, FitsInflateLimitError } from '../../sky/fits.ts';
 import { buildCatalogIndex, rankGalaxies, type CatalogIndex, type GalaxyCatalog, type RankOptions, type RankResult } from '../../targeting/galaxies.ts';
-import { rankFields, tileSky, type FieldRankOptions, type FieldRanking, type Tiling } from '../../targeting/fields.ts';
-import type { FieldOfView } from '../../targeting/telescope.ts';
+import { rankFields, tileSky, type FieldOfView, type FieldRankOptions, type FieldRanking, type Tiling } from '../../targeting/fields.ts';
 import { planNetwork } from '../../targeting/plan.ts';
 import type { NetworkPlan, PlanInput } from '../../targeting/plan-types.ts';
 import { coverage, type Coverage, type CoverageOptions, type ObservedFootprint } from '../../targeting/coverage.ts';
@@ -79,10 +78,10 @@ export const TASKS = {
 		return coverage(input.map, input.observed, input.options);
 	},
 
-	/** Read a spectrum file (ASCII, FITS table or 1-D image) and summarise it. */
-	readSpectrum(input: { bytes: Uint8Array; options: ReadSpectrumOptions }): { spectrum: Spectrum; summary: SpectrumSummary } {
+	/** Read a spectrum file (ASCII, FITS table or 1-D image) and summarise it; the bytes come back for storing. */
+	readSpectrum(input: { bytes: Uint8Array; options: ReadSpectrumOptions }): { spectrum: Spectrum; summary: SpectrumSummary; bytes: Uint8Array } {
 		const spectrum = readSpectrum(input.bytes, input.options);
-		return { spectrum, summary: summariseSpectrum(spectrum) };
+		return { spectrum, summary: summariseSpectrum(spectrum), bytes: input.bytes };
 	}
 } as const;
 
