@@ -16,7 +16,7 @@ import { randomId } from '../people/auth';
 import { record, SYSTEM, type Actor } from '../platform/realtime';
 import { fetchSkymap, jsonNoticeLimits, SkymapFetchError, skymapReadError, skymapReadOptions, type SkymapFetchOptions } from './skymap-fetch';
 import { keepSkyMap } from './skymap-cache';
-import { readStoredFile, saveSkymapFile } from '../platform/storage';
+import { readStoredFileAsync, saveSkymapFileAsync } from '../platform/storage';
 import { policyInput, factsOf } from './triage-policy';
 import { catalogInUse } from './events';
 import { NoticeWaitError, sniffIvorn, type Notice as ParsedNotice } from '../../alerts/voevent.ts';
@@ -427,7 +427,7 @@ async function attachSkymap(
 	const sourceUrl = local ? null : n.skymapUrl;
 	let bytes: Buffer;
 	try {
-		if (uploadedPath) bytes = readStoredFile(uploadedPath);
+		if (uploadedPath) bytes = await readStoredFileAsync(uploadedPath);
 		else if (embedded) bytes = Buffer.from(embedded.buffer, embedded.byteOffset, embedded.byteLength);
 		else bytes = (await fetchSkymap(n.skymapUrl!, fetchOpts)).bytes;
 	} catch (e) {
@@ -462,7 +462,7 @@ async function analyse(eventId: string, noticeId: string, given: Buffer): Promis
 	const { map, summary } = analysed;
 	const display = analysed.display as unknown as Record<string, unknown>;
 	const back = analysed.bytes;
-	const file = saveSkymapFile(eventId, noticeId, Buffer.from(back.buffer, back.byteOffset, back.byteLength));
+	const file = await saveSkymapFileAsync(eventId, noticeId, back, analysed.sha256);
 	return { map, summary, columns: { summary, display, filePath: file.path, bytes: file.bytes, sha256: file.sha256, error: null, retryAt: null } };
 }
 

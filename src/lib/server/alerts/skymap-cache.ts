@@ -12,7 +12,7 @@
 import { eq } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
-import { readStoredFile } from '../platform/storage';
+import { readStoredFile, readStoredFileAsync } from '../platform/storage';
 import { readSkyMap, type SkyMap } from '../../sky/index.ts';
 import { runWork } from '../platform/work-pool';
 import { ownedBytes } from '../platform/work-memory.ts';
@@ -84,7 +84,7 @@ export async function loadSkyMap(skymapId: string): Promise<SkyMap | null> {
 		remember(skymapId, hit);
 		return hit.map;
 	}
-	const bytes = ownedBytes(readStoredFile(row.filePath));
+	const bytes = ownedBytes(await readStoredFileAsync(row.filePath));
 	const map = await runWork('readSkyMap', { bytes }, { transfer: [bytes.buffer] });
 	// Another caller may have read it meanwhile: keep one copy.
 	const again = cache.get(skymapId);

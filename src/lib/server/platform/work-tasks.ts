@@ -1,7 +1,8 @@
 /**
  * The work pool's tasks: name → function of one structured-cloneable input. Each is a thin call
  * into the pure modules; nothing here reads files, the database or the configuration (the server
- * reads those and passes the values in), so the worker entry can load this module alone.
+ * reads those and passes the values in), so the worker entry can load this module alone. Hashing
+ * (node:crypto) is the one thing here not from the pure modules: it is CPU work, not I/O.
  *
  * Results go back to the server's thread with their whole-buffer typed arrays transferred
  * (`buffersOf`); data that later tasks read again (a parsed sky map, a catalogue's index) is put in
@@ -17,6 +18,7 @@ import { planNetwork } from '../../targeting/plan.ts';
 import type { NetworkPlan, PlanInput } from '../../targeting/plan-types.ts';
 import { coverage, type Coverage, type CoverageOptions, type ObservedFootprint } from '../../targeting/coverage.ts';
 import { readSpectrum, SpectrumError, summariseSpectrum, type ReadSpectrumOptions, type Spectrum, type SpectrumSummary } from '../../candidates/spectrum.ts';
+import { createHash } from 'node:crypto';
 import { shareArrays } from './work-memory.ts';
 
 /** A catalogue as the index task takes it: the names stay on the server's thread (a million strings would be copied). */
@@ -25,16 +27,18 @@ export type CatalogColumns = Omit<GalaxyCatalog, 'id'>;
 export type SharedCatalogIndex = Omit<CatalogIndex, 'catalog'> & { catalog: CatalogColumns };
 
 export const TASKS = {
-	/** Read and analyse a sky map, and draw its display raster; the bytes come back for storing. */
+	/** Read and analyse a sky map, and draw its display raster; the bytes come back for storing, with their sha256. */
 	analyseSkymap(input: { bytes: Uint8Array; read: ReadSkyMapOptions; raster: { width: number; height: number } }): {
 		summary: SkymapSummary;
 		map: SkyMap;
 		display: SkyRaster;
 		bytes: Uint8Array;
+		sha256: string;
 	} {
 		const { map, ...summary } = analyseSkymap(input.bytes, input.read);
 		const display = skyRaster(map, input.raster);
-		return { summary, map: shareArrays(map), display, bytes: input.bytes };
+		const sha256 = createHash('sha256').update(input.bytes).digest('hex');
+		return { summary, map: shareArrays(map), display, bytes: input.bytes, sha256 };
 	},
 
 	/** Read a stored sky map (the cache's miss). */
