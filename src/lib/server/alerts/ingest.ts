@@ -16,7 +16,7 @@ import { randomId } from '../people/auth';
 import { record, SYSTEM, type Actor } from '../platform/realtime';
 import { fetchSkymap, jsonNoticeLimits, SkymapFetchError, skymapReadError, skymapReadOptions, type SkymapFetchOptions } from './skymap-fetch';
 import { keepSkyMap } from './skymap-cache';
-import { readStoredFileAsync, saveSkymapFileAsync } from '../platform/storage';
+import { readStoredFile, saveSkymapFileAsync } from '../platform/storage';
 import { policyInput, factsOf } from './triage-policy';
 import { catalogInUse } from './events';
 import { NoticeWaitError, sniffIvorn, type Notice as ParsedNotice } from '../../alerts/voevent.ts';
@@ -427,7 +427,7 @@ async function attachSkymap(
 	const sourceUrl = local ? null : n.skymapUrl;
 	let bytes: Buffer;
 	try {
-		if (uploadedPath) bytes = await readStoredFileAsync(uploadedPath);
+		if (uploadedPath) bytes = readStoredFile(uploadedPath);
 		else if (embedded) bytes = Buffer.from(embedded.buffer, embedded.byteOffset, embedded.byteLength);
 		else bytes = (await fetchSkymap(n.skymapUrl!, fetchOpts)).bytes;
 	} catch (e) {
