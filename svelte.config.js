@@ -1,12 +1,15 @@
 import adapter from '@sveltejs/adapter-node';
 import { vitePreprocess } from '@sveltejs/vite-plugin-svelte';
 
+/** Where adapter-node writes the built app (vite.config.ts adds the work pool's worker there). */
+export const BUILD_DIR = 'build';
+
 /** @type {import('@sveltejs/kit').Config} */
 const config = {
 	preprocess: vitePreprocess(),
 	compilerOptions: { runes: true },
 	kit: {
-		adapter: adapter({ out: 'build' }),
+		adapter: adapter({ out: BUILD_DIR }),
 		alias: { $cli: 'src/cli' },
 		// Scripts only from our own origin, plus SvelteKit's inline start-up script and the theme
 		// script in app.html by nonce ('auto': nonces for rendered pages, hashes for prerendered ones).

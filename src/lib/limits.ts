@@ -55,3 +55,10 @@ export const ARCHIVE_PAGE_SIZE = 20;
  * minute of arc is already more than the 2″ duplicate check and a slit could use.
  */
 export const POSITION_ERR_ARCSEC_MAX = 60;
+
+/**
+ * Heavy tasks (sky maps, rankings, plans, spectra) that may wait for a worker thread of the work
+ * pool; one more is refused with 503 at once. Each waiting task holds its input (a sky map of up
+ * to SKYMAP_MAX_MB), so the queue is short.
+ */
+export const WORK_QUEUE_MAX = 32;

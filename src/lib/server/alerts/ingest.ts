@@ -16,14 +16,16 @@ import { randomId } from '../people/auth';
 import { record, SYSTEM, type Actor } from '../platform/realtime';
 import { fetchSkymap, jsonNoticeLimits, SkymapFetchError, skymapReadError, skymapReadOptions, type SkymapFetchOptions } from './skymap-fetch';
 import { keepSkyMap } from './skymap-cache';
-import { readStoredFile, saveSkymapFile } from '../platform/storage';
+import { readStoredFile, saveSkymapFileAsync } from '../platform/storage';
 import { policyInput, factsOf } from './triage-policy';
 import { catalogInUse } from './events';
 import { NoticeWaitError, sniffIvorn, type Notice as ParsedNotice } from '../../alerts/voevent.ts';
 import { readNotice } from './streams';
 import { detectNoticeFormat, parseJsonNotice, sniffJsonNoticeIvorn, type NoticeFormat } from '../../alerts/notice-json.ts';
 import { evaluateTriage } from '../../alerts/triage.ts';
-import { analyseSkymap, skyRaster, type SkyMap } from '../../sky/index.ts';
+import type { SkyMap } from '../../sky/index.ts';
+import { runWork } from '../platform/work-pool';
+import { ownedBytes } from '../platform/work-memory.ts';
 
 export type InboxVia = table.NoticeInboxRow['via'];
 
@@ -433,7 +435,7 @@ async function attachSkymap(
 		const retry = !local && isTransient(e) ? { fetchAttempts: 1, retryAt: retryTime(1, new Date()) } : { fetchAttempts: local ? 0 : 1 };
 		return insertSkymap({ eventId, noticeId, sourceUrl, error: retry.retryAt ? `${error} (will try again)` : error, ...retry });
 	}
-	const analysis = analyse(eventId, noticeId, bytes);
+	const analysis = await analyse(eventId, noticeId, bytes);
 	const result = insertSkymap({ eventId, noticeId, sourceUrl, fetchAttempts: local ? 0 : 1, ...analysis.columns });
 	if (analysis.map) keepSkyMap(result.skymapId, analysis.map);
 	return result;
@@ -443,18 +445,24 @@ type Analysis =
 	| { map: SkyMap; summary: table.SkymapSummary; columns: Partial<typeof table.skymap.$inferInsert> }
 	| { map: null; error: string; columns: Partial<typeof table.skymap.$inferInsert> };
 
-/** Analyse fetched bytes into the sky-map row's columns (or the reason they could not be), keeping the parsed map. */
-function analyse(eventId: string, noticeId: string, bytes: Buffer): Analysis {
-	let analysed: ReturnType<typeof analyseSkymap>;
+/**
+ * Analyse fetched bytes into the sky-map row's columns (or the reason they could not be), keeping
+ * the parsed map. Reading, analysing and drawing run on the work pool; the bytes move there and
+ * back rather than being copied.
+ */
+async function analyse(eventId: string, noticeId: string, given: Buffer): Promise<Analysis> {
+	const bytes = ownedBytes(given);
+	let analysed: Awaited<ReturnType<typeof runWork<'analyseSkymap'>>>;
 	try {
-		analysed = analyseSkymap(new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength), skymapReadOptions());
+		analysed = await runWork('analyseSkymap', { bytes, read: skymapReadOptions(), raster: { width: 360, height: 180 } }, { transfer: [bytes.buffer] });
 	} catch (e) {
 		const error = `the sky map could not be analysed: ${skymapReadError(e)}`;
 		return { map: null, error, columns: { error, retryAt: null } };
 	}
-	const { map, ...summary } = analysed;
-	const display = skyRaster(map, { width: 360, height: 180 }) as unknown as Record<string, unknown>;
-	const file = saveSkymapFile(eventId, noticeId, bytes);
+	const { map, summary } = analysed;
+	const display = analysed.display as unknown as Record<string, unknown>;
+	const back = analysed.bytes;
+	const file = await saveSkymapFileAsync(eventId, noticeId, back, analysed.sha256);
 	return { map, summary, columns: { summary, display, filePath: file.path, bytes: file.bytes, sha256: file.sha256, error: null, retryAt: null } };
 }
 
@@ -503,7 +511,7 @@ export async function retrySkymaps(opts: IngestOptions = {}): Promise<string[]> 
 				.run();
 			continue;
 		}
-		const analysis = analyse(row.eventId, row.noticeId, bytes);
+		const analysis = await analyse(row.eventId, row.noticeId, bytes);
 		db.transaction((tx) => {
 			tx.update(table.skymap).set({ ...analysis.columns, fetchAttempts: attempts }).where(eq(table.skymap.id, row.id)).run();
 			refreshEvent(tx, row.eventId);

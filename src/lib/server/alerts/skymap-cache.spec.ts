@@ -77,11 +77,11 @@ describe('the sky-map loader', () => {
 		expect(reads).toEqual([upload]);
 	});
 
-	it('reads a stored map once for several callers, and again only after it has been evicted', () => {
+	it('reads a stored map once for several callers, and again only after it has been evicted', async () => {
 		eventWithMaps(CACHED_SKY_MAPS + 1);
 		const first = skyMapById('m0')!;
 		expect(skyMapById('m0')).toBe(first);
-		rankEvent('ev-1', { skymapId: 'm0', catalogId: null });
+		await rankEvent('ev-1', { skymapId: 'm0', catalogId: null });
 		expect(reads).toHaveLength(1);
 
 		const last = `m${CACHED_SKY_MAPS}`;

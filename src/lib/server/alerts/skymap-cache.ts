@@ -12,8 +12,10 @@
 import { eq } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
-import { readStoredFile } from '../platform/storage';
+import { readStoredFile, readStoredFileAsync } from '../platform/storage';
 import { readSkyMap, type SkyMap } from '../../sky/index.ts';
+import { runWork } from '../platform/work-pool';
+import { ownedBytes } from '../platform/work-memory.ts';
 
 export const CACHED_SKY_MAPS = 4;
 
@@ -68,12 +70,48 @@ export function skyMapById(skymapId: string): SkyMap | null {
 	return map;
 }
 
+/**
+ * `skyMapById` with the file read on the work pool on a cache miss, so that the event loop is not
+ * held while a large map is parsed. The map comes back in shared memory: the tasks that rank or
+ * cover it post it to their threads without a copy. Prefer this wherever the caller can wait.
+ */
+export async function loadSkyMap(skymapId: string): Promise<SkyMap | null> {
+	const row = storedRow(skymapId);
+	if (!row || row.error || !row.filePath) return null;
+	const content = contentKey(row);
+	const hit = cache.get(skymapId);
+	if (hit && hit.content === content) {
+		remember(skymapId, hit);
+		return hit.map;
+	}
+	const bytes = ownedBytes(await readStoredFileAsync(row.filePath));
+	const map = await runWork('readSkyMap', { bytes }, { transfer: [bytes.buffer] });
+	// Another caller may have read it meanwhile: keep one copy.
+	const again = cache.get(skymapId);
+	if (again && again.content === content) return again.map;
+	remember(skymapId, { content, map });
+	return map;
+}
+
+function currentSkyMapId(eventId: string): string | null {
+	const event = db.select({ skymapId: table.gwEvent.latestSkymapId }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
+	return event?.skymapId ?? null;
+}
+
 /** The map an event shows now (its latest analysed one) with its id; null when it has none. */
 export function currentSkyMap(eventId: string): { skymapId: string; map: SkyMap } | null {
-	const event = db.select({ skymapId: table.gwEvent.latestSkymapId }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
-	if (!event?.skymapId) return null;
-	const map = skyMapById(event.skymapId);
-	return map ? { skymapId: event.skymapId, map } : null;
+	const skymapId = currentSkyMapId(eventId);
+	if (!skymapId) return null;
+	const map = skyMapById(skymapId);
+	return map ? { skymapId, map } : null;
+}
+
+/** `currentSkyMap`, read on the work pool on a cache miss (`loadSkyMap`). */
+export async function loadCurrentSkyMap(eventId: string): Promise<{ skymapId: string; map: SkyMap } | null> {
+	const skymapId = currentSkyMapId(eventId);
+	if (!skymapId) return null;
+	const map = await loadSkyMap(skymapId);
+	return map ? { skymapId, map } : null;
 }
 
 /**

@@ -12,7 +12,9 @@ import { randomId, type SessionUser } from '../people/auth';
 import { can } from '../people/permissions';
 import { actorOf, record } from '../platform/realtime';
 import { deleteStoredFile, readStoredFile, saveFile } from '../platform/storage';
-import { fileSizeProblem, readSpectrum, SpectrumError, summariseSpectrum, type SpectrumSummary } from '../../candidates/spectrum.ts';
+import { fileSizeProblem, SpectrumError, type SpectrumSummary } from '../../candidates/spectrum.ts';
+import { runWork } from '../platform/work-pool';
+import { ownedBytes } from '../platform/work-memory.ts';
 import { CandidateError, candidateForWork } from './candidates';
 import { completeTake } from './takers';
 
@@ -45,9 +47,10 @@ function megabytes(n: number): string {
  * Upload a spectrum. Refusals as CandidateError: 403 without the permission, 404, 409 retracted
  * event, 413 `too_large` over MAX_SPECTRUM_BYTES, 422 `invalid_spectrum` when the file cannot be
  * read as a spectrum (empty, text in a number column, one column, a truncated FITS file, …) with
- * the reader's reason. The uploader's own open take of the candidate ends as done.
+ * the reader's reason. The uploader's own open take of the candidate ends as done. The file is read
+ * on the work pool; the caller keeps `file.bytes` (a spectrum is at most 10 MB: one copy is moved).
  */
-export function uploadSpectrum(user: SessionUser, candidateId: string, file: { bytes: Uint8Array; fileName?: string; notes?: string }, now = new Date()): SpectrumView {
+export async function uploadSpectrum(user: SessionUser, candidateId: string, file: { bytes: Uint8Array; fileName?: string; notes?: string }, now = new Date()): Promise<SpectrumView> {
 	if (!can({ user }, 'candidates.spectroscopy')) throw new CandidateError(403, 'forbidden', 'Your role does not allow uploading spectra.');
 	const { candidate, event } = candidateForWork(candidateId, 'spectra are not taken');
 	const meta = spectrumMeta.safeParse({ fileName: file.fileName, notes: file.notes });
@@ -64,17 +67,20 @@ export function uploadSpectrum(user: SessionUser, candidateId: string, file: { b
 	if (empty) throw new CandidateError(422, 'invalid_spectrum', `${name} cannot be read as a spectrum: ${empty}.`, { file: empty });
 	let summary: SpectrumSummary;
 	let format: table.CandidateSpectrum['format'];
+	let bytes: Uint8Array;
 	try {
-		const spectrum = readSpectrum(file.bytes, { maxBytes: MAX_SPECTRUM_BYTES });
-		summary = summariseSpectrum(spectrum);
-		format = spectrum.format;
+		const given = new Uint8Array(file.bytes);
+		const read = await runWork('readSpectrum', { bytes: given, options: { maxBytes: MAX_SPECTRUM_BYTES } }, { transfer: [given.buffer] });
+		summary = read.summary;
+		format = read.spectrum.format;
+		bytes = read.bytes;
 	} catch (e) {
 		if (e instanceof SpectrumError) throw new CandidateError(422, 'invalid_spectrum', `${name} cannot be read as a spectrum: ${e.message}.`, { file: e.message });
 		throw e;
 	}
 	const id = randomId();
-	const gz = file.bytes[0] === 0x1f && file.bytes[1] === 0x8b;
-	const stored = saveFile(`spectra/${candidate.id}`, `${id}.${EXTENSIONS[format]}${gz ? '.gz' : ''}`, file.bytes);
+	const gz = bytes[0] === 0x1f && bytes[1] === 0x8b;
+	const stored = saveFile(`spectra/${candidate.id}`, `${id}.${EXTENSIONS[format]}${gz ? '.gz' : ''}`, bytes);
 	try {
 		db.insert(table.candidateSpectrum)
 			.values({
@@ -155,13 +161,14 @@ export interface SpectrumPoints {
 	totalPoints: number;
 }
 
-/** The parsed samples of one stored spectrum, thinned to `maxPoints`; null when there is no such spectrum or it no longer reads. */
-export function spectrumPoints(candidateId: string, spectrumId: string, maxPoints = 4000): SpectrumPoints | null {
+/** The parsed samples of one stored spectrum (read on the work pool), thinned to `maxPoints`; null when there is no such spectrum or it no longer reads. */
+export async function spectrumPoints(candidateId: string, spectrumId: string, maxPoints = 4000): Promise<SpectrumPoints | null> {
 	const file = spectrumFile(candidateId, spectrumId);
 	if (!file) return null;
 	let s;
 	try {
-		s = readSpectrum(new Uint8Array(file.bytes));
+		const bytes = ownedBytes(file.bytes);
+		s = (await runWork('readSpectrum', { bytes, options: {} }, { transfer: [bytes.buffer] })).spectrum;
 	} catch (e) {
 		if (e instanceof SpectrumError) return null;
 		throw e;

@@ -52,6 +52,16 @@ function thrown(f: () => unknown): CandidateError {
 	throw new Error('expected a refusal');
 }
 
+async function thrownAsync(f: () => Promise<unknown>): Promise<CandidateError> {
+	try {
+		await f();
+	} catch (e) {
+		if (e instanceof CandidateError) return e;
+		throw e;
+	}
+	throw new Error('expected a refusal');
+}
+
 async function mailTo(email: string, count: number, timeoutMs = 3000): Promise<ReceivedMail[]> {
 	const until = Date.now() + timeoutMs;
 	while (Date.now() < until) {
@@ -111,11 +121,11 @@ describe('taking a candidate for a spectrum', () => {
 });
 
 describe('uploading a spectrum', () => {
-	it('reads the file before storing it, keeps it in the storage folder and ends the uploader’s take', () => {
+	it('reads the file before storing it, keeps it in the storage folder and ends the uploader’s take', async () => {
 		expect.hasAssertions();
 		takeCandidate(w.spectroA, w.candidateId, {}, NOW);
 		const bytes = new Uint8Array(fixture('candidates/spectra/ascii-basic.txt'));
-		const s = uploadSpectrum(w.spectroA, w.candidateId, { bytes, fileName: 'at-work.txt', notes: 'blue continuum' }, NOW);
+		const s = await uploadSpectrum(w.spectroA, w.candidateId, { bytes, fileName: 'at-work.txt', notes: 'blue continuum' }, NOW);
 		expect(s).toMatchObject({ originalName: 'at-work.txt', format: 'ascii', bytes: bytes.length, notes: 'blue continuum', uploadedBy: 'Priya Spectro' });
 		expect(s.summary.points).toBeGreaterThan(10);
 		const file = spectrumFile(w.candidateId, s.id)!;
@@ -123,7 +133,7 @@ describe('uploading a spectrum', () => {
 		expect(spectrumFiles()).toEqual([`${s.id}.txt`]);
 		expect(currentTake(w.candidateId)).toBeNull();
 		expect(logged('candidate.spectrum')[0].payload).toMatchObject({ spectrumId: s.id, format: 'ascii', completedTakeId: expect.any(String) });
-		const fits = uploadSpectrum(w.spectroB, w.candidateId, { bytes: new Uint8Array(fixture('candidates/spectra/table.fits')), fileName: 'table.fits' }, new Date(NOW.getTime() + 1000));
+		const fits = await uploadSpectrum(w.spectroB, w.candidateId, { bytes: new Uint8Array(fixture('candidates/spectra/table.fits')), fileName: 'table.fits' }, new Date(NOW.getTime() + 1000));
 		expect(fits.format).toBe('fits-table');
 		expect(listSpectra(w.candidateId).map((x) => x.id)).toEqual([fits.id, s.id]);
 	});
@@ -135,9 +145,9 @@ describe('uploading a spectrum', () => {
 		['0 bytes', 'bad-zero-bytes.txt', /^bad-zero-bytes\.txt cannot be read as a spectrum: the file is empty \(0 bytes\)\.$/]
 	];
 	for (const [what, name, message] of bad) {
-		it(`refuses ${what} with the reason and stores nothing`, () => {
+		it(`refuses ${what} with the reason and stores nothing`, async () => {
 			expect.hasAssertions();
-			const e = thrown(() => uploadSpectrum(w.spectroA, w.candidateId, { bytes: new Uint8Array(fixture(`candidates/spectra/${name}`)), fileName: name }, NOW));
+			const e = await thrownAsync(() => uploadSpectrum(w.spectroA, w.candidateId, { bytes: new Uint8Array(fixture(`candidates/spectra/${name}`)), fileName: name }, NOW));
 			expect(e.status).toBe(422);
 			expect(e.code).toBe('invalid_spectrum');
 			expect(e.message).toMatch(message);
@@ -146,13 +156,13 @@ describe('uploading a spectrum', () => {
 			expect(logged('candidate.spectrum')).toHaveLength(0);
 		});
 	}
-	it('refuses a file over the size limit (413) and a retracted event (409), storing nothing', () => {
+	it('refuses a file over the size limit (413) and a retracted event (409), storing nothing', async () => {
 		expect.hasAssertions();
-		const big = thrown(() => uploadSpectrum(w.spectroA, w.candidateId, { bytes: new Uint8Array(MAX_SPECTRUM_BYTES + 1), fileName: 'big.txt' }, NOW));
+		const big = await thrownAsync(() => uploadSpectrum(w.spectroA, w.candidateId, { bytes: new Uint8Array(MAX_SPECTRUM_BYTES + 1), fileName: 'big.txt' }, NOW));
 		expect(big.status).toBe(413);
 		expect(big.message).toBe('big.txt is 10.0 MB (10,485,761 bytes), over the limit of 10.0 MB (10,485,760 bytes) for a spectrum.');
 		db.update(table.gwEvent).set({ state: 'retracted' }).where(eq(table.gwEvent.id, w.eventId)).run();
-		const retracted = thrown(() => uploadSpectrum(w.spectroA, w.candidateId, { bytes: new Uint8Array(fixture('candidates/spectra/ascii-basic.txt')) }, NOW));
+		const retracted = await thrownAsync(() => uploadSpectrum(w.spectroA, w.candidateId, { bytes: new Uint8Array(fixture('candidates/spectra/ascii-basic.txt')) }, NOW));
 		expect(retracted.code).toBe('event_retracted');
 		expect(thrown(() => takeCandidate(w.spectroA, w.candidateId, {}, NOW)).code).toBe('event_retracted');
 		expect(thrown(() => classifyCandidate(w.spectroA, w.candidateId, { label: 'kilonova', confidence: 'high' }, NOW)).code).toBe('event_retracted');
@@ -166,7 +176,7 @@ describe('uploading a spectrum', () => {
 describe('classifications', () => {
 	it('disagreeing classifications are summarised as such, e-mailed each time, and the candidate is marked disputed', async () => {
 		expect.hasAssertions();
-		const s = uploadSpectrum(w.spectroA, w.candidateId, { bytes: new Uint8Array(fixture('candidates/spectra/ascii-basic.txt')), fileName: 'a.txt' }, NOW);
+		const s = await uploadSpectrum(w.spectroA, w.candidateId, { bytes: new Uint8Array(fixture('candidates/spectra/ascii-basic.txt')), fileName: 'a.txt' }, NOW);
 		const first = classifyCandidate(w.spectroA, w.candidateId, { label: 'kilonova', confidence: 'high', redshift: 0.035, spectrumId: s.id, notes: 'featureless red continuum' }, NOW);
 		expect(first.summary.text).toBe('Classified as kilonova (high) by Priya Spectro.');
 		const second = classifyCandidate(w.spectroB, w.candidateId, { label: 'sn-ia', confidence: 'medium' }, new Date(NOW.getTime() + 60_000));
@@ -217,7 +227,7 @@ describe('decisions, discussion and the candidate detail', () => {
 		addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
 		decideCandidate(w.duty, w.candidateId, { state: 'promoted' }, NOW);
 		takeCandidate(w.spectroA, w.candidateId, { note: 'tonight' }, NOW);
-		const s = uploadSpectrum(w.spectroA, w.candidateId, { bytes: new Uint8Array(fixture('candidates/spectra/ascii-basic.txt')), fileName: 'a.txt' }, NOW);
+		const s = await uploadSpectrum(w.spectroA, w.candidateId, { bytes: new Uint8Array(fixture('candidates/spectra/ascii-basic.txt')), fileName: 'a.txt' }, NOW);
 		classifyCandidate(w.spectroA, w.candidateId, { label: 'kilonova', confidence: 'high', spectrumId: s.id }, NOW);
 		expect(thrown(() => addComment(w.viewer, w.candidateId, { body: 'hello' }, NOW)).status).toBe(403);
 		expect(thrown(() => addComment(w.duty, w.candidateId, { body: '   ' }, NOW)).fields).toEqual({ body: 'write something' });
@@ -244,23 +254,23 @@ describe('decisions, discussion and the candidate detail', () => {
 });
 
 describe('what the pages draw and list', () => {
-	it('a stored spectrum comes back as points, thinned evenly to the limit with its errors', () => {
-		const s = uploadSpectrum(w.spectroA, w.candidateId, { bytes: fixture('candidates/spectra/ascii-basic.txt'), fileName: 'ascii-basic.txt' }, NOW);
-		const all = spectrumPoints(w.candidateId, s.id)!;
+	it('a stored spectrum comes back as points, thinned evenly to the limit with its errors', async () => {
+		const s = await uploadSpectrum(w.spectroA, w.candidateId, { bytes: fixture('candidates/spectra/ascii-basic.txt'), fileName: 'ascii-basic.txt' }, NOW);
+		const all = (await spectrumPoints(w.candidateId, s.id))!;
 		expect(all.totalPoints).toBe(300);
 		expect(all.wavelength).toHaveLength(300);
 		expect(all.wavelength[0]).toBe(3600);
 		expect(all.error).toHaveLength(300);
-		const thin = spectrumPoints(w.candidateId, s.id, 100)!;
+		const thin = (await spectrumPoints(w.candidateId, s.id, 100))!;
 		expect(thin.wavelength).toHaveLength(100);
 		expect(thin.wavelength[1]).toBe(all.wavelength[3]);
-		expect(spectrumPoints(w.candidateId, 'no-such-spectrum')).toBeNull();
+		expect(await spectrumPoints(w.candidateId, 'no-such-spectrum')).toBeNull();
 	});
 
-	it('the lists get each candidate\'s verdict, credible level and spectra count', () => {
+	it('the lists get each candidate\'s verdict, credible level and spectra count', async () => {
 		addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
 		getCandidateDetail(w.eventId, w.candidateName, NOW);
-		uploadSpectrum(w.spectroA, w.candidateId, { bytes: fixture('candidates/spectra/ascii-basic.txt'), fileName: 'a.txt' }, NOW);
+		await uploadSpectrum(w.spectroA, w.candidateId, { bytes: fixture('candidates/spectra/ascii-basic.txt'), fileName: 'a.txt' }, NOW);
 		const s = vettingSummaries([w.candidateId]).get(w.candidateId)!;
 		const detail = getCandidateDetail(w.eventId, w.candidateName, NOW)!;
 		expect(s.verdict).toBe(detail.vetting!.rules.verdict);

@@ -23,7 +23,7 @@ export function every(everyMs: number, job: () => Promise<unknown>, label: strin
 }
 
 /**
- * Jobs run one at a time in the order they were queued, each off the caller's stack (queued from
+ * Jobs run one at a time in the order they were queued (a job returning a promise, until it settles), each off the caller's stack (queued from
  * a live-message listener, a job must not run inside the `record()` call that told it). A job that
  * throws is logged and the next one runs. After `stop`, jobs not yet started are dropped.
  */
@@ -33,17 +33,15 @@ export class JobQueue implements Running {
 
 	constructor(private readonly label: string) {}
 
-	enqueue(job: () => void): void {
+	enqueue(job: () => unknown): void {
 		this.tail = this.tail.then(
 			() =>
 				new Promise<void>((resolve) =>
 					setImmediate(() => {
-						try {
-							if (!this.stopped) job();
-						} catch (e) {
-							console.error(`${this.label} failed`, e);
-						}
-						resolve();
+						// A job that waits (on the work pool, say) holds the queue until it has finished.
+						new Promise<unknown>((done) => done(this.stopped ? undefined : job()))
+							.catch((e) => console.error(`${this.label} failed`, e))
+							.finally(resolve);
 					})
 				)
 		);

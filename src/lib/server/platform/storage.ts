@@ -4,6 +4,7 @@
  */
 import { createHash, randomBytes } from 'node:crypto';
 import { mkdirSync, readFileSync, renameSync, rmSync, writeFileSync, existsSync } from 'node:fs';
+import { mkdir, readFile, rename, writeFile } from 'node:fs/promises';
 import { dirname, isAbsolute, relative, resolve, sep } from 'node:path';
 import { config } from './config';
 
@@ -52,6 +53,28 @@ export function saveFile(folder: string, name: string, bytes: Uint8Array): Store
 	return { path: rel, bytes: bytes.byteLength, sha256: createHash('sha256').update(bytes).digest('hex') };
 }
 
+/**
+ * `saveFile` without holding the event loop: written asynchronously, with the checksum the caller
+ * computed off the loop (a 100 MB sky map takes a noticeable time to hash; the work pool's
+ * `analyseSkymap` gives it).
+ */
+export async function saveFileAsync(folder: string, name: string, bytes: Uint8Array, sha256: string): Promise<StoredFile> {
+	const segments = [...folder.split('/'), name];
+	for (const s of segments) if (!SAFE_SEGMENT.test(s)) throw new Error(`bad file name segment "${s}"`);
+	const rel = segments.join('/');
+	const full = storagePath(rel);
+	await mkdir(dirname(full), { recursive: true });
+	const tmp = `${full}.${randomBytes(4).toString('hex')}.part`;
+	await writeFile(tmp, bytes);
+	await rename(tmp, full);
+	return { path: rel, bytes: bytes.byteLength, sha256 };
+}
+
+/** `readStoredFile` without holding the event loop. */
+export function readStoredFileAsync(relativePath: string): Promise<Buffer> {
+	return readFile(storagePath(relativePath));
+}
+
 export function readStoredFile(relativePath: string): Buffer {
 	return readFileSync(storagePath(relativePath));
 }
@@ -73,6 +96,12 @@ export function storedFileExists(relativePath: string): boolean {
 export function saveSkymapFile(eventId: string, noticeId: string, bytes: Uint8Array): StoredFile {
 	const gz = bytes.length >= 2 && bytes[0] === 0x1f && bytes[1] === 0x8b;
 	return saveFile(`skymaps/${eventId}`, `${noticeId}.fits${gz ? '.gz' : ''}`, bytes);
+}
+
+/** `saveSkymapFile`, written asynchronously with a checksum computed off the loop. */
+export function saveSkymapFileAsync(eventId: string, noticeId: string, bytes: Uint8Array, sha256: string): Promise<StoredFile> {
+	const gz = bytes.length >= 2 && bytes[0] === 0x1f && bytes[1] === 0x8b;
+	return saveFileAsync(`skymaps/${eventId}`, `${noticeId}.fits${gz ? '.gz' : ''}`, bytes, sha256);
 }
 
 /** A sky-map file uploaded by hand, kept before its notice is processed. */

@@ -190,7 +190,7 @@ describe('targets: ranking after skymap.analysed', () => {
 		await ingestWithMap(notice('bns-initial.xml'), mocMap);
 		expect(targetsMeta(eventId)!.skymapId).toBe(current);
 		// Without a catalogue the fields are still ranked.
-		const summary = rankEvent(eventId, { catalogId: null })!;
+		const summary = (await rankEvent(eventId, { catalogId: null }))!;
 		expect(summary.galaxies).toBe(0);
 		expect(Object.values(summary.fields).every((n) => n > 0)).toBe(true);
 		expect(eventGalaxies(eventId).total).toBe(0);
@@ -230,7 +230,7 @@ describe('targets: the network plan over the stored rankings', () => {
 		const r = await ingestWithMap(notice('bns-update.xml'), demoMap);
 		const started = performance.now();
 		// 2030-04-12 18:00 UTC: night in South Africa (Karoo) and, later, Chile.
-		const { plan } = networkPlan(r.eventId!, new Date('2030-04-12T18:00:00Z'));
+		const { plan } = await networkPlan(r.eventId!, new Date('2030-04-12T18:00:00Z'));
 		const ms = performance.now() - started;
 		const galaxyIds = new Set(eventGalaxies(r.eventId!, { limit: 300 }).galaxies.map((g) => `G${g.galaxyId}`));
 		const seen = new Set<string>();
@@ -255,8 +255,8 @@ describe('targets: the network plan over the stored rankings', () => {
 		expect.hasAssertions();
 		const { networkPlan, planCoverage } = await import('./visibility-view');
 		const r = await ingestWithMap(notice('bns-update.xml'), demoMap);
-		const { plan, telescopes } = networkPlan(r.eventId!, new Date('2030-04-12T18:00:00Z'));
-		const covered = planCoverage(r.eventId!, plan, telescopes)!;
+		const { plan, telescopes } = await networkPlan(r.eventId!, new Date('2030-04-12T18:00:00Z'));
+		const covered = (await planCoverage(r.eventId!, plan, telescopes))!;
 		// Overlapping fields of different tilings make the plain sum of target probabilities larger
 		// than the union; the union can never pass the map's total.
 		const summed = plan.telescopes.flatMap((t) => t.assignments).filter((a) => a.kind === 'field').reduce((s, a) => s + a.probability, 0);

@@ -17,11 +17,14 @@ import * as table from '../platform/db/schema';
 import { onRecorded, record, SYSTEM, type Actor } from '../platform/realtime';
 import { JobQueue } from '../platform/periodic';
 import { restartService, service } from '../platform/services';
-import { skyMapById } from '../alerts/skymap-cache';
+import { loadSkyMap } from '../alerts/skymap-cache';
+import { runWork } from '../platform/work-pool';
+import { buffersOf } from '../platform/work-memory.ts';
+import type { SharedCatalogIndex } from '../platform/work-tasks.ts';
 import { getCatalog } from './catalogs';
 import { SUN_ABS_MAG_B } from '../../targeting/catalog-csv.ts';
-import { buildCatalogIndex, INDEX_ORDER, rankGalaxies, type CatalogIndex, type GalaxyCatalog, type WeightSource } from '../../targeting/galaxies.ts';
-import { rankFields, tileSky, type Tiling } from '../../targeting/fields.ts';
+import { INDEX_ORDER, type GalaxyCatalog, type WeightSource } from '../../targeting/galaxies.ts';
+import type { Tiling } from '../../targeting/fields.ts';
 import { footprintOf, isWideField } from '../../targeting/telescope.ts';
 
 /** Credible level of the region searched for galaxies and fields. */
@@ -39,14 +42,15 @@ export const MAX_FIELDS = 300;
 
 interface CachedCatalog {
 	catalogId: string;
-	index: CatalogIndex;
+	/** Built on the work pool, in shared memory; without the galaxies' names (rows are enough to rank). */
+	index: SharedCatalogIndex;
 	/** galaxy.id of each catalogue row. */
 	galaxyIds: Float64Array;
 	builtMs: number;
 }
 
-const catalogCache = new Map<string, CachedCatalog>();
-const tilingCache = new Map<string, Tiling>();
+const catalogCache = new Map<string, Promise<CachedCatalog>>();
+const tilingCache = new Map<string, Promise<Tiling>>();
 
 /** Forget cached indexes (tests switch databases; a deleted catalogue must not linger). */
 export function clearTargetCaches(): void {
@@ -54,24 +58,39 @@ export function clearTargetCaches(): void {
 	tilingCache.clear();
 }
 
+/** The promise `make` gives for `key`, made once; forgotten again if it fails, so a later call tries afresh. */
+function cachedPromise<T>(cache: Map<string, Promise<T>>, key: string, make: () => Promise<T>): Promise<T> {
+	let hit = cache.get(key);
+	if (!hit) {
+		hit = make();
+		cache.set(key, hit);
+		hit.catch(() => {
+			if (cache.get(key) === hit) cache.delete(key);
+		});
+	}
+	return hit;
+}
+
 /**
  * The in-memory index of a ready catalogue, built from its galaxy rows once and kept. Rows are
- * read in catalogue order, so index rows are the `row` column.
+ * read in catalogue order, so index rows are the `row` column. The rows are read here (the
+ * database is this thread's); the index is built on the work pool.
  */
-export function catalogIndex(catalogId: string): CachedCatalog {
-	const hit = catalogCache.get(catalogId);
-	if (hit) return hit;
+export function catalogIndex(catalogId: string): Promise<CachedCatalog> {
+	return cachedPromise(catalogCache, catalogId, () => buildIndex(catalogId));
+}
+
+async function buildIndex(catalogId: string): Promise<CachedCatalog> {
 	const started = performance.now();
 	const meta = getCatalog(catalogId);
 	if (!meta || meta.state !== 'ready') throw new Error(`catalogue ${catalogId} is not ready`);
 	const rows = db.$client
-		.prepare('SELECT id, name, ra_deg, dec_deg, distance_mpc, distance_err_mpc, weight, b_abs_mag FROM galaxy WHERE catalog_id = ? ORDER BY row')
+		.prepare('SELECT id, ra_deg, dec_deg, distance_mpc, distance_err_mpc, weight, b_abs_mag FROM galaxy WHERE catalog_id = ? ORDER BY row')
 		.raw()
-		.all(catalogId) as [number, string, number, number, number, number, number, number | null][];
+		.all(catalogId) as [number, number, number, number, number, number, number | null][];
 	const n = rows.length;
-	const cat: GalaxyCatalog = {
+	const cat: Omit<GalaxyCatalog, 'id'> = {
 		size: n,
-		id: new Array(n),
 		raDeg: new Float64Array(n),
 		decDeg: new Float64Array(n),
 		distanceMpc: new Float64Array(n),
@@ -85,31 +104,24 @@ export function catalogIndex(catalogId: string): CachedCatalog {
 	const galaxyIds = new Float64Array(n);
 	rows.forEach((r, k) => {
 		galaxyIds[k] = r[0];
-		cat.id[k] = r[1];
-		cat.raDeg[k] = r[2];
-		cat.decDeg[k] = r[3];
-		cat.distanceMpc[k] = r[4];
-		cat.distanceErrMpc[k] = r[5];
-		cat.weight[k] = r[6];
+		cat.raDeg[k] = r[1];
+		cat.decDeg[k] = r[2];
+		cat.distanceMpc[k] = r[3];
+		cat.distanceErrMpc[k] = r[4];
+		cat.weight[k] = r[5];
 		// L_B / 10^10 L_B,⊙ = 10^(−0.4 (M_B − M_B,⊙)) / 10^10, as the parser computed it.
-		lum[k] = r[7] === null ? NaN : 10 ** (-0.4 * (r[7] - SUN_ABS_MAG_B)) / 1e10;
-		if (r[7] !== null) anyB = true;
+		lum[k] = r[6] === null ? NaN : 10 ** (-0.4 * (r[6] - SUN_ABS_MAG_B)) / 1e10;
+		if (r[6] !== null) anyB = true;
 	});
 	if (anyB) cat.luminosityB10 = lum;
-	const entry = { catalogId, index: buildCatalogIndex(cat, INDEX_ORDER), galaxyIds, builtMs: performance.now() - started };
-	catalogCache.set(catalogId, entry);
-	return entry;
+	const index = await runWork('buildCatalogIndex', { catalog: cat, order: INDEX_ORDER }, { transfer: buffersOf(cat) });
+	return { catalogId, index, galaxyIds, builtMs: performance.now() - started };
 }
 
-function tilingFor(t: table.Telescope): Tiling {
+/** The tiling of a telescope's field of view, made on the work pool once per field of view. */
+function tilingFor(t: table.Telescope): Promise<Tiling> {
 	const fov = footprintOf(t);
-	const key = JSON.stringify(fov);
-	let tiling = tilingCache.get(key);
-	if (!tiling) {
-		tiling = tileSky(fov);
-		tilingCache.set(key, tiling);
-	}
-	return tiling;
+	return cachedPromise(tilingCache, JSON.stringify(fov), () => runWork('tileSky', { fov }));
 }
 
 export interface RankSummary {
@@ -150,13 +162,13 @@ export function snapshotHeldRanks(tx: Pick<typeof db, 'run' | 'delete'>, eventId
  * Rank targets for an event's sky map (default: the map the event shows now) and replace what
  * was stored for the event. Logs `targets.ranked` to the board and the event's room.
  */
-export function rankEvent(eventId: string, opts: { skymapId?: string; catalogId?: string | null; actor?: Actor } = {}): RankSummary | null {
+export async function rankEvent(eventId: string, opts: { skymapId?: string; catalogId?: string | null; actor?: Actor } = {}): Promise<RankSummary | null> {
 	const started = performance.now();
 	const event = db.select().from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
 	if (!event) return null;
 	const skymapId = opts.skymapId ?? event.latestSkymapId;
 	if (!skymapId) return null;
-	const map = skyMapById(skymapId);
+	const map = await loadSkyMap(skymapId);
 	if (!map) return null;
 
 	// The event's own catalogue (chosen when it arrived, or by a coordinator since), not whatever was imported last.
@@ -174,27 +186,39 @@ export function rankEvent(eventId: string, opts: { skymapId?: string; catalogId?
 		withoutDistance: 0,
 		completeness: null
 	};
-	if (catalogId) {
-		const { index, galaxyIds } = catalogIndex(catalogId);
-		const ranked = rankGalaxies(map, index, { level: TARGET_LEVEL, limit: STORED_GALAXIES });
-		galaxyRows = ranked.galaxies.map((g) => ({
+	// Galaxies and every wide-field telescope's fields, ranked in one task on the work pool (the map
+	// and the index are in shared memory: nothing is copied to get them there).
+	const cached = catalogId ? await catalogIndex(catalogId) : null;
+	const wide = db.select().from(table.telescope).orderBy(asc(table.telescope.name)).all().filter(isWideField);
+	const tilings = await Promise.all(wide.map(async (t) => ({ key: t.id, tiling: await tilingFor(t) })));
+	const ranked = await runWork('rankTargets', {
+		map,
+		index: cached?.index ?? null,
+		galaxies: { level: TARGET_LEVEL, limit: STORED_GALAXIES },
+		tilings,
+		fields: { level: TARGET_LEVEL }
+	});
+	if (cached && ranked.galaxies) {
+		const { galaxyIds } = cached;
+		const g = ranked.galaxies;
+		galaxyRows = g.galaxies.map((r) => ({
 			eventId,
 			skymapId,
-			rank: g.rank,
-			galaxyId: galaxyIds[g.row],
-			score: g.score,
-			probability: g.probability,
-			cumulative: g.cumulative,
-			distancePValue: g.distancePValue
+			rank: r.rank,
+			galaxyId: galaxyIds[r.row],
+			score: r.score,
+			probability: r.probability,
+			cumulative: r.cumulative,
+			distancePValue: r.distancePValue
 		}));
-		const c = ranked.completeness;
+		const c = g.completeness;
 		meta = {
 			...meta,
-			mode: ranked.mode,
-			regionAreaDeg2: ranked.regionAreaDeg2,
-			candidates: ranked.candidates,
+			mode: g.mode,
+			regionAreaDeg2: g.regionAreaDeg2,
+			candidates: g.candidates,
 			galaxiesStored: galaxyRows.length,
-			withoutDistance: ranked.withoutDistance,
+			withoutDistance: g.withoutDistance,
 			completeness: c
 				? { distanceRangeMpc: c.distanceRangeMpc, ratio: c.ratio, catalogLuminosityB10: c.catalogLuminosityB10, expectedLuminosityB10: c.expectedLuminosityB10 }
 				: null
@@ -203,17 +227,15 @@ export function rankEvent(eventId: string, opts: { skymapId?: string; catalogId?
 
 	const fieldRows: (typeof table.eventField.$inferInsert)[] = [];
 	const fieldCounts: Record<string, number> = {};
-	for (const t of db.select().from(table.telescope).orderBy(asc(table.telescope.name)).all()) {
-		if (!isWideField(t)) continue;
-		const ranking = rankFields(map, tilingFor(t), { level: TARGET_LEVEL });
+	for (const { key: telescopeId, ranking } of ranked.fields) {
 		let n = 0;
 		for (const f of ranking.fields) {
 			if (n >= MAX_FIELDS) break;
-			fieldRows.push({ eventId, skymapId, telescopeId: t.id, fieldId: f.id, raDeg: f.raDeg, decDeg: f.decDeg, probability: f.probability, cumulative: f.cumulative, rank: f.rank });
+			fieldRows.push({ eventId, skymapId, telescopeId, fieldId: f.id, raDeg: f.raDeg, decDeg: f.decDeg, probability: f.probability, cumulative: f.cumulative, rank: f.rank });
 			n++;
 			if (f.cumulative >= FIELDS_CUMULATIVE) break;
 		}
-		fieldCounts[t.id] = n;
+		fieldCounts[telescopeId] = n;
 	}
 	const computeMs = performance.now() - started;
 
@@ -245,11 +267,11 @@ export async function targetsIdle(): Promise<void> {
 	await rankingJobs().idle();
 }
 
-function rankNewMap(eventId: string, skymapId: string): void {
+async function rankNewMap(eventId: string, skymapId: string): Promise<void> {
 	// A map that arrived late for an older notice is not the one the event shows: keep the current ranking.
 	const current = db.select({ id: table.gwEvent.latestSkymapId }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
 	if (current?.id !== skymapId) return;
-	rankEvent(eventId, { skymapId });
+	await rankEvent(eventId, { skymapId });
 }
 
 /**
@@ -274,7 +296,7 @@ export function rankMissing(): string[] {
 		.all()
 		.map((r) => r.id);
 	for (const id of missing) {
-		rankingJobs().enqueue(() => {
+		rankingJobs().enqueue(async () => {
 			// Ranked meanwhile by the job an analysed map queued: nothing to do.
 			const now = db
 				.select({ map: table.gwEvent.latestSkymapId, ranked: table.eventTargetsMeta.skymapId })
@@ -283,7 +305,7 @@ export function rankMissing(): string[] {
 				.where(eq(table.gwEvent.id, id))
 				.get();
 			if (!now?.map || now.ranked === now.map) return;
-			rankEvent(id);
+			await rankEvent(id);
 		});
 	}
 	return missing;
@@ -305,7 +327,7 @@ export function installTargets(): () => void {
 				if (m.room === 'board') rankingJobs().enqueue(() => rankNewMap(eventId, skymapId));
 			}),
 			onRecorded('targets.catalog-switched', ({ eventId }, m) => {
-				if (m.room === 'board') rankingJobs().enqueue(() => void rankEvent(eventId));
+				if (m.room === 'board') rankingJobs().enqueue(async () => void (await rankEvent(eventId)));
 			}),
 			// After every notice: a ranking that a crash or an error lost is made again.
 			onRecorded('notice.processed', (_p, m) => {

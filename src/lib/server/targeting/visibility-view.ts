@@ -10,13 +10,13 @@ import * as table from '../platform/db/schema';
 import { listTelescopes } from '../people/telescopes';
 import { eventFields, eventGalaxies, STORED_GALAXIES } from './rankings';
 import { depthCheck, type DepthCheck } from '../../targeting/depth.ts';
-import { planNetwork } from '../../targeting/plan.ts';
 import type { NetworkPlan, PlanClaim, PlanTarget } from '../../targeting/plan-types.ts';
 import { footprintOf, fovAreaDeg2, isWideField, siteOf } from '../../targeting/telescope.ts';
 import { tonight } from '../../targeting/visibility.ts';
 import { listClaims } from '../coordination/claims';
-import { coverage, type ObservedFootprint } from '../../targeting/coverage.ts';
-import { currentSkyMap } from '../alerts/skymap-cache';
+import type { ObservedFootprint } from '../../targeting/coverage.ts';
+import { loadCurrentSkyMap } from '../alerts/skymap-cache';
+import { runWork } from '../platform/work-pool';
 
 export type TelescopeRow = ReturnType<typeof listTelescopes>[number];
 
@@ -99,11 +99,11 @@ export function claimTargetId(t: { kind: string; targetId: string }): string {
  * target to the claiming telescope (others leave it, reason "claimed"); targets already observed
  * under a completed claim are left out.
  */
-export function networkPlan(
+export async function networkPlan(
 	eventId: string,
 	now: Date,
 	horizonH = 24
-): { plan: NetworkPlan; telescopes: TelescopeRow[]; labels: Map<string, string>; claims: ReturnType<typeof listClaims> } {
+): Promise<{ plan: NetworkPlan; telescopes: TelescopeRow[]; labels: Map<string, string>; claims: ReturnType<typeof listClaims> }> {
 	const telescopes = listTelescopes();
 	const targets: PlanTarget[] = [];
 	for (const g of eventGalaxies(eventId, { limit: Math.min(PLAN_GALAXIES, STORED_GALAXIES) }).galaxies) {
@@ -123,7 +123,8 @@ export function networkPlan(
 			const id = planId(c.targetKind, c.targetId);
 			return id ? [{ targetId: id, filter: c.filter || null, epoch: c.epoch, telescopeId: c.telescopeId }] : [];
 		});
-	const plan = planNetwork({ targets: targets.filter((t) => !done.has(t.id)), telescopes, claims, start: now, horizonH });
+	// Computed on the work pool: a plan for a large network takes a noticeable time.
+	const plan = await runWork('planNetwork', { targets: targets.filter((t) => !done.has(t.id)), telescopes, claims, start: now, horizonH });
 	const scopeName = new Map(telescopes.map((t) => [t.id, t.name]));
 	const labels = new Map(targets.map((t) => [t.id, t.kind === 'field' ? `${t.name} (${scopeName.get(String(t.fieldFor)) ?? 'field'})` : (t.name ?? t.id)]));
 	return { plan, telescopes, labels, claims: live };
@@ -147,8 +148,8 @@ export interface PlanCoverage {
  * footprints on the event's sky map (fields of different tilings and galaxy pointings overlap, so
  * their probabilities cannot be added), and separately the ranked galaxy probability observed.
  */
-export function planCoverage(eventId: string, plan: NetworkPlan, telescopes: TelescopeRow[]): PlanCoverage | null {
-	const map = currentSkyMap(eventId)?.map;
+export async function planCoverage(eventId: string, plan: NetworkPlan, telescopes: TelescopeRow[]): Promise<PlanCoverage | null> {
+	const map = (await loadCurrentSkyMap(eventId))?.map;
 	if (!map) return null;
 	const startMs = Date.parse(plan.start);
 	const hoursOf = (ms: number) => (ms - startMs) / 3_600_000;
@@ -168,7 +169,7 @@ export function planCoverage(eventId: string, plan: NetworkPlan, telescopes: Tel
 			galaxyPoints.push({ hours: hoursOf(Date.parse(a.start)), probability: galaxyTotal });
 		}
 	}
-	const union = coverage(map, footprints, { pixelsAcross: 8 });
+	const union = await runWork('coverage', { map, observed: footprints, options: { pixelsAcross: 8 } });
 	return {
 		sky: union.curve.map((p) => ({ hours: hoursOf(p.timeMs), probability: p.union })),
 		skyTotal: union.union,

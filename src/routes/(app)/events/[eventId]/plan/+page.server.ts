@@ -9,15 +9,15 @@ import { claimTargetId, networkPlan, planCoverage, planStart } from '$lib/server
 
 const SHOWN = 60;
 
-export const load: PageServerLoad = ({ params, url, depends, locals }) => {
+export const load: PageServerLoad = async ({ params, url, depends, locals }) => {
 	requirePermission('events.view');
 	depends('app:plan');
 	const event = getEvent(params.eventId);
 	if (!event) error(404, 'No such event.');
 	const start = planStart(url.searchParams.get('start'));
 	const started = performance.now();
-	const { plan, labels, telescopes, claims } = networkPlan(event.eventId, start);
-	const covered = planCoverage(event.eventId, plan, telescopes);
+	const { plan, labels, telescopes, claims } = await networkPlan(event.eventId, start);
+	const covered = await planCoverage(event.eventId, plan, telescopes);
 	const computeMs = performance.now() - started;
 	// Claiming from the plan: with the viewer's own teams' telescopes (coordinators: any), targets no claim holds.
 	const user = locals.user;

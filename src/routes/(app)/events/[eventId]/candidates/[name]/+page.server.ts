@@ -16,7 +16,7 @@ import { addComment } from '$lib/server/candidates/discussion';
 const CHARTED_SPECTRA = 3;
 const MAX_CSV_BYTES = 2 * 1024 * 1024;
 
-export const load: PageServerLoad = ({ params, locals, depends }) => {
+export const load: PageServerLoad = async ({ params, locals, depends }) => {
 	requirePermission('events.view');
 	depends('app:candidates');
 	const detail = getCandidateDetail(params.eventId, params.name);
@@ -25,10 +25,7 @@ export const load: PageServerLoad = ({ params, locals, depends }) => {
 	const id = detail.candidate.id;
 	return {
 		...detail,
-		spectrumCharts: detail.spectra.slice(0, CHARTED_SPECTRA).flatMap((s) => {
-			const p = spectrumPoints(id, s.id);
-			return p ? [p] : [];
-		}),
+		spectrumCharts: (await Promise.all(detail.spectra.slice(0, CHARTED_SPECTRA).map((s) => spectrumPoints(id, s.id)))).filter((p) => p !== null),
 		me: locals.user ? { id: locals.user.id } : null,
 		may: {
 			photometry: can(who, 'candidates.photometry') && Boolean(locals.user),
@@ -99,7 +96,7 @@ export const actions: Actions = {
 		const file = form.get('file');
 		if (!(file instanceof File) || file.size === 0) return failWith(form, { file: 'Choose the spectrum file (text columns or FITS).' });
 		try {
-			const s = uploadSpectrum(user, id, { bytes: new Uint8Array(await file.arrayBuffer()), fileName: file.name || undefined, notes: formText(form.get('notes')) });
+			const s = await uploadSpectrum(user, id, { bytes: new Uint8Array(await file.arrayBuffer()), fileName: file.name || undefined, notes: formText(form.get('notes')) });
 			return { spectrumAdded: s.originalName };
 		} catch (e) {
 			return failFromError(form, e, { field: 'file' });

@@ -41,7 +41,7 @@ export const POST = apiRoute(async ({ params, request, url }) => {
 		file = { bytes: new Uint8Array(await request.arrayBuffer()), fileName: url.searchParams.get('fileName') ?? undefined, notes: url.searchParams.get('notes') ?? undefined };
 	}
 	try {
-		return json({ spectrum: uploadSpectrum(user, params.candidateId ?? '', file) }, { status: 201 });
+		return json({ spectrum: await uploadSpectrum(user, params.candidateId ?? '', file) }, { status: 201 });
 	} catch (e) {
 		return apiErrorFrom(e);
 	}

@@ -1,0 +1,105 @@
+/**
+ * The work pool's tasks: name → function of one structured-cloneable input. Each is a thin call
+ * into the pure modules; nothing here reads files, the database or the configuration (the server
+ * reads those and passes the values in), so the worker entry can load this module alone. Hashing
+ * (node:crypto) is the one thing here not from the pure modules: it is CPU work, not I/O.
+ *
+ * Results go back to the server's thread with their whole-buffer typed arrays transferred
+ * (`buffersOf`); data that later tasks read again (a parsed sky map, a catalogue's index) is put in
+ * SharedArrayBuffers here, once, so that posting it to the next task copies nothing.
+ *
+ * Adding a task: DEVELOPERS.md, "Heavy work: the work pool".
+ */
+import { analyseSkymap, readSkyMap, skyRaster, type ReadSkyMapOptions, type SkyMap, type SkymapSummary, type SkyRaster } from '../../sky/index.ts';
+import { FitsError, FitsInflateLimitError } from '../../sky/fits.ts';
+import { buildCatalogIndex, rankGalaxies, type CatalogIndex, type GalaxyCatalog, type RankOptions, type RankResult } from '../../targeting/galaxies.ts';
+import { rankFields, tileSky, type FieldOfView, type FieldRankOptions, type FieldRanking, type Tiling } from '../../targeting/fields.ts';
+import { planNetwork } from '../../targeting/plan.ts';
+import type { NetworkPlan, PlanInput } from '../../targeting/plan-types.ts';
+import { coverage, type Coverage, type CoverageOptions, type ObservedFootprint } from '../../targeting/coverage.ts';
+import { readSpectrum, SpectrumError, summariseSpectrum, type ReadSpectrumOptions, type Spectrum, type SpectrumSummary } from '../../candidates/spectrum.ts';
+import { createHash } from 'node:crypto';
+import { shareArrays } from './work-memory.ts';
+
+/** A catalogue as the index task takes it: the names stay on the server's thread (a million strings would be copied). */
+export type CatalogColumns = Omit<GalaxyCatalog, 'id'>;
+/** An index whose catalogue has no names; the server puts them back (`rankings.ts`). */
+export type SharedCatalogIndex = Omit<CatalogIndex, 'catalog'> & { catalog: CatalogColumns };
+
+export const TASKS = {
+	/** Read and analyse a sky map, and draw its display raster; the bytes come back for storing, with their sha256. */
+	analyseSkymap(input: { bytes: Uint8Array; read: ReadSkyMapOptions; raster: { width: number; height: number } }): {
+		summary: SkymapSummary;
+		map: SkyMap;
+		display: SkyRaster;
+		bytes: Uint8Array;
+		sha256: string;
+	} {
+		const { map, ...summary } = analyseSkymap(input.bytes, input.read);
+		const display = skyRaster(map, input.raster);
+		const sha256 = createHash('sha256').update(input.bytes).digest('hex');
+		return { summary, map: shareArrays(map), display, bytes: input.bytes, sha256 };
+	},
+
+	/** Read a stored sky map (the cache's miss). */
+	readSkyMap(input: { bytes: Uint8Array; read?: ReadSkyMapOptions }): SkyMap {
+		return shareArrays(readSkyMap(input.bytes, input.read));
+	},
+
+	/** Bucket a catalogue's galaxies by sky pixel. */
+	buildCatalogIndex(input: { catalog: CatalogColumns; order: number }): SharedCatalogIndex {
+		const index = buildCatalogIndex({ ...input.catalog, id: [] }, input.order);
+		const { id: _names, ...catalog } = index.catalog;
+		return shareArrays({ ...index, catalog });
+	},
+
+	/** Galaxies of an index, and fields of each tiling, ranked inside a map's credible region. */
+	rankTargets(input: {
+		map: SkyMap;
+		index: SharedCatalogIndex | null;
+		galaxies: RankOptions;
+		tilings: { key: string; tiling: Tiling }[];
+		fields: FieldRankOptions;
+	}): { galaxies: RankResult | null; fields: { key: string; ranking: FieldRanking }[] } {
+		// The names are not needed to rank: rows are answered, and the server maps them to its own ids.
+		const galaxies = input.index ? rankGalaxies(input.map, { ...input.index, catalog: { ...input.index.catalog, id: [] } }, input.galaxies) : null;
+		const fields = input.tilings.map(({ key, tiling }) => ({ key, ranking: rankFields(input.map, tiling, input.fields) }));
+		return { galaxies, fields };
+	},
+
+	/** Tile the sky for a field of view. */
+	tileSky(input: { fov: FieldOfView }): Tiling {
+		return tileSky(input.fov);
+	},
+
+	/** The network plan. */
+	planNetwork(input: PlanInput): NetworkPlan {
+		return planNetwork(input);
+	},
+
+	/** Union coverage of footprints on a map. */
+	coverage(input: { map: SkyMap; observed: ObservedFootprint[]; options: CoverageOptions }): Coverage {
+		return coverage(input.map, input.observed, input.options);
+	},
+
+	/** Read a spectrum file (ASCII, FITS table or 1-D image) and summarise it; the bytes come back for storing. */
+	readSpectrum(input: { bytes: Uint8Array; options: ReadSpectrumOptions }): { spectrum: Spectrum; summary: SpectrumSummary; bytes: Uint8Array } {
+		const spectrum = readSpectrum(input.bytes, input.options);
+		return { spectrum, summary: summariseSpectrum(spectrum), bytes: input.bytes };
+	}
+} as const;
+
+export type TaskName = keyof typeof TASKS;
+export type TaskInput<K extends TaskName> = Parameters<(typeof TASKS)[K]>[0];
+export type TaskOutput<K extends TaskName> = ReturnType<(typeof TASKS)[K]>;
+
+/**
+ * Errors the pure modules throw that callers tell apart by class: a task's error is rebuilt on
+ * the server's thread as the same class with the same fields (postMessage alone would give a
+ * plain Error). Add a module's error class here when a task of yours throws it.
+ */
+export const ERROR_CLASSES: Record<string, new (...args: never[]) => Error> = {
+	FitsError,
+	FitsInflateLimitError,
+	SpectrumError
+};

@@ -1,0 +1,44 @@
+/**
+ * The work pool's worker entry: runs one task by name and sends its result back with the
+ * result's whole-buffer typed arrays transferred. Thin on purpose: it loads the task table (pure
+ * modules only) and tinypool's marker for movable results, nothing else. Built on its own to
+ * `build/work-worker.js` for the built app (vite.config.ts); run from source under vitest and tsx.
+ */
+import { kTransferable, kValue, markMovable } from 'tinypool';
+import { ERROR_CLASSES, TASKS, type TaskName } from './work-tasks.ts';
+import { buffersOf } from './work-memory.ts';
+
+/** A task's failure as plain data: its class name (when the server knows it), message and own fields. */
+export interface EncodedError {
+	name: string;
+	message: string;
+	stack?: string;
+	fields: Record<string, unknown>;
+}
+
+export type WorkReply = { ok: true; value: unknown } | { ok: false; error: EncodedError };
+
+function encodeError(e: unknown): EncodedError {
+	if (!(e instanceof Error)) return { name: 'Error', message: String(e), fields: {} };
+	const fields: Record<string, unknown> = {};
+	for (const [k, v] of Object.entries(e)) if (v === null || ['string', 'number', 'boolean'].includes(typeof v)) fields[k] = v;
+	const name = Object.keys(ERROR_CLASSES).find((n) => e.constructor === ERROR_CLASSES[n]) ?? e.name;
+	return { name, message: e.message, stack: e.stack, fields };
+}
+
+export default function runTask(message: { task: string; input: unknown }): unknown {
+	let reply: WorkReply;
+	const fn = (TASKS as Record<string, ((input: unknown) => unknown) | undefined>)[message.task];
+	try {
+		if (!fn) throw new Error(`the work pool has no task named "${message.task}"`);
+		reply = { ok: true, value: fn(message.input) };
+	} catch (e) {
+		reply = { ok: false, error: encodeError(e) };
+	}
+	const transfer = buffersOf(reply);
+	const movable = { [kTransferable]: transfer, [kValue]: reply };
+	markMovable(movable);
+	return movable;
+}
+
+export type { TaskName };
