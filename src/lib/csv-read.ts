@@ -107,6 +107,25 @@ export function readCsv(text: string): { records: CsvRecord[]; error: CsvReadErr
 	return { records, error: state.error };
 }
 
+/** Text handed to csv-parse at once while streaming: ≈ 10–30 ms of parsing on this hardware. */
+const PIECE = 16 * 1024;
+
+/** A chunk cut into pieces of at most PIECE (strings never inside a surrogate pair). */
+function* pieces(chunk: string | Uint8Array): Generator<string | Buffer> {
+	if (typeof chunk !== 'string') {
+		const bytes = Buffer.from(chunk.buffer, chunk.byteOffset, chunk.byteLength);
+		for (let at = 0; at < bytes.length; at += PIECE) yield bytes.subarray(at, at + PIECE);
+		return;
+	}
+	for (let at = 0; at < chunk.length; ) {
+		let end = Math.min(chunk.length, at + PIECE);
+		const code = chunk.charCodeAt(end - 1);
+		if (end < chunk.length && code >= 0xd800 && code <= 0xdbff) end--;
+		yield chunk.slice(at, end);
+		at = end;
+	}
+}
+
 /**
  * Records of a CSV arriving in chunks (strings or UTF-8 bytes), read with csv-parse's stream: only
  * the chunk in hand and the record being read are held, whatever the file's size, and the event
@@ -122,10 +141,14 @@ export async function streamCsv(
 	const feeding = (async () => {
 		try {
 			for await (const chunk of chunks) {
-				if (state.error) break;
-				if (!parser.write(typeof chunk === 'string' ? chunk : Buffer.from(chunk.buffer, chunk.byteOffset, chunk.byteLength))) {
-					await new Promise<void>((resolve) => parser.once('drain', resolve));
+				for (const piece of pieces(chunk)) {
+					if (state.error) break;
+					if (!parser.write(piece)) await new Promise<void>((resolve) => parser.once('drain', resolve));
+					// csv-parse reads a written piece in one go, and the stream's own hand-offs are
+					// microtasks and next ticks, which never let I/O in: give the event loop a turn.
+					await new Promise<void>((resolve) => setImmediate(resolve));
 				}
+				if (state.error) break;
 			}
 			parser.end();
 		} catch (e) {

@@ -29,8 +29,8 @@ export type ProxyField = (typeof PROXY_FIELDS)[number];
 export const REPORTED_REJECTS = 50;
 /** Rows per multi-row INSERT (11 columns each, well under SQLite's bound-parameter limit). */
 const INSERT_BATCH = 200;
-/** Galaxies per transaction when storing; the event loop gets a turn between two (≈ 50–100 ms each). */
-const STORE_CHUNK = 5_000;
+/** Galaxies per transaction when storing; the event loop gets a turn between two (≈ 10–20 ms each). */
+const STORE_CHUNK = 1_000;
 /** Least time between two `catalog.progress` messages. */
 const PROGRESS_EVERY_MS = 500;
 
