@@ -9,6 +9,7 @@ import { installRealtime } from '$lib/server/platform/realtime';
 import { liveAccess } from '$lib/server/people/live-access';
 import { installDuty } from '$lib/server/duty/paging';
 import { installTargets } from '$lib/server/targeting/rankings';
+import { abandonUnfinishedImports } from '$lib/server/targeting/catalogs';
 import { installClaims } from '$lib/server/coordination/claims';
 import { installMovedClaims } from '$lib/server/coordination/moved-claims';
 import { installNotifications } from '$lib/server/people/notifications';
@@ -18,6 +19,7 @@ import { startAlerts } from '$lib/server/alerts/service';
 
 export const init: ServerInit = async () => {
 	openDatabase();
+	abandonUnfinishedImports();
 	installRealtime(liveAccess);
 	installDuty();
 	installTargets();

@@ -15,6 +15,7 @@ const PHRASES: { readonly [A in LiveAction]: string } = {
 	'claim.reassigned': 'Claim reassigned',
 	'claim.settings': 'Claim lapse time changed',
 	'observation.reported': 'Observation reported',
+	'observation.uploaded': 'Pointings uploaded',
 	'candidate.reported': 'Transient candidate reported',
 	'candidate.photometry': 'Photometry added to a candidate',
 	'candidate.vetted': 'Candidate vetting updated',

@@ -1,30 +1,17 @@
+import { parse } from 'csv-parse/browser/esm/sync';
+
 /**
- * Split one CSV line into trimmed cells (RFC 4180 double-quote rules, no embedded newlines).
- * Returns null when a quote is left open. Used by the browser (header preview) and the server.
+ * Split one CSV line into trimmed cells (RFC 4180 double-quote rules, read by csv-parse's browser
+ * build, which the catalogue page uses to preview a header). Returns null when a quote is left open
+ * or the line cannot be read. Uploads are read on the server by `csv-read.ts`.
  */
 export function splitCsvLine(line: string): string[] | null {
-	const out: string[] = [];
-	let cur = '';
-	let quoted = false;
-	for (let i = 0; i < line.length; i++) {
-		const ch = line[i];
-		if (quoted) {
-			if (ch === '"' && line[i + 1] === '"') {
-				cur += '"';
-				i++;
-			} else if (ch === '"') quoted = false;
-			else cur += ch;
-		} else if (ch === '"' && cur.trim() === '') {
-			quoted = true;
-			cur = '';
-		} else if (ch === ',') {
-			out.push(cur.trim());
-			cur = '';
-		} else cur += ch;
+	try {
+		const records = parse(line, { trim: true, relax_quotes: true, relax_column_count: true, record_delimiter: ['\r\n', '\n'] }) as string[][];
+		return records[0] ?? [''];
+	} catch {
+		return null;
 	}
-	if (quoted) return null;
-	out.push(cur.trim());
-	return out;
 }
 
 const FORMULA_START = /^[=+\-@\t\r]/;

@@ -120,6 +120,19 @@ export interface LivePayloads {
 		limitingMag: number;
 		completedClaimIds: string[];
 	};
+	/** A CSV upload of pointings by one telescope for one event: one message for all its rows. */
+	'observation.uploaded': {
+		eventId: string;
+		telescopeId: string;
+		teamId: string;
+		source: 'form' | 'csv' | 'api';
+		count: number;
+		filters: string[];
+		firstObservedAt: string;
+		lastObservedAt: string;
+		/** Only the pointings that completed claims, with the claims each completed. */
+		completed: { observationId: string; claimIds: string[] }[];
+	};
 
 	// ── candidates ──
 	'candidate.reported': {
@@ -228,6 +241,7 @@ export const ACTION_TOPIC: { readonly [A in LiveAction]: LiveTopic } = {
 	'claim.reassigned': 'claims',
 	'claim.settings': 'claims',
 	'observation.reported': 'observations',
+	'observation.uploaded': 'observations',
 	'candidate.reported': 'candidates',
 	'candidate.photometry': 'candidates',
 	'candidate.vetted': 'candidates',

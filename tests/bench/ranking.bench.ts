@@ -13,7 +13,7 @@ import { fileURLToPath } from 'node:url';
 import { generateSkymap, skymapToFits } from '../../fake-alert-broker/skymap.ts';
 import { generateSyntheticCatalog, syntheticCatalogCsv } from '../../seeds/synthetic-catalog.ts';
 import { readSkyMap, summarise } from '../../src/lib/sky/index.ts';
-import { CatalogCsvParser } from '../../src/lib/targeting/catalog-csv.ts';
+import { parseCatalogCsvStream } from '../../src/lib/targeting/catalog-csv.ts';
 import { buildCatalogIndex, rankGalaxies } from '../../src/lib/targeting/galaxies.ts';
 import { median, timeRuns, type BenchResult } from './run.ts';
 
@@ -31,9 +31,7 @@ export async function run(): Promise<BenchResult[]> {
 		const options = { rows: ROWS, maxDistanceMpc: 400, seed: 7 };
 		const synthetic = generateSyntheticCatalog(options);
 		const tParse = performance.now();
-		const parser = new CatalogCsvParser();
-		for (const chunk of syntheticCatalogCsv(synthetic, options, 20_000)) parser.push(chunk);
-		const parsed = parser.finish();
+		const parsed = await parseCatalogCsvStream(syntheticCatalogCsv(synthetic, options, 20_000));
 		const parseMs = performance.now() - tParse;
 		if (!parsed.ok || !parsed.catalog) throw new Error('benchmark catalogue did not parse');
 		const catalog = parsed.catalog;

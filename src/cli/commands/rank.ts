@@ -1,17 +1,21 @@
 import { createReadStream, readFileSync } from 'node:fs';
 import type { CommandModule } from '../strainline.ts';
 import { readSkyMap } from '../../lib/sky/index.ts';
-import { CatalogCsvParser, parseColumnMapping } from '../../lib/targeting/catalog-csv.ts';
+import { parseCatalogCsvStream, parseColumnMapping } from '../../lib/targeting/catalog-csv.ts';
 import { buildCatalogIndex, rankGalaxies } from '../../lib/targeting/galaxies.ts';
 
 async function readCatalog(path: string, columns: string | undefined) {
-	const parser = new CatalogCsvParser({ columns: columns ? parseColumnMapping(columns) : {} });
-	try {
-		for await (const chunk of createReadStream(path, { encoding: 'utf8', highWaterMark: 1 << 20 })) parser.push(chunk as string);
-	} catch (e) {
-		throw new Error(`cannot read ${path}: ${(e as NodeJS.ErrnoException).code ?? (e as Error).message}`);
+	let readError: Error | null = null;
+	async function* chunks(): AsyncGenerator<string> {
+		try {
+			for await (const chunk of createReadStream(path, { encoding: 'utf8', highWaterMark: 1 << 20 })) yield chunk as string;
+		} catch (e) {
+			readError = e as Error;
+			throw e;
+		}
 	}
-	const r = parser.finish();
+	const r = await parseCatalogCsvStream(chunks(), { columns: columns ? parseColumnMapping(columns) : {} });
+	if (readError) throw new Error(`cannot read ${path}: ${(readError as NodeJS.ErrnoException).code ?? (readError as Error).message}`);
 	if (r.fatal) throw new Error(`catalogue ${path}: ${r.fatal}`);
 	if (!r.ok || !r.catalog) {
 		const first = r.rejected.rows[0];

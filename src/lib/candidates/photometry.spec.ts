@@ -100,3 +100,13 @@ describe('one photometry row (shared by CSV and JSON)', () => {
 		expect(parseUtcTime('yesterday')).toBeNull();
 	});
 });
+
+describe('parsePhotometryCsv: quoting read by csv-parse', () => {
+	it('names the line of a quote left open, and takes a quoted filter name', () => {
+		expect.hasAssertions();
+		const open = parsePhotometryCsv('time,filter,mag,mag_err,limit\n2026-12-02T03:04:05Z,"r",18.2,0.05,\n# note\n2026-12-02T03:05:05Z,"r,18.3,0.05,\n2026-12-02T03:06:05Z,r,18.4,0.05,\n');
+		expect(open).toEqual({ ok: false, errors: [{ line: 4, message: 'a quote is left open' }] });
+		const header = parsePhotometryCsv('"time,filter,mag,mag_err,limit\n');
+		expect(header).toEqual({ ok: false, errors: [{ line: 1, message: 'the header has an unclosed quote' }] });
+	});
+});

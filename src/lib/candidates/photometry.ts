@@ -9,7 +9,7 @@
  * Magnitudes are taken as given (AB or Vega is the observer's business); times are ISO 8601 with an
  * explicit zone (Z or ±hh:mm) and are stored as UTC.
  */
-import { splitCsvLine } from '../csv.ts';
+import { readCsv } from '../csv-read.ts';
 
 /** The CSV header fields, in the documented order. */
 export const PHOTOMETRY_COLUMNS = ['time', 'filter', 'mag', 'mag_err', 'limit'] as const;
@@ -162,49 +162,43 @@ export function checkPhotometryRow(row: PhotometryRowInput): RowCheck {
 	};
 }
 
-/** Split text into lines (LF or CRLF), dropping a UTF-8 byte-order mark. */
-function linesOf(text: string): string[] {
-	return text.replace(/^\uFEFF/, '').split(/\r?\n/);
-}
+/** `#` starts a comment line (leading spaces allowed). */
+const isComment = (cells: string[]): boolean => cells[0].startsWith('#');
 
 /**
- * Parse photometry CSV (header `time,filter,mag,mag_err,limit`, RFC 4180 quoting via the project's
- * `splitCsvLine`). Blank lines and lines starting with `#` are skipped. Every problem is reported
- * with its line number; on any problem no points are returned.
+ * Parse photometry CSV (header `time,filter,mag,mag_err,limit`, RFC 4180 quoting read by
+ * csv-parse, `lib/csv-read.ts`). Blank lines and lines starting with `#` are skipped. Every problem
+ * is reported with its line number; on any problem no points are returned.
  */
 export function parsePhotometryCsv(text: string): PhotometryParse {
-	const lines = linesOf(text);
+	const { records, error } = readCsv(text);
 	const errors: PhotometryLineError[] = [];
-	const headerAt = lines.findIndex((l) => l.trim() !== '' && !l.trimStart().startsWith('#'));
-	if (headerAt < 0) return { ok: false, errors: [{ line: 1, message: 'the file is empty: expected the header time,filter,mag,mag_err,limit' }] };
-	const header = splitCsvLine(lines[headerAt]);
-	if (!header) return { ok: false, errors: [{ line: headerAt + 1, message: 'the header has an unclosed quote' }] };
+	const rowsFrom = records.findIndex((r) => !isComment(r.cells) && !(r.cells.length === 1 && r.cells[0] === ''));
+	if (rowsFrom < 0) {
+		if (error) return { ok: false, errors: [{ line: error.line, message: 'the header has an unclosed quote' }] };
+		return { ok: false, errors: [{ line: 1, message: 'the file is empty: expected the header time,filter,mag,mag_err,limit' }] };
+	}
+	const header = records[rowsFrom].cells;
+	const headerLine = records[rowsFrom].line;
 	const names = header.map((h) => h.toLowerCase());
 	const index = new Map<PhotometryColumn, number>();
 	names.forEach((n, k) => {
 		if ((PHOTOMETRY_COLUMNS as readonly string[]).includes(n)) {
-			if (index.has(n as PhotometryColumn)) errors.push({ line: headerAt + 1, message: `column "${n}" appears twice` });
+			if (index.has(n as PhotometryColumn)) errors.push({ line: headerLine, message: `column "${n}" appears twice` });
 			index.set(n as PhotometryColumn, k);
-		} else errors.push({ line: headerAt + 1, message: `unknown column "${header[k]}" (expected ${PHOTOMETRY_COLUMNS.join(', ')})` });
+		} else errors.push({ line: headerLine, message: `unknown column "${header[k]}" (expected ${PHOTOMETRY_COLUMNS.join(', ')})` });
 	});
 	const missing = PHOTOMETRY_COLUMNS.filter((c) => !index.has(c));
-	if (missing.length > 0) errors.push({ line: headerAt + 1, message: `the header lacks ${missing.join(', ')} (expected ${PHOTOMETRY_COLUMNS.join(',')})` });
+	if (missing.length > 0) errors.push({ line: headerLine, message: `the header lacks ${missing.join(', ')} (expected ${PHOTOMETRY_COLUMNS.join(',')})` });
 	if (errors.length > 0) return { ok: false, errors };
 
 	const points: PhotometryPoint[] = [];
 	let rows = 0;
-	for (let k = headerAt + 1; k < lines.length; k++) {
-		const raw = lines[k];
-		if (raw.trim() === '' || raw.trimStart().startsWith('#')) continue;
-		const line = k + 1;
+	for (const { line, cells } of records.slice(rowsFrom + 1)) {
+		if (isComment(cells) || (cells.length === 1 && cells[0] === '')) continue;
 		if (++rows > MAX_PHOTOMETRY_ROWS) {
 			errors.push({ line, message: `more than ${MAX_PHOTOMETRY_ROWS} rows; split the file` });
 			break;
-		}
-		const cells = splitCsvLine(raw);
-		if (!cells) {
-			errors.push({ line, message: 'a quote is left open' });
-			continue;
 		}
 		if (cells.length !== header.length) {
 			errors.push({ line, message: `has ${cells.length} cells but the header has ${header.length}` });
@@ -216,8 +210,11 @@ export function parsePhotometryCsv(text: string): PhotometryParse {
 		if (r.ok) points.push(r.point);
 		else for (const message of r.errors) errors.push({ line, message });
 	}
+	// csv-parse cannot go on reliably past an unreadable record: it ends the list, and nothing is kept.
+	if (error && rows <= MAX_PHOTOMETRY_ROWS)
+		errors.push({ line: error.line, message: error.kind === 'unclosed-quote' ? 'a quote is left open' : 'a quoted cell has text after its closing quote (quote the whole cell); the lines after it were not read' });
 	if (errors.length > 0) return { ok: false, errors };
-	if (points.length === 0) return { ok: false, errors: [{ line: headerAt + 1, message: 'the file has a header but no rows' }] };
+	if (points.length === 0) return { ok: false, errors: [{ line: headerLine, message: 'the file has a header but no rows' }] };
 	return { ok: true, points };
 }
 

@@ -87,6 +87,7 @@ export const ACTION_KIND: { readonly [A in LiveAction]: TimelineKind | null } & 
 	'claim.reassigned': 'claim',
 	'claim.settings': 'setting',
 	'observation.reported': 'pointing',
+	'observation.uploaded': 'pointing',
 	'candidate.reported': 'candidate',
 	'candidate.photometry': 'photometry',
 	'candidate.vetted': 'vetting',

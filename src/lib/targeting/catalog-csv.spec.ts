@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { CatalogCsvParser, parseCatalogCsv, parseColumnMapping, SUN_ABS_MAG_B, SUN_ABS_MAG_K } from './catalog-csv.ts';
+import { CatalogCsvParser, parseCatalogCsv, parseCatalogCsvStream, parseColumnMapping, SUN_ABS_MAG_B, SUN_ABS_MAG_K } from './catalog-csv.ts';
 
 const GOOD = [
 	'# a comment before the header',
@@ -121,5 +121,37 @@ describe('parseColumnMapping', () => {
 		expect(parseColumnMapping('id=NAME, ra=RAJ2000,dec=DEJ2000')).toEqual({ id: 'NAME', ra: 'RAJ2000', dec: 'DEJ2000' });
 		expect(() => parseColumnMapping('ra')).toThrow(/FIELD=HEADER/);
 		expect(() => parseColumnMapping('colour=x')).toThrow(/unknown catalogue field/);
+	});
+});
+
+describe('parseCatalogCsvStream (csv-parse stream)', () => {
+	it('gives the same result as the whole-text reader for any chunking, quotes in comments included', async () => {
+		expect.hasAssertions();
+		const text = '\ufeff# made for a test, "quoted\r\n\r\n' + ['id,ra,dec,distance', '"NGC ""x"", a",1,2,3', '"two', 'lines",4,5,6', 'bad,7,95,8'].join('\r\n') + '\r\n';
+		const options = { skipInvalid: true };
+		const whole = parseCatalogCsv(text, options);
+		expect(whole.ok).toBe(true);
+		expect(whole.catalog!.id).toEqual(['NGC "x", a', 'two\r\nlines']);
+		expect(whole.rejected.rows).toEqual([{ line: 7, reason: 'dec "95" is not a number in [-90, 90]' }]);
+		for (const size of [1, 4, 11, 1000]) {
+			const chunks: string[] = [];
+			for (let i = 0; i < text.length; i += size) chunks.push(text.slice(i, i + size));
+			const r = await parseCatalogCsvStream(chunks, options);
+			expect(r).toEqual(whole);
+		}
+	});
+
+	it('refuses a file whose quoting it cannot read past, naming the line, even when told to skip bad rows', async () => {
+		expect.hasAssertions();
+		const text = 'id,ra,dec,distance\nA,1,1,10\n"B"x,2,2,20\nC,3,3,30\n';
+		for (const r of [parseCatalogCsv(text, { skipInvalid: true }), await parseCatalogCsvStream([text], { skipInvalid: true })]) {
+			expect(r.ok).toBe(false);
+			expect(r.fatal).toBe('line 3: malformed quoting (a quoted field has text after its closing quote); the rows after it were not read');
+		}
+		const broken = (async function* () {
+			yield 'id,ra,dec,distance\nA,1,1,10\n';
+			throw new Error('connection reset');
+		})();
+		expect((await parseCatalogCsvStream(broken)).fatal).toBe('the upload was interrupted: connection reset');
 	});
 });

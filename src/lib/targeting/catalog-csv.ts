@@ -1,10 +1,13 @@
 /**
- * Streaming parser for galaxy catalogues in CSV (RFC 4180: quoted fields, doubled quotes, quoted
- * line breaks; CRLF or LF; an optional UTF-8 byte-order mark). Pure: feed it strings, it builds
- * columnar arrays and a report of the rows it rejected. It never hands back part of a catalogue by
- * accident: unless `skipInvalid` is set, one bad row makes the whole result `ok: false` with no rows.
+ * Reader for galaxy catalogues in CSV (RFC 4180: quoted fields, doubled quotes, quoted line breaks;
+ * CRLF or LF; an optional UTF-8 byte-order mark), the CSV itself read by csv-parse
+ * (`lib/csv-read.ts`): `parseCatalogCsvStream` streams a file of any size (memory bounded by the
+ * chunk in hand and the columnar arrays), `parseCatalogCsv` reads a text held whole. Pure: text in,
+ * columnar arrays and a report of the rows it rejected out. It never hands back part of a catalogue
+ * by accident: unless `skipInvalid` is set, one bad row makes the whole result `ok: false` with no rows.
  *
- * Lines starting with `#` before the header are comments (the synthetic catalogue labels itself so).
+ * Lines starting with `#` before the header are comments (the synthetic catalogue labels itself so);
+ * they are set aside line by line before csv-parse sees the text, so a quote in a comment is harmless.
  *
  * Luminosity proxies and their conversion to a weight (luminosity in units of 10^10 solar):
  *  - B magnitude (absolute, or apparent with the row's distance): L_B / L_B,⊙ = 10^(−0.4 (M_B − M_B,⊙)),
@@ -15,6 +18,7 @@
  * Apparent → absolute: M = m − 5 log10(d / 10 pc) = m − 5 log10(d_Mpc) − 25 (standard distance modulus).
  */
 import type { GalaxyCatalog, WeightSource } from './galaxies.ts';
+import { readCsv, streamCsv, type CsvReadError } from '../csv-read.ts';
 
 /** Catalogue fields a CSV column can be mapped to. */
 export const CATALOG_FIELDS = ['id', 'ra', 'dec', 'distance', 'distance_err', 'weight', 'b_abs', 'b_app', 'k_abs', 'k_app', 'mass'] as const;
@@ -73,48 +77,47 @@ class GrowableF64 {
 	}
 }
 
-/** Split one CSV record (which may span lines) into fields; handles "" escapes. */
-function splitQuoted(record: string): string[] | null {
-	const out: string[] = [];
-	let i = 0;
-	const n = record.length;
-	for (;;) {
-		if (record.charCodeAt(i) === 34 /* " */) {
-			let value = '';
-			i++;
-			for (;;) {
-				const q = record.indexOf('"', i);
-				if (q < 0) return null;
-				value += record.slice(i, q);
-				if (record.charCodeAt(q + 1) === 34) {
-					value += '"';
-					i = q + 2;
-				} else {
-					i = q + 1;
-					break;
-				}
+/**
+ * Sets aside what comes before the header: a byte-order mark, blank lines and `#` comment lines,
+ * counting them so that line numbers stay those of the file. Everything from the header on passes
+ * through unchanged.
+ */
+class Prelude {
+	/** Lines set aside. */
+	skipped = 0;
+	private done = false;
+	private started = false;
+	private buffer = '';
+
+	push(chunk: string): string {
+		if (this.done) return chunk;
+		this.buffer += chunk;
+		if (!this.started && this.buffer.length > 0) {
+			if (this.buffer.charCodeAt(0) === 0xfeff) this.buffer = this.buffer.slice(1);
+			this.started = true;
+		}
+		for (;;) {
+			const nl = this.buffer.indexOf('\n');
+			const line = nl < 0 ? this.buffer : this.buffer.slice(0, nl);
+			const blank = line.trim() === '';
+			if (nl < 0 && (blank || line.startsWith('#'))) return '';
+			if (!blank && !line.startsWith('#')) {
+				this.done = true;
+				const rest = this.buffer;
+				this.buffer = '';
+				return rest;
 			}
-			out.push(value);
-			if (i >= n) return out;
-			if (record.charCodeAt(i) !== 44 /* , */) return null;
-			i++;
-		} else {
-			const c = record.indexOf(',', i);
-			if (c < 0) {
-				out.push(record.slice(i));
-				return out;
-			}
-			out.push(record.slice(i, c));
-			i = c + 1;
+			this.skipped++;
+			this.buffer = this.buffer.slice(nl + 1);
 		}
 	}
-}
 
-/** Whether a record with an odd number of quote characters continues on the next line. */
-function quotesOpen(text: string): boolean {
-	let count = 0;
-	for (let i = text.indexOf('"'); i >= 0; i = text.indexOf('"', i + 1)) count++;
-	return count % 2 === 1;
+	/** The end of the file: anything held back (a last comment line without a line break) is dropped. */
+	finish(): string {
+		this.done = true;
+		this.buffer = '';
+		return '';
+	}
 }
 
 function parseNumber(s: string): number {
@@ -128,11 +131,6 @@ function parseNumber(s: string): number {
  */
 export class CatalogCsvParser {
 	private readonly options: Required<Omit<CatalogCsvOptions, 'columns'>> & { columns: Partial<Record<CatalogField, string>> };
-	private carry = '';
-	private pending = '';
-	private pendingLine = 0;
-	private lineNo = 0;
-	private started = false;
 	private header: string[] | null = null;
 	private fieldIndex: Partial<Record<CatalogField, number>> = {};
 	private fatal: string | null = null;
@@ -163,43 +161,17 @@ export class CatalogCsvParser {
 		}
 	}
 
-	push(chunk: string): void {
+	/** csv-parse could not read the record starting on `line`: it stops reading there. */
+	unreadable(e: CsvReadError): void {
 		if (this.fatal) return;
-		let text = this.carry + chunk;
-		if (!this.started && text.length > 0) {
-			if (text.charCodeAt(0) === 0xfeff) text = text.slice(1);
-			this.started = true;
-		}
-		let start = 0;
-		for (;;) {
-			const nl = text.indexOf('\n', start);
-			if (nl < 0) break;
-			let end = nl;
-			if (end > start && text.charCodeAt(end - 1) === 13) end--;
-			this.line(text.slice(start, end));
-			start = nl + 1;
-			if (this.fatal) return;
-		}
-		this.carry = text.slice(start);
+		if (this.header === null) this.fatal = `line ${e.line}: malformed header (unbalanced quotes)`;
+		else if (e.kind === 'unclosed-quote') this.reject(e.line, 'unterminated quoted field');
+		else this.fatal = `line ${e.line}: malformed quoting (a quoted field has text after its closing quote); the rows after it were not read`;
 	}
 
-	private line(raw: string): void {
-		this.lineNo++;
-		if (this.pending) {
-			// Inside a quoted field that spans lines: the line break is part of the value.
-			this.pending += '\n' + raw;
-			if (quotesOpen(this.pending)) return;
-			const rec = this.pending;
-			this.pending = '';
-			this.record(rec, this.pendingLine);
-			return;
-		}
-		if (raw.indexOf('"') >= 0 && quotesOpen(raw)) {
-			this.pending = raw;
-			this.pendingLine = this.lineNo;
-			return;
-		}
-		this.record(raw, this.lineNo);
+	/** The end of the upload, cut short with this reason (too large, interrupted). */
+	abort(reason: string): void {
+		this.fatal ??= reason;
 	}
 
 	private reject(line: number, reason: string): void {
@@ -207,25 +179,19 @@ export class CatalogCsvParser {
 		if (this.rejectedRows.length < this.options.maxReported) this.rejectedRows.push({ line, reason });
 	}
 
-	private record(rec: string, line: number): void {
+	/** One record (cells as csv-parse read them, trimmed outside quotes) and the line it starts on. */
+	record(f: string[], line: number): void {
+		if (this.fatal) return;
 		if (this.header === null) {
-			if (rec.trim() === '' || rec.startsWith('#')) return;
-			const names = rec.indexOf('"') >= 0 ? splitQuoted(rec) : rec.split(',');
-			if (!names) {
-				this.fatal = `line ${line}: malformed header (unbalanced quotes)`;
-				return;
-			}
-			this.setHeader(names.map((s) => s.trim()), line);
+			this.setHeader(f, line);
 			return;
 		}
-		if (rec.trim() === '') return;
+		if (f.length === 1 && f[0] === '') return;
 		this.rowsSeen++;
 		if (this.rowsSeen > this.options.maxRows) {
 			this.fatal = `more than ${this.options.maxRows} rows`;
 			return;
 		}
-		const f = rec.indexOf('"') >= 0 ? splitQuoted(rec) : rec.split(',');
-		if (!f) return this.reject(line, 'malformed quoting');
 		if (f.length !== this.header.length) return this.reject(line, `expected ${this.header.length} fields, found ${f.length}`);
 		const ix = this.fieldIndex;
 		const id = ix.id === undefined ? String(this.rowsSeen) : f[ix.id].trim();
@@ -322,20 +288,9 @@ export class CatalogCsvParser {
 		this.header = names;
 	}
 
-	/** Flush the last line and return the outcome. */
+	/** The outcome, once every record was handed over. */
 	finish(): CatalogCsvResult {
-		if (!this.fatal) {
-			if (this.carry !== '') {
-				const last = this.carry.endsWith('\r') ? this.carry.slice(0, -1) : this.carry;
-				this.carry = '';
-				this.line(last);
-			}
-			if (this.pending) {
-				this.reject(this.pendingLine, 'unterminated quoted field');
-				this.pending = '';
-			}
-			if (!this.fatal && this.header === null) this.fatal = 'no header line';
-		}
+		if (!this.fatal && this.header === null) this.fatal = 'no header line';
 		const rejected = { count: this.rejectedCount, rows: this.rejectedRows };
 		const base = { fatal: this.fatal, rowsSeen: this.rowsSeen, rejected, mapping: this.mapping };
 		if (this.fatal) return { ...base, ok: false, catalog: null };
@@ -360,12 +315,52 @@ export class CatalogCsvParser {
 	}
 }
 
-/** Parse a whole catalogue given as one string or as an iterable of chunks. */
+/** Parse a whole catalogue held in memory, given as one string or as pieces of it. */
 export function parseCatalogCsv(input: string | Iterable<string>, options: CatalogCsvOptions = {}): CatalogCsvResult {
-	const p = new CatalogCsvParser(options);
-	if (typeof input === 'string') p.push(input);
-	else for (const chunk of input) p.push(chunk);
-	return p.finish();
+	const reader = new CatalogCsvParser(options);
+	const prelude = new Prelude();
+	const text = prelude.push(typeof input === 'string' ? input : [...input].join(''));
+	const { records, error } = readCsv(text);
+	for (const r of records) reader.record(r.cells, r.line + prelude.skipped);
+	if (error) reader.unreadable({ ...error, line: error.line + prelude.skipped });
+	return reader.finish();
+}
+
+/** What `parseCatalogCsvStream` says after each chunk it has read. */
+export interface CatalogStreamProgress {
+	/** Characters of text read so far. */
+	chars: number;
+}
+
+/**
+ * Parse a catalogue arriving in chunks of text, streamed through csv-parse: memory holds the chunk
+ * in hand and the columnar arrays, not the file, and the event loop gets a turn between chunks.
+ * A source that throws ends the parse with `fatal` "the upload was interrupted: …".
+ */
+export async function parseCatalogCsvStream(
+	chunks: AsyncIterable<string> | Iterable<string>,
+	options: CatalogCsvOptions & { onChunk?: (p: CatalogStreamProgress) => void } = {}
+): Promise<CatalogCsvResult> {
+	const { onChunk, ...parserOptions } = options;
+	const reader = new CatalogCsvParser(parserOptions);
+	const prelude = new Prelude();
+	let chars = 0;
+	async function* text(): AsyncGenerator<string> {
+		for await (const chunk of chunks) {
+			chars += chunk.length;
+			const out = prelude.push(chunk);
+			if (out) yield out;
+			onChunk?.({ chars });
+		}
+		prelude.finish();
+	}
+	try {
+		const error = await streamCsv(text(), (r) => reader.record(r.cells, r.line + prelude.skipped));
+		if (error) reader.unreadable({ ...error, line: error.line + prelude.skipped });
+	} catch (e) {
+		reader.abort(`the upload was interrupted: ${(e as Error).message}`);
+	}
+	return reader.finish();
 }
 
 /** `id=NAME,ra=RAJ2000` → a column mapping; throws on unknown fields or bad pairs. */

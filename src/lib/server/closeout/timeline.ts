@@ -259,6 +259,13 @@ function allEntries(eventId: string): { entries: TimelineEntry[]; event: { sourc
 				break;
 			}
 			case 'pointing':
+				if (r.action === 'observation.uploaded') {
+					const completed = Array.isArray(p.completed) ? (p.completed as { claimIds?: unknown[] }[]).reduce((n, c) => n + (c.claimIds?.length ?? 0), 0) : 0;
+					detail = `${num(p, 'count')} pointings by ${scopes.get(str(p, 'telescopeId') ?? '') ?? 'a telescope'} from ${str(p, 'firstObservedAt')} to ${str(p, 'lastObservedAt')} · ${list(p, 'filters').join(', ')}${completed ? ` · completed ${completed} claim${completed === 1 ? '' : 's'}` : ''} · ${SOURCE_WORDS[str(p, 'source') ?? ''] ?? ''}`;
+					href = `${eventPage}#coverage-heading`;
+					linkText = 'Coverage';
+					break;
+				}
 				detail = `${scopes.get(str(p, 'telescopeId') ?? '') ?? 'a telescope'} at RA ${num(p, 'raDeg')?.toFixed(2)}°, Dec ${num(p, 'decDeg')?.toFixed(2)}°${str(p, 'fieldId') ? ` (field ${str(p, 'fieldId')})` : ''} · ${str(p, 'filter')} to ${num(p, 'limitingMag')?.toFixed(1)} mag, ${num(p, 'exposureS')} s · ${SOURCE_WORDS[str(p, 'source') ?? ''] ?? ''}`;
 				href = `${eventPage}#coverage-heading`;
 				linkText = 'Coverage';

@@ -244,3 +244,16 @@ describe('parseObservationCsv', () => {
 		]);
 	});
 });
+
+describe('parseObservationCsv: quoting read by csv-parse', () => {
+	const header = 'observed_at,ra_deg,dec_deg,filter,exposure_s,limiting_mag,seeing_arcsec,notes';
+	it('keeps line numbers after a note spanning two lines, and names the line of a quote left open', () => {
+		expect.hasAssertions();
+		const ok = parseObservationCsv(`${header}\r\n2026-12-02T02:00:00Z,100,0,r,60,20.1,1.1,"cloud at first,\r\nthen clear"\r\n\r\n2026-12-02T02:05:00Z,101.5,-0.5,g,90,20.4,,\r\n`);
+		expect(ok.errors).toEqual([]);
+		expect(ok.lines).toEqual([2, 5]);
+		expect(ok.rows[0].notes).toBe('cloud at first,\r\nthen clear');
+		const open = parseObservationCsv(`${header}\n2026-12-02T02:00:00Z,100,0,r,60,20.1,1.1,ok\n2026-12-02T02:00:00Z,100,0,r,60,20.1,1.1,"open\n2026-12-02T02:00:00Z,100,0,r,60,20.1,1.1,ok\n`);
+		expect(open.errors).toEqual([{ line: 3, message: 'unterminated quote' }]);
+	});
+});

@@ -12,7 +12,7 @@ import { randomId, type SessionUser } from '../people/auth';
 import { actorOf, record, type Actor } from '../platform/realtime';
 import { footprintContains, footprintGeometry } from '../../targeting/sky-geometry.ts';
 import { footprintOf } from '../../targeting/telescope.ts';
-import { splitCsvLine } from '../../csv';
+import { readCsv } from '../../csv-read.ts';
 import { DomainError } from '../platform/errors';
 import { mayUseTelescope } from '../people/scope';
 import { getTelescope } from '../people/telescopes';
@@ -66,12 +66,35 @@ export interface ReportResult {
  * bands in common practice).
  */
 export function report(reporter: Reporter, raw: ObservationInput, source: table.Observation['source'], now = new Date()): ReportResult {
-	return store(reporter, prepare(reporter, raw, now), source, now);
+	const p = prepare(reporter, raw, now, new Lookups());
+	const [result] = storeAll(reporter, [p], now, source);
+	const row = result.observation;
+	const actor = actorFor(reporter, p.scope);
+	const room = `event:${p.event.id}` as const;
+	for (const c of result.completed) recordDone(actor, c, row.id);
+	record(actor, 'observation.reported', room, {
+		observationId: row.id,
+		eventId: p.event.id,
+		telescopeId: p.scope.id,
+		teamId: p.scope.teamId,
+		source,
+		raDeg: row.raDeg,
+		decDeg: row.decDeg,
+		fieldId: row.fieldId,
+		filter: row.filter,
+		exposureS: row.exposureS,
+		limitingMag: row.limitingMag,
+		completedClaimIds: result.completedClaimIds
+	});
+	return { observation: row, completedClaimIds: result.completedClaimIds };
 }
 
 /**
  * Store several pointings (a CSV upload) all or nothing: every row is validated first, and a
  * single bad row stores none, with each problem numbered by its CSV line (`lines[i]`).
+ * The rows are stored in one transaction and announced with ONE live message per event and
+ * telescope (`observation.uploaded`), not one per row: an upload of thousands of pointings is one
+ * thing that happened, and each message costs an event-log row and a refresh in every open page.
  */
 export function reportMany(
 	reporter: Reporter,
@@ -84,15 +107,38 @@ export function reportMany(
 	for (const eventId of new Set(inputs.map((i) => i.eventId))) if (eventId) assertEventOpen(eventId, 'new pointings are not recorded');
 	const errors: { line: number; message: string }[] = [];
 	const prepared: Prepared[] = [];
+	const lookups = new Lookups();
 	inputs.forEach((raw, i) => {
 		try {
-			prepared.push(prepare(reporter, raw, now));
+			prepared.push(prepare(reporter, raw, now, lookups));
 		} catch (e) {
 			errors.push({ line: o.lines?.[i] ?? i + 1, message: (e as Error).message });
 		}
 	});
 	if (errors.length) return { results: [], errors };
-	return { results: prepared.map((p) => store(reporter, p, source, now)), errors: [] };
+	const stored = storeAll(reporter, prepared, now, source);
+
+	const groups = new Map<string, { p: Prepared; rows: StoredPointing[] }>();
+	stored.forEach((s, i) => {
+		const key = `${prepared[i].event.id}|${prepared[i].scope.id}`;
+		const g = groups.get(key) ?? groups.set(key, { p: prepared[i], rows: [] }).get(key)!;
+		g.rows.push(s);
+	});
+	for (const { p, rows } of groups.values()) {
+		const times = rows.map((r) => r.observation.observedAt.getTime());
+		record(actorFor(reporter, p.scope), 'observation.uploaded', `event:${p.event.id}`, {
+			eventId: p.event.id,
+			telescopeId: p.scope.id,
+			teamId: p.scope.teamId,
+			source,
+			count: rows.length,
+			filters: [...new Set(rows.map((r) => r.observation.filter))],
+			firstObservedAt: new Date(Math.min(...times)).toISOString(),
+			lastObservedAt: new Date(Math.max(...times)).toISOString(),
+			completed: rows.filter((r) => r.completedClaimIds.length).map((r) => ({ observationId: r.observation.id, claimIds: r.completedClaimIds }))
+		});
+	}
+	return { results: stored.map(({ observation, completedClaimIds }) => ({ observation, completedClaimIds })), errors: [] };
 }
 
 interface Prepared {
@@ -102,6 +148,39 @@ interface Prepared {
 	raDeg: number;
 	decDeg: number;
 	observedAt: Date;
+}
+
+/**
+ * The rows one report or upload refers to, each read from the database once: an upload of
+ * thousands of pointings from one telescope for one event asks for that telescope and event once.
+ */
+class Lookups {
+	private readonly telescopes = new Map<string, table.Telescope | null>();
+	private readonly events = new Map<string, table.GwEvent | null>();
+	private readonly fields = new Map<string, { raDeg: number; decDeg: number } | null>();
+
+	telescope(id: string): table.Telescope | null {
+		if (!this.telescopes.has(id)) this.telescopes.set(id, getTelescope(id));
+		return this.telescopes.get(id)!;
+	}
+
+	event(id: string): table.GwEvent | null {
+		if (!this.events.has(id)) this.events.set(id, db.select().from(table.gwEvent).where(eq(table.gwEvent.id, id)).get() ?? null);
+		return this.events.get(id)!;
+	}
+
+	field(eventId: string, telescopeId: string, fieldId: string): { raDeg: number; decDeg: number } | null {
+		const key = JSON.stringify([eventId, telescopeId, fieldId]);
+		if (!this.fields.has(key)) {
+			const f = db
+				.select({ raDeg: table.eventField.raDeg, decDeg: table.eventField.decDeg })
+				.from(table.eventField)
+				.where(and(eq(table.eventField.eventId, eventId), eq(table.eventField.telescopeId, telescopeId), eq(table.eventField.fieldId, fieldId)))
+				.get();
+			this.fields.set(key, f ?? null);
+		}
+		return this.fields.get(key)!;
+	}
 }
 
 /** The refusal of a pointing whose fields break the rules: each field's message, and all of them joined. */
@@ -120,7 +199,7 @@ function isoUtc(at: Date): string {
 }
 
 /** Validate one pointing against its telescope and event; throws ObservationError. */
-function prepare(reporter: Reporter, raw: ObservationInput, now: Date): Prepared {
+function prepare(reporter: Reporter, raw: ObservationInput, now: Date, lookups: Lookups): Prepared {
 	const parsed = observationInput.safeParse(raw);
 	if (!parsed.success) throw invalidPointing(fieldErrors(parsed.error));
 	const input = parsed.data;
@@ -128,11 +207,11 @@ function prepare(reporter: Reporter, raw: ObservationInput, now: Date): Prepared
 	if (!telescopeId) throw new ObservationError(422, 'invalid', 'Telescope is missing: say which telescope made the pointing.', { telescopeId: 'Telescope is missing: say which telescope made the pointing.' });
 	if (!reporter.user && input.telescopeId && input.telescopeId !== reporter.telescopeId)
 		throw new ObservationError(403, 'forbidden', "A telescope token reports for its own telescope only.");
-	const scope = getTelescope(telescopeId);
+	const scope = lookups.telescope(telescopeId);
 	if (!scope) throw new ObservationError(404, 'not_found', `No telescope ${telescopeId}.`);
 	if (reporter.user && !mayUseTelescope(reporter.user, scope))
 		throw new ObservationError(403, 'forbidden', `Telescope ${scope.name} belongs to a team you are not a member of.`);
-	const event = db.select().from(table.gwEvent).where(eq(table.gwEvent.id, input.eventId)).get();
+	const event = lookups.event(input.eventId);
 	if (!event) throw new ObservationError(404, 'not_found', `No event ${input.eventId}.`);
 	assertEventOpen(event, 'new pointings are not recorded');
 	// A retracted event has nothing left to cover: a pointing reported now would only inflate its coverage.
@@ -159,11 +238,7 @@ function prepare(reporter: Reporter, raw: ObservationInput, now: Date): Prepared
 	let raDeg = input.raDeg;
 	let decDeg = input.decDeg;
 	if (raDeg === undefined || decDeg === undefined) {
-		const f = db
-			.select({ raDeg: table.eventField.raDeg, decDeg: table.eventField.decDeg })
-			.from(table.eventField)
-			.where(and(eq(table.eventField.eventId, event.id), eq(table.eventField.telescopeId, scope.id), eq(table.eventField.fieldId, input.fieldId!)))
-			.get();
+		const f = lookups.field(event.id, scope.id, input.fieldId!);
 		if (!f) fields.fieldId = `Field ${input.fieldId} is not among this event's fields for ${scope.name}; give RA and Dec instead.`;
 		else ({ raDeg, decDeg } = f);
 	}
@@ -172,57 +247,96 @@ function prepare(reporter: Reporter, raw: ObservationInput, now: Date): Prepared
 	return { input, scope, event, raDeg: raDeg!, decDeg: decDeg!, observedAt };
 }
 
-function store(reporter: Reporter, p: Prepared, source: table.Observation['source'], now: Date): ReportResult {
-	const { input, scope, event, raDeg, decDeg, observedAt } = p;
-	const footprint = footprintGeometry({ raDeg, decDeg, ...footprintOf(scope) });
-	const open = db
-		.select()
-		.from(table.claim)
-		.where(and(eq(table.claim.eventId, event.id), eq(table.claim.telescopeId, scope.id), inArray(table.claim.state, [...table.OPEN_CLAIM_STATES])))
-		.all()
-		.filter((c) => c.filter === '' || c.filter === input.filter);
-	const galaxyIds = open.filter((c) => c.targetKind === 'galaxy').map((c) => Number(c.targetId));
-	const galaxyPos = new Map(
-		galaxyIds.length
-			? db
-					.select({ id: table.galaxy.id, raDeg: table.galaxy.raDeg, decDeg: table.galaxy.decDeg })
-					.from(table.galaxy)
-					.where(inArray(table.galaxy.id, galaxyIds))
-					.all()
-					.map((g) => [String(g.id), g] as const)
-			: []
-	);
-	const fieldIds = open.filter((c) => c.targetKind === 'field').map((c) => c.targetId);
-	const fieldPos = new Map(
-		fieldIds.length
-			? db
-					.select({ id: table.eventField.fieldId, raDeg: table.eventField.raDeg, decDeg: table.eventField.decDeg })
-					.from(table.eventField)
-					.where(and(eq(table.eventField.eventId, event.id), inArray(table.eventField.fieldId, fieldIds)))
-					.all()
-					.map((f) => [f.id, f] as const)
-			: []
-	);
-	const covered = open.filter((c) => {
-		if (c.targetKind === 'field' && input.fieldId === c.targetId) return true;
-		const p = c.targetKind === 'galaxy' ? galaxyPos.get(c.targetId) : fieldPos.get(c.targetId);
-		return p ? footprintContains(footprint, p.raDeg, p.decDeg) : false;
-	});
+function actorFor(reporter: Reporter, scope: table.Telescope): Actor {
+	return reporter.user ? actorOf(reporter.user) : { userId: null, label: `telescope ${scope.name}` };
+}
 
-	const { row, done } = db.transaction((tx) => {
-		const done: table.Claim[] = [];
-		for (const c of covered) {
-			const u = tx
-				.update(table.claim)
-				.set({ state: 'done', doneAt: now })
-				.where(and(eq(table.claim.id, c.id), inArray(table.claim.state, [...table.OPEN_CLAIM_STATES])))
-				.returning()
-				.get();
-			if (u) done.push(u);
+function recordDone(actor: Actor, c: table.Claim, observationId: string): void {
+	record(actor, 'claim.done', `event:${c.eventId}`, { claimId: c.id, eventId: c.eventId, targetKind: c.targetKind, targetId: c.targetId, telescopeId: c.telescopeId, teamId: c.teamId, state: c.state, observationId });
+}
+
+interface StoredPointing {
+	observation: table.Observation;
+	completedClaimIds: string[];
+	completed: table.Claim[];
+}
+
+/**
+ * Store validated pointings in ONE transaction, completing the open claims each covers, in the
+ * order given (a claim completed by an earlier pointing is not completed again). The open claims
+ * and their targets' positions are read once per event and telescope.
+ */
+function storeAll(reporter: Reporter, prepared: Prepared[], now: Date, source: table.Observation['source']): StoredPointing[] {
+	const openBy = new Map<string, { open: table.Claim[]; position: (c: table.Claim) => { raDeg: number; decDeg: number } | undefined }>();
+	const openFor = (p: Prepared) => {
+		const key = `${p.event.id}|${p.scope.id}`;
+		let entry = openBy.get(key);
+		if (!entry) {
+			const open = db
+				.select()
+				.from(table.claim)
+				.where(and(eq(table.claim.eventId, p.event.id), eq(table.claim.telescopeId, p.scope.id), inArray(table.claim.state, [...table.OPEN_CLAIM_STATES])))
+				.all();
+			const galaxyIds = open.filter((c) => c.targetKind === 'galaxy').map((c) => Number(c.targetId));
+			const galaxyPos = new Map(
+				galaxyIds.length
+					? db
+							.select({ id: table.galaxy.id, raDeg: table.galaxy.raDeg, decDeg: table.galaxy.decDeg })
+							.from(table.galaxy)
+							.where(inArray(table.galaxy.id, galaxyIds))
+							.all()
+							.map((g) => [String(g.id), g] as const)
+					: []
+			);
+			const fieldIds = open.filter((c) => c.targetKind === 'field').map((c) => c.targetId);
+			const fieldPos = new Map(
+				fieldIds.length
+					? db
+							.select({ id: table.eventField.fieldId, raDeg: table.eventField.raDeg, decDeg: table.eventField.decDeg })
+							.from(table.eventField)
+							.where(and(eq(table.eventField.eventId, p.event.id), inArray(table.eventField.fieldId, fieldIds)))
+							.all()
+							.map((f) => [f.id, f] as const)
+					: []
+			);
+			entry = { open, position: (c) => (c.targetKind === 'galaxy' ? galaxyPos.get(c.targetId) : fieldPos.get(c.targetId)) };
+			openBy.set(key, entry);
 		}
-		const row = tx
-			.insert(table.observation)
-			.values({
+		return entry;
+	};
+
+	// One prepared INSERT run per row: the query builder's cost per row was most of a large upload's time.
+	const insert = db.$client.prepare(
+		`INSERT INTO observation (id, event_id, telescope_id, team_id, reported_by_user_id, reported_by_token_id, observed_at, ra_deg, dec_deg,
+		 field_id, filter, exposure_s, limiting_mag, seeing_arcsec, notes, source, claim_id, created_at) VALUES (${Array(18).fill('?').join(', ')})`
+	);
+	return db.transaction((tx) => {
+		const out: StoredPointing[] = [];
+		const createdAt = new Date();
+		for (const p of prepared) {
+			const { input, scope, event, raDeg, decDeg, observedAt } = p;
+			const entry = openFor(p);
+			const completed: table.Claim[] = [];
+			if (entry.open.length) {
+				const footprint = footprintGeometry({ raDeg, decDeg, ...footprintOf(scope) });
+				const covered = entry.open.filter((c) => {
+					if (c.filter !== '' && c.filter !== input.filter) return false;
+					if (c.targetKind === 'field' && input.fieldId === c.targetId) return true;
+					const at = entry.position(c);
+					return at ? footprintContains(footprint, at.raDeg, at.decDeg) : false;
+				});
+				for (const c of covered) {
+					const u = tx
+						.update(table.claim)
+						.set({ state: 'done', doneAt: now })
+						.where(and(eq(table.claim.id, c.id), inArray(table.claim.state, [...table.OPEN_CLAIM_STATES])))
+						.returning()
+						.get();
+					if (u) completed.push(u);
+				}
+				if (covered.length) entry.open = entry.open.filter((c) => !covered.includes(c));
+			}
+			const row: table.Observation = {
 				id: randomId(),
 				eventId: event.id,
 				telescopeId: scope.id,
@@ -239,31 +353,17 @@ function store(reporter: Reporter, p: Prepared, source: table.Observation['sourc
 				seeingArcsec: input.seeingArcsec ?? null,
 				notes: input.notes ?? '',
 				source,
-				claimId: done[0]?.id ?? null
-			})
-			.returning()
-			.get();
-		return { row, done };
+				claimId: completed[0]?.id ?? null,
+				createdAt
+			};
+			insert.run(
+				row.id, row.eventId, row.telescopeId, row.teamId, row.reportedByUserId, row.reportedByTokenId, row.observedAt.getTime(), row.raDeg, row.decDeg,
+				row.fieldId, row.filter, row.exposureS, row.limitingMag, row.seeingArcsec, row.notes, row.source, row.claimId, row.createdAt.getTime()
+			);
+			out.push({ observation: row, completedClaimIds: completed.map((c) => c.id), completed });
+		}
+		return out;
 	});
-
-	const actor: Actor = reporter.user ? actorOf(reporter.user) : { userId: null, label: `telescope ${scope.name}` };
-	const room = `event:${event.id}` as const;
-	for (const c of done) record(actor, 'claim.done', room, { claimId: c.id, eventId: c.eventId, targetKind: c.targetKind, targetId: c.targetId, telescopeId: c.telescopeId, teamId: c.teamId, state: c.state, observationId: row.id });
-	record(actor, 'observation.reported', room, {
-		observationId: row.id,
-		eventId: event.id,
-		telescopeId: scope.id,
-		teamId: scope.teamId,
-		source,
-		raDeg: row.raDeg,
-		decDeg: row.decDeg,
-		fieldId: row.fieldId,
-		filter: row.filter,
-		exposureS: row.exposureS,
-		limitingMag: row.limitingMag,
-		completedClaimIds: done.map((c) => c.id)
-	});
-	return { observation: row, completedClaimIds: done.map((c) => c.id) };
 }
 
 /** Zod issues → `{ field: message }`, first message per field. */
@@ -286,24 +386,21 @@ export type CsvPointing = Omit<ObservationInput, 'eventId' | 'telescopeId'>;
 export function parseObservationCsv(
 	text: string
 ): { rows: CsvPointing[]; lines: number[]; errors: [] } | { rows: []; lines: []; errors: { line: number; message: string }[] } {
-	const lines = text.replace(/^\uFEFF/, '').split(/\r?\n/);
+	const { records, error } = readCsv(text);
 	const errors: { line: number; message: string }[] = [];
-	const header = splitCsvLine(lines[0] ?? '')?.map((h) => h.toLowerCase()) ?? [];
-	for (const h of header) if (!(CSV_COLUMNS as readonly string[]).includes(h)) errors.push({ line: 1, message: `unknown column "${h}" (known: ${CSV_COLUMNS.join(', ')})` });
-	for (const r of REQUIRED_COLUMNS) if (!header.includes(r)) errors.push({ line: 1, message: `missing column "${r}"` });
+	const header = records[0]?.cells.map((h) => h.toLowerCase()) ?? [];
+	const headerLine = records[0]?.line ?? 1;
+	for (const h of header) if (!(CSV_COLUMNS as readonly string[]).includes(h)) errors.push({ line: headerLine, message: `unknown column "${h}" (known: ${CSV_COLUMNS.join(', ')})` });
+	for (const r of REQUIRED_COLUMNS) if (!header.includes(r)) errors.push({ line: headerLine, message: `missing column "${r}"` });
+	if (!records.length && error) errors.push({ line: error.line, message: 'unterminated quote' });
 	if (errors.length) return { rows: [], lines: [], errors };
 	const rows: CsvPointing[] = [];
 	const rowLines: number[] = [];
 	const schema = pointingShape.omit({ eventId: true, telescopeId: true });
-	for (let n = 1; n < lines.length; n++) {
-		if (lines[n].trim() === '') continue;
-		const cells = splitCsvLine(lines[n]);
-		if (!cells) {
-			errors.push({ line: n + 1, message: 'unterminated quote' });
-			continue;
-		}
+	for (const { line, cells } of records.slice(1)) {
+		if (cells.length === 1 && cells[0] === '') continue;
 		if (cells.length !== header.length) {
-			errors.push({ line: n + 1, message: `${cells.length} cells, header has ${header.length}` });
+			errors.push({ line, message: `${cells.length} cells, header has ${header.length}` });
 			continue;
 		}
 		const get = (c: string) => {
@@ -327,16 +424,22 @@ export function parseObservationCsv(
 		};
 		const parsed = schema.safeParse(candidate);
 		if (!parsed.success) {
-			for (const message of Object.values(fieldErrors(parsed.error))) errors.push({ line: n + 1, message });
+			for (const message of Object.values(fieldErrors(parsed.error))) errors.push({ line, message });
 			continue;
 		}
 		if ((parsed.data.raDeg === undefined || parsed.data.decDeg === undefined) && !parsed.data.fieldId) {
-			errors.push({ line: n + 1, message: 'give ra_deg and dec_deg, or field_id' });
+			errors.push({ line, message: 'give ra_deg and dec_deg, or field_id' });
 			continue;
 		}
 		rows.push(parsed.data);
-		rowLines.push(n + 1);
+		rowLines.push(line);
 	}
+	// csv-parse cannot go on reliably past an unreadable record: it ends the list, and nothing is stored.
+	if (error)
+		errors.push({
+			line: error.line,
+			message: error.kind === 'unclosed-quote' ? 'unterminated quote' : 'a quoted cell has text after its closing quote (quote the whole cell); the rows after it were not read'
+		});
 	if (errors.length) return { rows: [], lines: [], errors };
 	if (rows.length === 0) return { rows: [], lines: [], errors: [{ line: 1, message: 'no data rows' }] };
 	return { rows, lines: rowLines, errors: [] };

@@ -14,7 +14,7 @@ import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { randomId } from '../people/auth';
 import { record, type Actor } from '../platform/realtime';
-import { CATALOG_FIELDS, CatalogCsvParser, SUN_ABS_MAG_B, type CatalogCsvResult, type CatalogField } from '../../targeting/catalog-csv.ts';
+import { CATALOG_FIELDS, parseCatalogCsvStream, SUN_ABS_MAG_B, type CatalogCsvResult, type CatalogField } from '../../targeting/catalog-csv.ts';
 import { INDEX_ORDER } from '../../targeting/galaxies.ts';
 import { radecToNest } from '../../sky/index.ts';
 import { InputError } from '../platform/errors';
@@ -29,6 +29,8 @@ export type ProxyField = (typeof PROXY_FIELDS)[number];
 export const REPORTED_REJECTS = 50;
 /** Rows per multi-row INSERT (11 columns each, well under SQLite's bound-parameter limit). */
 const INSERT_BATCH = 200;
+/** Galaxies per transaction when storing; the event loop gets a turn between two (≈ 10–20 ms each). */
+const STORE_CHUNK = 1_000;
 /** Least time between two `catalog.progress` messages. */
 const PROGRESS_EVERY_MS = 500;
 
@@ -200,7 +202,6 @@ export async function importCatalog(actor: Actor, input: ImportInput, source: Ch
 		.run();
 	record(actor, 'catalog.started', 'board', { catalogId, name: input.name.trim(), synthetic: Boolean(input.synthetic) });
 
-	const parser = new CatalogCsvParser({ skipInvalid: input.skipInvalid ?? false, maxReported: REPORTED_REJECTS });
 	const rewriter = input.columns ? new HeaderRewriter(columns) : null;
 	const decoder = new TextDecoder('utf-8');
 	let bytes = 0;
@@ -208,34 +209,30 @@ export async function importCatalog(actor: Actor, input: ImportInput, source: Ch
 	let fatal: string | null = null;
 	const every = options.progressEveryMs === undefined ? PROGRESS_EVERY_MS : options.progressEveryMs;
 	let lastProgress = Date.now();
-	const feed = (text: string) => {
+	const fed = (text: string) => {
 		lines += countNewlines(text);
-		parser.push(rewriter ? rewriter.push(text) : text);
+		return rewriter ? rewriter.push(text) : text;
 	};
-	try {
+	// The file as text, chunk by chunk, as the parser asks for it (pull: never far ahead of it).
+	async function* text(): AsyncGenerator<string> {
 		for await (const chunk of chunksOf(source)) {
-			const text = typeof chunk === 'string' ? chunk : decoder.decode(chunk, { stream: true });
+			const piece = typeof chunk === 'string' ? chunk : decoder.decode(chunk, { stream: true });
 			bytes += typeof chunk === 'string' ? Buffer.byteLength(chunk) : chunk.byteLength;
 			if (bytes > maxBytes) {
 				fatal = `the file is larger than ${Math.round(maxBytes / 1024 / 1024)} MB`;
-				break;
+				return;
 			}
-			feed(text);
+			yield fed(piece);
 			options.onChunk?.({ catalogId, bytes, lines });
 			if (every !== null && Date.now() - lastProgress >= every) {
 				lastProgress = Date.now();
 				record(actor, 'catalog.progress', 'board', { catalogId, bytes, rows: lines });
 			}
 		}
-		if (!fatal) {
-			feed(decoder.decode());
-			if (rewriter) parser.push(rewriter.finish());
-		}
-	} catch (e) {
-		fatal = `the upload was interrupted: ${(e as Error).message}`;
+		yield fed(decoder.decode());
+		if (rewriter) yield rewriter.finish();
 	}
-
-	const result: CatalogCsvResult = parser.finish();
+	const result: CatalogCsvResult = await parseCatalogCsvStream(text(), { skipInvalid: input.skipInvalid ?? false, maxReported: REPORTED_REJECTS });
 	const report: table.CatalogImportReport = {
 		rowsSeen: result.rowsSeen,
 		rejectedCount: result.rejected.count,
@@ -257,17 +254,32 @@ export async function importCatalog(actor: Actor, input: ImportInput, source: Ch
 
 	const cat = result.catalog;
 	record(actor, 'catalog.progress', 'board', { catalogId, bytes, rows: lines, storing: cat.size });
-	storeGalaxies(catalogId, cat, { report, mapping });
+	try {
+		await storeGalaxies(catalogId, cat, { report, mapping });
+	} catch (e) {
+		const why = `the galaxies could not be stored: ${(e as Error).message}`;
+		discardGalaxies(catalogId);
+		db.update(table.catalog).set({ state: 'failed', error: why, report, columns: mapping as Record<string, string> }).where(eq(table.catalog.id, catalogId)).run();
+		record(actor, 'catalog.failed', 'board', { catalogId, error: why, rejected: report.rejectedCount });
+		return { catalogId, state: 'failed', rowCount: 0, weightSource: 'none', report, error: why, mapping };
+	}
 	record(actor, 'catalog.imported', 'board', { catalogId, name: input.name.trim(), rows: cat.size, rejected: report.rejectedCount, synthetic: Boolean(input.synthetic) });
 	return { catalogId, state: 'ready', rowCount: cat.size, weightSource: cat.weightSource, report, error: null, mapping };
 }
 
-/** Insert every galaxy and flip the catalogue to ready, in one transaction (prepared multi-row INSERTs). */
-function storeGalaxies(
+/**
+ * Insert every galaxy (prepared multi-row INSERTs) in transactions of `STORE_CHUNK` rows with a
+ * turn of the event loop between them, so that page loads and live messages are served while a
+ * million-row catalogue is stored; the last transaction flips the catalogue to ready. Until then
+ * the catalogue is `importing`, which nothing ranks against, so the rows already stored are never
+ * read; a failure deletes them (`discardGalaxies`), and an import cut short by a stop of the
+ * server is cleaned up at the next start (`abandonUnfinishedImports`).
+ */
+async function storeGalaxies(
 	catalogId: string,
 	cat: NonNullable<CatalogCsvResult['catalog']>,
 	meta: { report: table.CatalogImportReport; mapping: Partial<Record<CatalogField, string>> }
-): void {
+): Promise<void> {
 	const client = db.$client;
 	const cols = '(catalog_id, row, name, ra_deg, dec_deg, distance_mpc, distance_err_mpc, weight, b_abs_mag, pixel)';
 	const one = '(?, ?, ?, ?, ?, ?, ?, ?, ?, ?)';
@@ -280,23 +292,44 @@ function storeGalaxies(
 		const bAbs = l > 0 ? SUN_ABS_MAG_B - 2.5 * Math.log10(l * 1e10) : null;
 		return [catalogId, k, cat.id[k], cat.raDeg[k], cat.decDeg[k], cat.distanceMpc[k], cat.distanceErrMpc[k], cat.weight[k], bAbs, radecToNest(INDEX_ORDER, cat.raDeg[k], cat.decDeg[k])];
 	};
-	client.transaction(() => {
-		let k = 0;
-		for (; k + INSERT_BATCH <= cat.size; k += INSERT_BATCH) {
+	const insertRange = client.transaction((from: number, to: number) => {
+		let k = from;
+		for (; k + INSERT_BATCH <= to; k += INSERT_BATCH) {
 			const args: unknown[] = [];
 			for (let j = k; j < k + INSERT_BATCH; j++) args.push(...values(j));
 			full.run(args);
 		}
-		if (k < cat.size) {
-			const rest = statement(cat.size - k);
+		if (k < to) {
 			const args: unknown[] = [];
-			for (let j = k; j < cat.size; j++) args.push(...values(j));
-			rest.run(args);
+			for (let j = k; j < to; j++) args.push(...values(j));
+			statement(to - k).run(args);
 		}
-		client
-			.prepare('UPDATE catalog SET state = ?, row_count = ?, weight_source = ?, report = ?, columns = ?, error = NULL, ready_at = ? WHERE id = ?')
-			.run('ready', cat.size, cat.weightSource, JSON.stringify(meta.report), JSON.stringify(meta.mapping), Date.now(), catalogId);
-	})();
+	});
+	for (let from = 0; from < cat.size; from += STORE_CHUNK) {
+		insertRange(from, Math.min(cat.size, from + STORE_CHUNK));
+		await new Promise((resolve) => setImmediate(resolve));
+	}
+	client
+		.prepare('UPDATE catalog SET state = ?, row_count = ?, weight_source = ?, report = ?, columns = ?, error = NULL, ready_at = ? WHERE id = ?')
+		.run('ready', cat.size, cat.weightSource, JSON.stringify(meta.report), JSON.stringify(meta.mapping), Date.now(), catalogId);
+}
+
+/** Delete a catalogue's galaxy rows (an import that did not finish). */
+function discardGalaxies(catalogId: string): void {
+	db.delete(table.galaxy).where(eq(table.galaxy.catalogId, catalogId)).run();
+}
+
+/**
+ * At start: imports that were under way when the server stopped cannot go on (the file was a
+ * request body). Their rows are deleted and they are marked failed, saying so.
+ */
+export function abandonUnfinishedImports(): number {
+	const unfinished = db.select({ id: table.catalog.id }).from(table.catalog).where(eq(table.catalog.state, 'importing')).all();
+	for (const { id } of unfinished) {
+		discardGalaxies(id);
+		db.update(table.catalog).set({ state: 'failed', error: 'the server stopped during the import; import the file again' }).where(eq(table.catalog.id, id)).run();
+	}
+	return unfinished.length;
 }
 
 export type CatalogRow = table.Catalog;
