@@ -13,12 +13,12 @@ import { and, asc, count, eq, inArray, max, sql } from 'drizzle-orm';
 import { z } from 'zod';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
-import { readStoredFile } from '../platform/storage';
+import { clearSkyMapCache, loadCurrentSkyMap, skyMapById } from '../alerts/skymap-cache';
 import { actorOf, onRecorded, record, SYSTEM, type Actor } from '../platform/realtime';
 import { restartService } from '../platform/services';
 import type { SessionUser } from '../people/auth';
 import { can } from '../people/permissions';
-import { readSkyMap, type SkyMap } from '../../sky/index.ts';
+import type { SkyMap } from '../../sky/index.ts';
 import { problemsByField, thresholdProblems, DEFAULT_KILONOVA_THRESHOLDS, RULES, withDefaults, type KilonovaThresholds, type KilonovaVerdict, type RuleId, type ThresholdChanges } from '../../candidates/rules.ts';
 import { lookUpDirections, vetCandidate, type CandidateVetting, type RankedGalaxy } from '../../candidates/vetting.ts';
 import type { PhotometryPoint } from '../../candidates/photometry.ts';
@@ -136,26 +136,15 @@ export function setThresholds(user: SessionUser, raw: unknown, now = new Date())
 		.innerJoin(table.gwEvent, eq(table.gwEvent.id, table.candidate.eventId))
 		.where(sql`${table.gwEvent.state} <> 'retracted'`)
 		.all();
-	for (const e of events) enqueue(() => vetEvent(e.id));
+	for (const e of events) enqueue(() => vetEvent(e.id), e.id);
 	return currentThresholds();
 }
 
 // ───────────────────────────── Inputs ─────────────────────────────
 
-// One parsed map is kept: the candidates of the busy event all look into the same one.
-let mapCache: { skymapId: string; map: SkyMap } | null = null;
-
-function loadMap(skymapId: string, filePath: string): SkyMap {
-	if (mapCache?.skymapId === skymapId) return mapCache.map;
-	const bytes = readStoredFile(filePath);
-	const map = readSkyMap(new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength));
-	mapCache = { skymapId, map };
-	return map;
-}
-
-/** Forget the cached map (tests that rewrite the database in place). */
+/** Forget cached inputs (tests that rewrite the database in place). Maps live in the shared sky-map cache. */
 export function clearVettingCache(): void {
-	mapCache = null;
+	clearSkyMapCache();
 }
 
 interface EventInputs {
@@ -193,7 +182,8 @@ function gatherEvent(event: table.GwEvent): EventInputs {
 	else if (sky.error || !sky.filePath) skyNote = `the event's sky map could not be used${sky.error ? `: ${sky.error}` : ''}`;
 	else {
 		try {
-			map = loadMap(sky.id, sky.filePath);
+			map = skyMapById(sky.id);
+			if (!map) throw new Error('the stored file is missing');
 		} catch (e) {
 			skyNote = `the event's sky map could not be read: ${(e as Error).message}`;
 		}
@@ -404,21 +394,22 @@ function announceKilonovaLike(event: table.GwEvent, c: table.Candidate, v: Candi
 
 let queue: Promise<unknown> = Promise.resolve();
 
-function enqueue(job: () => void): void {
-	// Off the recording call stack: vetting reads a map file and can take a while.
-	queue = queue.then(
-		() =>
-			new Promise<void>((resolve) =>
-				setImmediate(() => {
-					try {
-						job();
-					} catch (e) {
-						console.error('candidate vetting failed', e);
-					}
-					resolve();
-				})
-			)
-	);
+function enqueue(job: () => void, eventId?: string): void {
+	// Off the recording call stack. The event's map is read on the work pool first (a 100 MB map
+	// parsed here would hold every request for seconds); the vetting then finds it in the cache.
+	queue = queue.then(async () => {
+		if (eventId) await loadCurrentSkyMap(eventId).catch(() => null);
+		await new Promise<void>((resolve) =>
+			setImmediate(() => {
+				try {
+					job();
+				} catch (e) {
+					console.error('candidate vetting failed', e);
+				}
+				resolve();
+			})
+		);
+	});
 }
 
 /** Resolves when every vetting asked for so far has finished and its e-mails were handed over (tests, shutdown). */
@@ -439,13 +430,13 @@ export function installVetting(): () => void {
 		// Map and ranking are logged to the board and the event's room: react to the board copy only.
 		const offs = [
 			onRecorded('skymap.analysed', ({ eventId }, m) => {
-				if (m.room === 'board') enqueue(() => vetEvent(eventId));
+				if (m.room === 'board') enqueue(() => vetEvent(eventId), eventId);
 			}),
 			onRecorded('targets.ranked', ({ eventId }, m) => {
-				if (m.room === 'board') enqueue(() => vetEvent(eventId));
+				if (m.room === 'board') enqueue(() => vetEvent(eventId), eventId);
 			}),
 			// Logged to the event's room only.
-			onRecorded('candidate.reported', ({ eventId, candidateId }) => enqueue(() => vetEvent(eventId, { candidateIds: [candidateId] })))
+			onRecorded('candidate.reported', ({ eventId, candidateId }) => enqueue(() => vetEvent(eventId, { candidateIds: [candidateId] }), eventId))
 		];
 		return {
 			stop() {
