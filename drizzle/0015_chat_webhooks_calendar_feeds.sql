@@ -28,6 +28,7 @@ CREATE TABLE `webhook_delivery` (
 	`webhook_id` text NOT NULL,
 	`kind` text NOT NULL,
 	`message_key` text NOT NULL,
+	`notice_id` text,
 	`body` text NOT NULL,
 	`state` text DEFAULT 'pending' NOT NULL,
 	`attempts` integer DEFAULT 0 NOT NULL,

@@ -15,7 +15,7 @@ import { dominantClass } from '../../alerts/display';
 import { LABEL_NAMES } from '../../candidates/labels';
 import { CLOSE_REASON_LABELS, type CloseReason } from '../../event-view';
 import { farInWords, webhookBody, type WebhookFacts, type WebhookKind } from '../../webhooks';
-import { enqueue, webhooksFor } from './webhooks';
+import { enqueue, toldOfNotice, webhooksFor } from './webhooks';
 
 function eventRow(eventId: string) {
 	return db.select().from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
@@ -52,10 +52,12 @@ export function onSignificantNotice(eventId: string, noticeId: string, noticeKin
 	const updateBody = webhookBody(facts(`Update to ${e.sourceEventId}`));
 	let queued = 0;
 	const firstTakers = new Set(webhooksFor('alert.significant').map((h) => h.id));
+	const now = new Date();
 	for (const hook of db.select().from(table.chatWebhook).all()) {
-		const announced = firstTakers.has(hook.id) && enqueue(hook.id, 'alert.significant', `alert:${eventId}`, firstBody);
+		if (toldOfNotice(hook.id, noticeId)) continue;
+		const announced = firstTakers.has(hook.id) && enqueue(hook.id, 'alert.significant', `alert:${eventId}`, firstBody, now, noticeId);
 		if (announced) queued++;
-		else if (hook.kinds.includes('alert.update') && enqueue(hook.id, 'alert.update', `notice:${noticeId}`, updateBody)) queued++;
+		else if (hook.kinds.includes('alert.update') && enqueue(hook.id, 'alert.update', `notice:${noticeId}`, updateBody, now, noticeId)) queued++;
 	}
 	return queued;
 }

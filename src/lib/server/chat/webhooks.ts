@@ -102,14 +102,25 @@ export function webhooksFor(kind: WebhookKind): table.ChatWebhook[] {
  * Queue `body` for `webhookId` under `messageKey`. Returns false when that webhook already has a
  * message under this key (each message goes once per webhook).
  */
-export function enqueue(webhookId: string, kind: WebhookKind | 'test', messageKey: string, body: WebhookBody, now = new Date()): boolean {
+export function enqueue(webhookId: string, kind: WebhookKind | 'test', messageKey: string, body: WebhookBody, now = new Date(), noticeId: string | null = null): boolean {
 	const res = db
 		.insert(table.webhookDelivery)
-		.values({ webhookId, kind, messageKey, body, nextAttemptAt: now })
+		.values({ webhookId, kind, messageKey, body, noticeId, nextAttemptAt: now })
 		.onConflictDoNothing({ target: [table.webhookDelivery.webhookId, table.webhookDelivery.messageKey] })
 		.run();
 	if (res.changes) kick();
 	return res.changes > 0;
+}
+
+/** Whether `webhookId` was already told about this notice (as a new alert or an update). */
+export function toldOfNotice(webhookId: string, noticeId: string): boolean {
+	return Boolean(
+		db
+			.select({ id: table.webhookDelivery.id })
+			.from(table.webhookDelivery)
+			.where(and(eq(table.webhookDelivery.webhookId, webhookId), eq(table.webhookDelivery.noticeId, noticeId)))
+			.get()
+	);
 }
 
 /** Queue a test message for one webhook. */

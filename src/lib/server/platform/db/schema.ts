@@ -982,6 +982,8 @@ export const webhookDelivery = sqliteTable(
 			.references(() => chatWebhook.id, { onDelete: 'cascade' }),
 		kind: text('kind', { enum: [...WEBHOOK_KINDS, 'test'] }).notNull(),
 		messageKey: text('message_key').notNull(),
+		/** The notice a message about an alert came from (so a notice is told once, as new or as an update). */
+		noticeId: text('notice_id'),
 		body: text('body', { mode: 'json' }).$type<WebhookBody>().notNull(),
 		state: text('state', { enum: WEBHOOK_DELIVERY_STATES }).notNull().default('pending'),
 		attempts: integer('attempts').notNull().default(0),
