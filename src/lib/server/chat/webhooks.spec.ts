@@ -28,7 +28,7 @@ beforeEach(() => {
 const fakeUrl = (path = '/hook/ops') => `http://127.0.0.1:${port}${path}`;
 
 function anEvent(id = 'ev-1', sourceEventId = 'S261202xy') {
-	db.insert(table.gwEvent).values({ id, sourceEventId, role: 'observation', farHz: 1e-10, classification: { BNS: 0.93, Terrestrial: 0.07 } }).run();
+	db.insert(table.gwEvent).values({ id, sourceEventId, role: 'observation', farHz: 1e-10, classification: { BNS: 0.93, NSBH: 0, BBH: 0, Terrestrial: 0.07 } }).run();
 	return id;
 }
 
