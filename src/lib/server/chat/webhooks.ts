@@ -32,7 +32,9 @@ function loopbackException(): LoopbackException | null {
 /** Start the local fake receiver unless FAKE_WEBHOOK_PORT=off. */
 export async function startFakeReceiver(): Promise<number | null> {
 	if (config.fakeWebhookPort === null) return null;
-	return startFakeWebhook(config.fakeWebhookPort);
+	const port = await startFakeWebhook(config.fakeWebhookPort);
+	if (config.fakeWebhookPort !== 0 && port !== config.fakeWebhookPort) console.warn(`[webhooks] port ${config.fakeWebhookPort} is taken: the local fake receiver listens on ${port}`);
+	return port;
 }
 
 /** The address with its secret part hidden: scheme, host and the first path segment, then "…". */

@@ -23,6 +23,7 @@ function permissionFor(scope: 'mine' | 'roster') {
 
 export const actions: Actions = {
 	create: async ({ request }) => {
+		requireUser('calendar.own');
 		const { data, form, failure } = await validateForm(request, scopeSchema);
 		if (failure) return failure;
 		const user = requireUser(permissionFor(data.scope));
@@ -31,6 +32,7 @@ export const actions: Actions = {
 		return { done: 'New calendar address made. Copy it now: it is shown only once. Any earlier address for it no longer works.', scope: data.scope, url: made.url };
 	},
 	revoke: async ({ request }) => {
+		requireUser('calendar.own');
 		const { data, failure } = await validateForm(request, scopeSchema);
 		if (failure) return failure;
 		const user = requireUser(permissionFor(data.scope));
