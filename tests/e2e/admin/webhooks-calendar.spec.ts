@@ -39,7 +39,7 @@ test('a coordinator adds a chat webhook for the fake receiver, a test message re
 	// Delivered off the request path; the page looks again while something waits.
 	await expect(hook.getByTestId('delivery').first()).toHaveAttribute('data-state', 'delivered', { timeout: 10_000 });
 	await expect(hook.getByTestId('delivery').first()).toContainText('HTTP 200');
-	await expect(hook.getByTestId('delivery').first()).toContainText('1 of');
+	await expect(hook.getByTestId('delivery').first()).toContainText('attempt 1 of');
 });
 
 test('a duty scientist subscribes to their shifts: the copied address is a calendar, and revoked it answers 404', async ({ page, context }) => {

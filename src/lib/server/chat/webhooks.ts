@@ -239,6 +239,7 @@ export async function deliverDue(now = new Date(), post: Poster = postJson): Pro
 			.where(eq(table.webhookDelivery.id, d.id))
 			.run();
 		if (ok) delivered++;
+		else console.warn(`[webhooks] message ${d.id} (${d.kind}), attempt ${attempts}: ${error}${giveUp ? '; giving up' : ''}`);
 	}
 	return delivered;
 }
