@@ -7,6 +7,7 @@ import { stopService } from '../platform/services';
 import { caughtWebhooks, clearCaughtWebhooks, failNextWebhooks, startFakeWebhook, stopFakeWebhook } from '../platform/fake-webhook';
 import { blockedReason, checkedLookup, checkOutboundUrl, OutboundUrlError } from '../platform/outbound';
 import { DomainError } from '../platform/errors';
+import { config } from '../platform/config';
 import * as webhooks from './webhooks';
 import { installChatMessages } from './messages';
 import { WEBHOOK_MAX_ATTEMPTS, WEBHOOK_NAME_MAX, WEBHOOK_RETRY_BASE_S, WEBHOOK_URL_MAX } from '../../limits';
@@ -105,6 +106,18 @@ describe('webhook addresses: the allow-list', () => {
 		const lookup = checkedLookup(async () => [{ address: '169.254.169.254', family: 4 }]);
 		const err = await new Promise<NodeJS.ErrnoException | null>((resolve) => lookup('chat.example.org', {}, (e) => resolve(e)));
 		expect(err?.code).toBe('EBLOCKED');
+	});
+
+	it('keeps to the site’s list of chat hosts when one is set (the fake receiver aside)', async () => {
+		const saved = config.webhookHosts;
+		config.webhookHosts = ['.chat.example.org'];
+		try {
+			const e = await refusal(webhooks.addWebhook({ id: 'coord' }, { name: 'Ops', url: 'https://8.8.8.8/hook', kinds: ['alert.retraction'] }));
+			expect(e.fields.url).toMatch(/not among the chat hosts this site allows \(\.chat\.example\.org\)/);
+			await expect(webhooks.addWebhook({ id: 'coord' }, { name: 'Fake', url: fakeUrl(), kinds: ['alert.retraction'] })).resolves.toEqual(expect.any(String));
+		} finally {
+			config.webhookHosts = saved;
+		}
 	});
 
 	it('refuses oversized and empty input with field messages, and keeps nothing', async () => {

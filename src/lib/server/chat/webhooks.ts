@@ -14,6 +14,7 @@ import { InputError } from '../platform/errors';
 import { randomId } from '../people/auth';
 import { checkedLookup, checkOutboundUrl, type LoopbackException } from '../platform/outbound';
 import { fakeWebhookPort, startFakeWebhook } from '../platform/fake-webhook';
+import { hostAllowance } from '../alerts/skymap-fetch';
 import { every } from '../platform/periodic';
 import { restartService, runningService, type Running } from '../platform/services';
 import { WEBHOOK_KINDS, type WebhookBody, type WebhookKind } from '../../webhooks';
@@ -65,6 +66,10 @@ async function checkInput(input: WebhookInput): Promise<WebhookInput> {
 	if (kinds.some((k) => !(WEBHOOK_KINDS as readonly string[]).includes(k))) throw new WebhookError('Choose among the kinds of message offered.', 'kinds');
 	if (kinds.length === 0) throw new WebhookError('Choose at least one kind of message to send.', 'kinds');
 	const checked = await checkOutboundUrl(url, { field: 'url', fake: loopbackException() });
+	const isFake = checked.protocol === 'http:';
+	if (!isFake && config.webhookHosts.length && !hostAllowance(checked.hostname, config.webhookHosts)) {
+		throw new WebhookError(`“${checked.hostname}” is not among the chat hosts this site allows (${config.webhookHosts.join(', ')}). Ask an administrator to add it to WEBHOOK_HOSTS.`, 'url');
+	}
 	return { name, url: checked.href, kinds };
 }
 

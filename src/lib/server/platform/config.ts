@@ -20,6 +20,8 @@ export interface Config {
 	alerts: AlertsConfig;
 	/** Port of the local fake webhook receiver (0 = any free port); null = not started (`FAKE_WEBHOOK_PORT=off`). */
 	fakeWebhookPort: number | null;
+	/** When set, the only hosts chat webhooks may use (exact names, or ".domain" for any sub-domain); empty = any public host. */
+	webhookHosts: string[];
 	/** The observing site's IANA time zone, named in calendar feeds (times there stay in UTC). */
 	siteTimeZone: string;
 }
@@ -116,6 +118,7 @@ export function loadConfig(): Config {
 		},
 		alerts: loadAlertsConfig(),
 		fakeWebhookPort: process.env.FAKE_WEBHOOK_PORT?.trim().toLowerCase() === 'off' ? null : int('FAKE_WEBHOOK_PORT', 2580),
+		webhookHosts: list('WEBHOOK_HOSTS', []),
 		siteTimeZone: timeZone('SITE_TIME_ZONE', 'UTC')
 	};
 }
