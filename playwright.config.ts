@@ -41,6 +41,7 @@ export default defineConfig({
 			ORIGIN: BASE_URL,
 			DATABASE_URL: 'tests/e2e/.artifacts/e2e.sqlite',
 			FAKE_SMTP_PORT: '0',
+			FAKE_WEBHOOK_PORT: '0',
 			SMTP_URL: ''
 		}
 	}

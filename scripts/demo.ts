@@ -16,7 +16,8 @@
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import { parseArgs } from 'node:util';
-import { openDatabase } from '../src/lib/server/platform/db';
+import { openDatabase, schema } from '../src/lib/server/platform/db';
+import { WEBHOOK_KINDS } from '../src/lib/webhooks';
 import { seedDemo } from '../seeds/demo';
 import { startBroker } from '../fake-alert-broker/broker.ts';
 
@@ -47,8 +48,18 @@ if (!args['no-build'] || !existsSync('build/handler.js')) {
 	if (built.status !== 0) process.exit(built.status ?? 1);
 }
 
-const { created } = await seedDemo(openDatabase(env.DATABASE_URL || undefined));
+const database = openDatabase(env.DATABASE_URL || undefined);
+const { created } = await seedDemo(database);
 console.log(created ? 'Seeded the demo collaboration (invented data).' : 'Demo collaboration already seeded.');
+
+// A chat webhook to the app's local fake receiver, so that the alerts below show up on the webhook catcher.
+env.FAKE_WEBHOOK_PORT ??= '2580';
+if (env.FAKE_WEBHOOK_PORT !== 'off' && !database.select().from(schema.chatWebhook).all().length) {
+	database
+		.insert(schema.chatWebhook)
+		.values({ id: 'demo-room', name: 'Demo follow-up room (local fake receiver)', url: `http://127.0.0.1:${env.FAKE_WEBHOOK_PORT}/hook/demo-room`, kinds: [...WEBHOOK_KINDS] })
+		.run();
+}
 
 const broker = await startBroker({
 	host: '127.0.0.1',
@@ -84,7 +95,8 @@ process.on('SIGTERM', () => shutdown(0));
 start('app', 'node', ['server.js']);
 console.log(`\nStrainline demo: ${origin}`);
 console.log('  duty scientist on shift: duty@strainline.demo / duty-demo-pass (pages arrive in /mailbox, as coordinator or admin)');
-console.log('  coordinator: coordinator@strainline.demo / coordinator-demo-pass; admin: admin@strainline.demo / admin-demo-pass\n');
+console.log('  coordinator: coordinator@strainline.demo / coordinator-demo-pass; admin: admin@strainline.demo / admin-demo-pass');
+console.log('  chat messages: /admin/webhooks (coordinator or admin); what the local fake receiver caught: /mailbox/webhooks (admin)\n');
 
 // Play once the app listens, so that nobody misses the first notice (the archive would back-fill it anyway).
 const until = Date.now() + 60_000;

@@ -16,6 +16,8 @@ import { installNotifications } from '$lib/server/people/notifications';
 import { installVetting } from '$lib/server/candidates/vetting';
 import { installReportMail } from '$lib/server/closeout/report-mail';
 import { startAlerts } from '$lib/server/alerts/service';
+import { installWebhooks, startFakeReceiver } from '$lib/server/chat/webhooks';
+import { installChatMessages } from '$lib/server/chat/messages';
 
 export const init: ServerInit = async () => {
 	openDatabase();
@@ -28,7 +30,10 @@ export const init: ServerInit = async () => {
 	installNotifications();
 	installVetting();
 	installReportMail();
+	installChatMessages();
+	installWebhooks();
 	await startMail();
+	await startFakeReceiver();
 	// Last: the broker listener may start processing notices at once.
 	await startAlerts();
 };

@@ -62,3 +62,24 @@ export const POSITION_ERR_ARCSEC_MAX = 60;
  * to SKYMAP_MAX_MB), so the queue is short.
  */
 export const WORK_QUEUE_MAX = 32;
+
+/** Chat webhooks: at most this many, with a name and an address of at most these lengths. */
+export const WEBHOOKS_MAX = 20;
+export const WEBHOOK_NAME_MAX = 80;
+export const WEBHOOK_URL_MAX = 2000;
+/**
+ * A failed delivery is tried again after RETRY_BASE_S, then twice as long each time (30 s, 1 min,
+ * 2 min, 4 min, 8 min), and given up after MAX_ATTEMPTS attempts in all.
+ */
+export const WEBHOOK_MAX_ATTEMPTS = 6;
+export const WEBHOOK_RETRY_BASE_S = 30;
+/** One delivery attempt waits this long for the chat product's answer. */
+export const WEBHOOK_TIMEOUT_S = 10;
+/** Longest message text we send (chat products cut or refuse longer ones). */
+export const WEBHOOK_TEXT_MAX = 3000;
+/** Largest body the local fake receiver accepts. */
+export const FAKE_WEBHOOK_BODY_MAX_BYTES = 64 * 1024;
+
+/** A calendar feed holds the shifts from this many days back to this many days ahead. */
+export const CALENDAR_PAST_DAYS = 30;
+export const CALENDAR_AHEAD_DAYS = 180;

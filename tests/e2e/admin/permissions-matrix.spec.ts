@@ -69,6 +69,16 @@ const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean; allowed
 	{ path: '/events/{eventId}/record?/note', allowed: ['coordinator'] },
 	{ path: '/events/{eventId}/record?/send', allowed: ['coordinator'], ok: true },
 	{ path: '/admin/mailing-list', allowed: ['admin', 'coordinator'] },
+	// Chat webhooks: an empty form is refused by validation.
+	{ path: '/admin/webhooks?/add', allowed: ['admin', 'coordinator'] },
+	{ path: '/admin/webhooks?/kinds', allowed: ['admin', 'coordinator'] },
+	{ path: '/admin/webhooks?/test', allowed: ['admin', 'coordinator'] },
+	{ path: '/admin/webhooks?/retry', allowed: ['admin', 'coordinator'] },
+	{ path: '/admin/webhooks?/remove', allowed: ['admin', 'coordinator'] },
+	// Calendar addresses: everyone has their own; the whole roster's is the coordinators' (revoking when there is none changes nothing).
+	{ path: '/account/calendar?/create', allowed: 'all' },
+	{ path: '/account/calendar?/revoke', allowed: 'all' },
+	{ path: '/account/calendar?/revoke', allowed: ['admin', 'coordinator'], form: { scope: 'roster' }, ok: true },
 	// The candidate page, on the matrix's candidate.
 	{ path: '/events/{eventId}/candidates/AT-matrix?/photometry', allowed: ['observer', 'spectroscopist', 'coordinator'] },
 	// A note over 500 characters: an allowed role is refused it and takes nothing.

@@ -48,7 +48,10 @@ describe('permissions table', () => {
 			'records.annotate': ['coordinator'],
 			'records.send': ['coordinator'],
 			'settings.mailing-list': ['admin', 'coordinator'],
-			'events.close': ['coordinator']
+			'events.close': ['coordinator'],
+			'webhooks.manage': ['admin', 'coordinator'],
+			'calendar.own': [...ROLES],
+			'calendar.roster': ['admin', 'coordinator']
 		};
 		expect(Object.keys(PERMISSIONS).sort()).toEqual(Object.keys(expected).sort());
 		for (const [perm, roles] of Object.entries(expected) as [Permission, Role[]][]) {

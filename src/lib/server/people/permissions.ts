@@ -53,7 +53,13 @@ export const PERMISSIONS = {
 	'records.send': { roles: ['coordinator'] },
 	'settings.mailing-list': { roles: ['admin', 'coordinator'] },
 	/** Close an event (its claims and spectrum takes are released; new work is refused) and reopen it. */
-	'events.close': { roles: ['coordinator'] }
+	'events.close': { roles: ['coordinator'] },
+	/** Chat webhooks: which team-chat rooms hear of alerts, retractions, candidates and closings. */
+	'webhooks.manage': { roles: ['admin', 'coordinator'] },
+	/** A secret calendar address for one's own duty shifts (empty for those never on the roster). */
+	'calendar.own': { roles: EVERYONE },
+	/** A secret calendar address for the whole roster, with names. */
+	'calendar.roster': { roles: ['admin', 'coordinator'] }
 } as const satisfies Record<string, { roles: readonly Role[]; robot?: boolean }>;
 
 export type Permission = keyof typeof PERMISSIONS;

@@ -18,6 +18,12 @@ export interface Config {
 	/** Password-reset requests within `windowMs`: per address asked for (known or not) and per client. */
 	resetLimit: { perAddress: number; perClient: number; windowMs: number };
 	alerts: AlertsConfig;
+	/** Port of the local fake webhook receiver (0 = any free port); null = not started (`FAKE_WEBHOOK_PORT=off`). */
+	fakeWebhookPort: number | null;
+	/** When set, the only hosts chat webhooks may use (exact names, or ".domain" for any sub-domain); empty = any public host. */
+	webhookHosts: string[];
+	/** The observing site's IANA time zone, named in calendar feeds (times there stay in UTC). */
+	siteTimeZone: string;
 }
 
 /** Alert ingestion: the broker, the sky-map fetcher and where files go. */
@@ -79,6 +85,17 @@ function int(name: string, fallback: number): number {
 	return value;
 }
 
+function timeZone(name: string, fallback: string): string {
+	const raw = process.env[name]?.trim();
+	if (!raw) return fallback;
+	try {
+		new Intl.DateTimeFormat('en-GB', { timeZone: raw });
+	} catch {
+		throw new Error(`${name} must be an IANA time zone such as Europe/Madrid, got "${raw}"`);
+	}
+	return raw;
+}
+
 export function loadConfig(): Config {
 	return {
 		databaseUrl: process.env.DATABASE_URL || 'data/strainline.sqlite',
@@ -99,7 +116,10 @@ export function loadConfig(): Config {
 			perClient: int('RESET_REQUESTS_PER_CLIENT', 10),
 			windowMs: int('RESET_WINDOW_MINUTES', 60) * 60_000
 		},
-		alerts: loadAlertsConfig()
+		alerts: loadAlertsConfig(),
+		fakeWebhookPort: process.env.FAKE_WEBHOOK_PORT?.trim().toLowerCase() === 'off' ? null : int('FAKE_WEBHOOK_PORT', 2580),
+		webhookHosts: list('WEBHOOK_HOSTS', []),
+		siteTimeZone: timeZone('SITE_TIME_ZONE', 'UTC')
 	};
 }
 

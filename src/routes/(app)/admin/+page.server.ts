@@ -19,6 +19,7 @@ export const load: PageServerLoad = ({ locals }) => {
 		grantableRoles: ROLES_LIST.filter((r) => rolesOutOfReach(locals.user!.roles, [r]).length === 0),
 		canManagePeople: can({ user: locals.user }, 'people.manage'),
 		canManageTokens: can({ user: locals.user }, 'tokens.manage'),
+		canManageWebhooks: can({ user: locals.user }, 'webhooks.manage'),
 		me: locals.user!.id
 	};
 };

@@ -8,6 +8,7 @@ import type { KilonovaVerdict, ThresholdChanges } from '../../../candidates/rule
 import type { CandidateVetting } from '../../../candidates/vetting';
 import type { SpectrumFormat, SpectrumSummary } from '../../../candidates/spectrum';
 import type { NoticeVocabulary } from '../../../alerts/voevent';
+import { WEBHOOK_KINDS, type WebhookBody, type WebhookKind } from '../../../webhooks';
 import { CANDIDATE_STATES, CLASSIFICATION_LABELS, CONFIDENCE_LEVELS, REJECTION_REASONS } from '../../../candidates/labels';
 import { sqliteTable, text, integer, real, primaryKey, index, uniqueIndex, check } from 'drizzle-orm/sqlite-core';
 
@@ -950,3 +951,77 @@ export const collaborationSetting = sqliteTable('collaboration_setting', {
 
 export type EventRecordNote = typeof eventRecordNote.$inferSelect;
 export type CollaborationSetting = typeof collaborationSetting.$inferSelect;
+
+// ───────────────────────────── Chat webhooks and calendar feeds ─────────────────────────────
+
+export const WEBHOOK_DELIVERY_STATES = ['pending', 'delivered', 'failed'] as const;
+
+/** An incoming-webhook address of a team-chat room, and the kinds of message it takes. */
+export const chatWebhook = sqliteTable('chat_webhook', {
+	id: text('id').primaryKey(),
+	name: text('name').notNull(),
+	/** The full address; it usually holds the chat product's secret, so pages show it masked. */
+	url: text('url').notNull(),
+	kinds: text('kinds', { mode: 'json' }).$type<WebhookKind[]>().notNull(),
+	createdBy: text('created_by').references(() => user.id, { onDelete: 'set null' }),
+	createdAt: createdAt(),
+	updatedAt: integer('updated_at', { mode: 'timestamp_ms' })
+});
+
+/**
+ * One message for one webhook: the outbox. `messageKey` names what the message is about (a notice,
+ * an event's first significant alert, a candidate, a test), and the unique index makes sure each
+ * webhook gets it once however often the reaction runs.
+ */
+export const webhookDelivery = sqliteTable(
+	'webhook_delivery',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		webhookId: text('webhook_id')
+			.notNull()
+			.references(() => chatWebhook.id, { onDelete: 'cascade' }),
+		kind: text('kind', { enum: [...WEBHOOK_KINDS, 'test'] }).notNull(),
+		messageKey: text('message_key').notNull(),
+		/** The notice a message about an alert came from (so a notice is told once, as new or as an update). */
+		noticeId: text('notice_id'),
+		body: text('body', { mode: 'json' }).$type<WebhookBody>().notNull(),
+		state: text('state', { enum: WEBHOOK_DELIVERY_STATES }).notNull().default('pending'),
+		attempts: integer('attempts').notNull().default(0),
+		nextAttemptAt: integer('next_attempt_at', { mode: 'timestamp_ms' }),
+		lastStatus: integer('last_status'),
+		lastError: text('last_error'),
+		lastAttemptAt: integer('last_attempt_at', { mode: 'timestamp_ms' }),
+		deliveredAt: integer('delivered_at', { mode: 'timestamp_ms' }),
+		createdAt: createdAt()
+	},
+	(t) => [
+		uniqueIndex('webhook_delivery_once').on(t.webhookId, t.messageKey),
+		index('webhook_delivery_due_idx').on(t.state, t.nextAttemptAt),
+		index('webhook_delivery_hook_idx').on(t.webhookId, t.createdAt)
+	]
+);
+
+export const CALENDAR_FEED_SCOPES = ['mine', 'roster'] as const;
+
+/** A secret calendar address: one person's shifts (`mine`) or the whole roster. The secret is stored hashed. */
+export const calendarFeed = sqliteTable(
+	'calendar_feed',
+	{
+		id: text('id').primaryKey(),
+		userId: text('user_id')
+			.notNull()
+			.references(() => user.id, { onDelete: 'cascade' }),
+		scope: text('scope', { enum: CALENDAR_FEED_SCOPES }).notNull(),
+		/** SHA-256 of the secret, hex. */
+		tokenHash: text('token_hash').notNull().unique(),
+		prefix: text('prefix').notNull(),
+		lastFetchedAt: integer('last_fetched_at', { mode: 'timestamp_ms' }),
+		revokedAt: integer('revoked_at', { mode: 'timestamp_ms' }),
+		createdAt: createdAt()
+	},
+	(t) => [uniqueIndex('calendar_feed_live').on(t.userId, t.scope).where(sql`${t.revokedAt} IS NULL`)]
+);
+
+export type ChatWebhook = typeof chatWebhook.$inferSelect;
+export type WebhookDelivery = typeof webhookDelivery.$inferSelect;
+export type CalendarFeed = typeof calendarFeed.$inferSelect;
