@@ -62,3 +62,16 @@ export const POSITION_ERR_ARCSEC_MAX = 60;
  * to SKYMAP_MAX_MB), so the queue is short.
  */
 export const WORK_QUEUE_MAX = 32;
+
+/**
+ * What the event page sends of a busy event (it stays small however many pointings there are):
+ * replay "changes" (one per slice of the slider), points per coverage curve (a chart a few
+ * hundred pixels wide), and observed footprints drawn on the sky (repeats of one pointing drawn
+ * once; beyond this many, the latest are drawn and the count of the rest is stated).
+ */
+export const REPLAY_MOMENTS_MAX = 400;
+export const COVERAGE_CURVE_POINTS_MAX = 300;
+export const SKY_FOOTPRINTS_MAX = 300;
+
+/** Pointings per page on an event's "Our claims and pointings" page. */
+export const WORK_POINTINGS_PAGE_SIZE = 100;
