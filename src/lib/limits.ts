@@ -83,3 +83,16 @@ export const FAKE_WEBHOOK_BODY_MAX_BYTES = 64 * 1024;
 /** A calendar feed holds the shifts from this many days back to this many days ahead. */
 export const CALENDAR_PAST_DAYS = 30;
 export const CALENDAR_AHEAD_DAYS = 180;
+
+/**
+ * What the event page sends of a busy event (it stays small however many pointings there are):
+ * replay "changes" (one per slice of the slider), points per coverage curve (a chart a few
+ * hundred pixels wide), and observed footprints drawn on the sky (repeats of one pointing drawn
+ * once; beyond this many, the latest are drawn and the count of the rest is stated).
+ */
+export const REPLAY_MOMENTS_MAX = 400;
+export const COVERAGE_CURVE_POINTS_MAX = 300;
+export const SKY_FOOTPRINTS_MAX = 300;
+
+/** Pointings per page on an event's "Our claims and pointings" page. */
+export const WORK_POINTINGS_PAGE_SIZE = 100;

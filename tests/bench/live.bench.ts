@@ -105,7 +105,7 @@ function newestSourceMs(): number {
 	return newest;
 }
 
-function ensureBuilt(): void {
+export function ensureBuilt(): void {
 	const handler = join(ROOT, 'build/handler.js');
 	if (existsSync(handler) && statSync(handler).mtimeMs > newestSourceMs()) return;
 	process.stderr.write('live bench: building the app (vite build)…\n');
@@ -113,7 +113,7 @@ function ensureBuilt(): void {
 	if (r.status !== 0) throw new Error('vite build failed');
 }
 
-function waitForLine(child: ChildProcess, text: string, ms: number, what: string): Promise<void> {
+export function waitForLine(child: ChildProcess, text: string, ms: number, what: string): Promise<void> {
 	return new Promise((resolve, reject) => {
 		const timer = setTimeout(() => reject(new Error(`${what} not ready after ${ms} ms`)), ms);
 		let buffer = '';
@@ -143,7 +143,7 @@ function nextMessage(child: ChildProcess, ms: number): Promise<FromClients> {
 }
 
 /** User + system CPU seconds of a process so far (Linux /proc; NaN elsewhere). */
-function cpuSeconds(pid: number | undefined): number {
+export function cpuSeconds(pid: number | undefined): number {
 	try {
 		const fields = readFileSync(`/proc/${pid}/stat`, 'utf8').split(') ')[1].split(' ');
 		// utime and stime are fields 14 and 15 of stat, in clock ticks (100 per second on Linux).
@@ -153,7 +153,7 @@ function cpuSeconds(pid: number | undefined): number {
 	}
 }
 
-function stop(child: ChildProcess, ms: number): Promise<void> {
+export function stop(child: ChildProcess, ms: number): Promise<void> {
 	if (child.exitCode !== null || child.signalCode !== null) return Promise.resolve();
 	return new Promise((resolve) => {
 		const timer = setTimeout(() => child.kill('SIGKILL'), ms);

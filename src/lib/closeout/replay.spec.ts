@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { changeMoments, claimOpenAt, claimStateAt, mapAt, recordedBy, replayRange } from './replay.ts';
+import { changeMoments, claimOpenAt, claimStateAt, mapAt, recordedBy, replayRange, thinMoments } from './replay.ts';
 import { ACTION_KIND, parseTimelineKind, sinceMerger, timelineKindOf } from './timeline.ts';
 import { ACTION_TOPIC } from '../live-messages.ts';
 
@@ -65,5 +65,16 @@ describe('timeline kinds', () => {
 		expect(sinceMerger((2 * 60 + 7) * MIN, 0)).toBe('+2 h 07 min');
 		expect(sinceMerger(0, 3 * MIN)).toBe('−3 min 00 s');
 		expect(sinceMerger(0, null)).toBeNull();
+	});
+});
+
+describe('thinMoments', () => {
+	it('keeps the first change of each slice, only when there are more than max (or when told to)', () => {
+		expect.hasAssertions();
+		const range = { startMs: 0, endMs: 100 };
+		expect(thinMoments([1, 2, 3], range, 4)).toEqual([1, 2, 3]);
+		// Four slices of 25 ms: [0,25) [25,50) [50,75) [75,100]; the end falls in the last one.
+		expect(thinMoments([1, 2, 26, 27, 60, 99, 100], range, 4)).toEqual([1, 26, 60, 99]);
+		expect(thinMoments([1, 2], range, 4, { always: true })).toEqual([1]);
 	});
 });

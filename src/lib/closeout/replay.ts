@@ -75,3 +75,22 @@ export function changeMoments(times: readonly (number | null)[], range: { startM
 	for (const t of times) if (t !== null && t >= range.startMs && t <= range.endMs) set.add(t);
 	return [...set].sort((a, b) => a - b);
 }
+
+/**
+ * At most `max` of the sorted `moments`: the first change in each of `max` equal slices of the
+ * range. The slider cannot show two changes closer than a slice apart, and "next change" then
+ * steps slice by slice through a busy stretch instead of one pointing at a time. `always` thins
+ * a list that was already cut to one moment per slice for some of its sources.
+ */
+export function thinMoments(moments: readonly number[], range: { startMs: number; endMs: number }, max: number, o: { always?: boolean } = {}): number[] {
+	if (moments.length <= max && !o.always) return [...moments];
+	const sliceMs = Math.max(1, (range.endMs - range.startMs) / max);
+	const out: number[] = [];
+	let lastSlice = -1;
+	for (const m of moments) {
+		const slice = Math.min(max - 1, Math.floor((m - range.startMs) / sliceMs));
+		if (slice !== lastSlice) out.push(m);
+		lastSlice = slice;
+	}
+	return out;
+}

@@ -20,6 +20,13 @@ export interface SkyTarget {
 
 export type SkyFootprint = { id: string; raDeg: number; decDeg: number; label?: string; groupId?: string } & FootprintShape;
 
+/** How many pointings stand behind the footprints drawn (repeats at one place are drawn once; busy events draw the latest places). */
+export interface FootprintCount {
+	pointings: number;
+	places: number;
+	drawn: number;
+}
+
 export interface SkyCandidate {
 	id: string;
 	raDeg: number;

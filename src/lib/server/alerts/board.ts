@@ -29,7 +29,20 @@ export function boardActivity(limit = 15) {
 
 const iso = (d: Date | null | undefined) => (d ? d.toISOString() : null);
 
-function skymapView(row: table.Skymap | undefined): SkymapView | null {
+/**
+ * The skymap columns the board and the event page use: never `display` (the stored raster and
+ * contours, hundreds of kB of JSON per map, read only by the sky view through its own cache).
+ */
+const mapColumns = {
+	id: table.skymap.id,
+	noticeId: table.skymap.noticeId,
+	summary: table.skymap.summary,
+	error: table.skymap.error,
+	createdAt: table.skymap.createdAt
+};
+type MapRow = Pick<table.Skymap, keyof typeof mapColumns>;
+
+function skymapView(row: MapRow | undefined): SkymapView | null {
 	if (!row) return null;
 	const s = row.summary;
 	return {
@@ -74,8 +87,8 @@ function views(events: table.GwEvent[]): { views: EventView[]; pages: Map<string
 		.where(inArray(table.notice.eventId, ids))
 		.orderBy(asc(table.notice.authoredAt))
 		.all();
-	const maps = db.select().from(table.skymap).where(inArray(table.skymap.eventId, ids)).orderBy(asc(table.skymap.createdAt)).all();
-	const mapByNotice = new Map<string, table.Skymap>();
+	const maps = db.select(mapColumns).from(table.skymap).where(inArray(table.skymap.eventId, ids)).orderBy(asc(table.skymap.createdAt)).all();
+	const mapByNotice = new Map<string, MapRow>();
 	for (const m of maps) mapByNotice.set(m.noticeId, m);
 	const mapById = new Map(maps.map((m) => [m.id, m]));
 	const pages = pagesFor(ids);
@@ -152,7 +165,7 @@ export function eventDetail(eventId: string): EventDetail | null {
 	if (!row) return null;
 	const { views: [view], pages } = views([row]);
 	const skymaps = db
-		.select()
+		.select(mapColumns)
 		.from(table.skymap)
 		.where(eq(table.skymap.eventId, eventId))
 		.orderBy(asc(table.skymap.createdAt))

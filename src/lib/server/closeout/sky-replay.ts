@@ -5,18 +5,19 @@
  * a map from its notice's receipt, a pointing from when it was recorded (reported to us), a claim
  * from its own claimed/started/done/ended times.
  */
-import { eq } from 'drizzle-orm';
+import { asc, count, eq, sql } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { InputError } from '../platform/errors';
 import type { SessionUser } from '../people/auth';
 import { skyMapById } from '../alerts/skymap-cache';
-import { eventSky, type SkyViewData } from '../targeting/event-sky';
+import { eventSky, footprintsForSky, type SkyViewData } from '../targeting/event-sky';
 import { coverage, type ObservedFootprint } from '../../targeting/coverage.ts';
 import { footprintOf } from '../../targeting/telescope.ts';
 import { pointingsWithOptics } from '../coordination/observations';
 import { formatProbability } from '../../alerts/display.ts';
-import { changeMoments, claimOpenAt, mapAt, recordedBy, replayRange, type ReplayMap } from '../../closeout/replay.ts';
+import { changeMoments, claimOpenAt, mapAt, recordedBy, replayRange, thinMoments, type ReplayMap } from '../../closeout/replay.ts';
+import { REPLAY_MOMENTS_MAX } from '../../limits.ts';
 
 /** Same edge resolution as the event's coverage figure (event-coverage.ts), so the two agree at the end. */
 const PIXELS_ACROSS = 32;
@@ -50,7 +51,8 @@ interface History {
 	rankingSkymapId: string | null;
 }
 
-function history(eventId: string): History | null {
+/** The event's maps (received, usable) and notice receipts; null when the event does not exist. */
+function mapsOf(eventId: string): Pick<History, 'maps' | 'firstNoticeMs' | 'closedAtMs'> | null {
 	const event = db.select({ closedAt: table.gwEvent.closedAt, state: table.gwEvent.state }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
 	if (!event) return null;
 	const notices = db
@@ -70,40 +72,74 @@ function history(eventId: string): History | null {
 			const n = notices.find((x) => x.id === m.noticeId)!;
 			return { id: m.id, noticeKind: n.kind, receivedAtMs: receivedMs.get(m.noticeId)!, authoredAtMs: n.authoredAt.getTime() };
 		});
-	// In the order they were reported to us (the replay's clock for footprints).
-	const observations = pointingsWithOptics(eventId)
-		.map(({ o, ...about }) => ({ ...o, ...about, recordedAtMs: o.createdAt.getTime(), fov: about }))
-		.sort((a, b) => a.recordedAtMs - b.recordedAtMs);
-	const claims = db
+	return {
+		maps,
+		firstNoticeMs: notices.length ? Math.min(...notices.map((n) => receivedMs.get(n.id)!)) : null,
+		closedAtMs: event.state === 'closed' && event.closedAt ? event.closedAt.getTime() : null
+	};
+}
+
+function claimTimes(eventId: string): History['claims'] {
+	return db
 		.select({ claimedAt: table.claim.claimedAt, startedAt: table.claim.startedAt, doneAt: table.claim.doneAt, endedAt: table.claim.endedAt })
 		.from(table.claim)
 		.where(eq(table.claim.eventId, eventId))
 		.all()
 		.map((c) => ({ claimedAtMs: c.claimedAt.getTime(), startedAtMs: c.startedAt?.getTime() ?? null, doneAtMs: c.doneAt?.getTime() ?? null, endedAtMs: c.endedAt?.getTime() ?? null }));
+}
+
+function history(eventId: string): History | null {
+	const base = mapsOf(eventId);
+	if (!base) return null;
+	// In the order they were reported to us (the replay's clock for footprints).
+	const observations = pointingsWithOptics(eventId)
+		.map(({ o, ...about }) => ({ ...o, ...about, recordedAtMs: o.createdAt.getTime(), fov: about }))
+		.sort((a, b) => a.recordedAtMs - b.recordedAtMs);
 	const ranking = db.select({ skymapId: table.eventGalaxy.skymapId }).from(table.eventGalaxy).where(eq(table.eventGalaxy.eventId, eventId)).limit(1).get();
 	const rankingField = ranking ? null : db.select({ skymapId: table.eventField.skymapId }).from(table.eventField).where(eq(table.eventField.eventId, eventId)).limit(1).get();
 	return {
-		maps,
-		firstNoticeMs: notices.length ? Math.min(...notices.map((n) => receivedMs.get(n.id)!)) : null,
-		closedAtMs: event.state === 'closed' && event.closedAt ? event.closedAt.getTime() : null,
+		...base,
 		observations,
-		claims,
+		claims: claimTimes(eventId),
 		rankingSkymapId: ranking?.skymapId ?? rankingField?.skymapId ?? null
 	};
 }
 
 /** The replay's range and the moments where the picture changes; null when the event has no notices (or does not exist). */
 export function replayBounds(eventId: string, now = new Date()): ReplayBounds | null {
-	const h = history(eventId);
+	const h = mapsOf(eventId);
 	if (!h) return null;
 	const range = replayRange(h.maps, h.firstNoticeMs, h.closedAtMs, now.getTime());
 	if (!range) return null;
-	const times = [
-		...h.maps.map((m) => m.receivedAtMs),
-		...h.observations.map((o) => o.recordedAtMs),
-		...h.claims.flatMap((c) => [c.claimedAtMs, c.startedAtMs, c.doneAtMs, c.endedAtMs])
-	];
-	return { ...range, moments: changeMoments(times, range), closed: h.closedAtMs !== null };
+	// The event page asks for these at every load and an event may hold tens of thousands of
+	// pointings: their report times are read once per change (count and latest identify it) and
+	// cut to one per slice of the range, which is all thinMoments keeps of them anyway.
+	const reported = reportTimes(eventId).filter((t) => t >= range.startMs && t <= range.endMs);
+	const many = reported.length > REPLAY_MOMENTS_MAX;
+	const pointingMoments = many ? thinMoments(reported, range, REPLAY_MOMENTS_MAX, { always: true }) : reported;
+	const times = [...h.maps.map((m) => m.receivedAtMs), ...pointingMoments, ...claimTimes(eventId).flatMap((c) => [c.claimedAtMs, c.startedAtMs, c.doneAtMs, c.endedAtMs])];
+	return { ...range, moments: thinMoments(changeMoments(times, range), range, REPLAY_MOMENTS_MAX, { always: many }), closed: h.closedAtMs !== null };
+}
+
+/** Distinct report times of an event's pointings, ascending, cached per (event, count, latest). */
+const reportTimesCache = new Map<string, number[]>();
+const REPORT_TIMES_CACHE_SIZE = 8;
+function reportTimes(eventId: string): number[] {
+	const ofEvent = eq(table.observation.eventId, eventId);
+	const stat = db.select({ n: count(), latest: sql<number | null>`max(${table.observation.createdAt})` }).from(table.observation).where(ofEvent).get();
+	const key = `${eventId}|${stat?.n ?? 0}|${stat?.latest ?? ''}`;
+	const hit = reportTimesCache.get(key);
+	if (hit) return hit;
+	const times = db
+		.selectDistinct({ atMs: sql<number>`${table.observation.createdAt}` })
+		.from(table.observation)
+		.where(ofEvent)
+		.orderBy(asc(table.observation.createdAt))
+		.all()
+		.map((r) => r.atMs);
+	if (reportTimesCache.size >= REPORT_TIMES_CACHE_SIZE) reportTimesCache.delete(reportTimesCache.keys().next().value!);
+	reportTimesCache.set(key, times);
+	return times;
 }
 
 /** Coverage results by (map, number of pointings recorded): a replay drags over the same few steps. */
@@ -143,18 +179,18 @@ export function skyAt(eventId: string, at: Date, viewer: SessionUser | null, now
 		}
 	}
 	const own = new Map(cov?.footprints.map((f) => [f.id, f.probability]) ?? []);
+	const drawn = footprintsForSky(
+		recorded.map((o) => ({ ...o, timeMs: o.recordedAtMs })),
+		(o) => footprintOf(o.fov),
+		(o) => `${o.teamName} · ${o.telescopeName} · ${o.filter} to ${o.limitingMag.toFixed(1)} mag · ${o.observedAt.toISOString().slice(11, 16)} UTC`,
+		(o) => (own.has(o.id) ? `Observed: ${formatProbability(own.get(o.id)!)} of the map inside` : 'Observed')
+	);
+	const footprintView = { footprints: drawn.footprints, footprintCount: { pointings: recorded.length, places: drawn.places, drawn: drawn.footprints.length } };
 	const sky: SkyViewData = {
 		...base,
 		// Without a map at t the ranking belongs to a later one: show no targets rather than wrong ones.
 		targets: current ? base.targets : [],
-		footprints: recorded.map((o) => ({
-			id: o.id,
-			raDeg: o.raDeg,
-			decDeg: o.decDeg,
-			...footprintOf(o.fov),
-			groupId: `${o.teamName} · ${o.telescopeName} · ${o.filter} to ${o.limitingMag.toFixed(1)} mag · ${o.observedAt.toISOString().slice(11, 16)} UTC`,
-			label: own.has(o.id) ? `Observed: ${formatProbability(own.get(o.id)!)} of the map inside` : 'Observed'
-		}))
+		...footprintView
 	};
 	return {
 		at: at.toISOString(),
@@ -170,4 +206,5 @@ export function skyAt(eventId: string, at: Date, viewer: SessionUser | null, now
 /** Forget cached replay coverage (tests that rewrite the database in place). */
 export function clearReplayCache(): void {
 	coverageCache.clear();
+	reportTimesCache.clear();
 }

@@ -3,10 +3,11 @@
  * targets that a newer sky map no longer ranks), the pointings those teams reported, and every open
  * claim of the network. Coordinators, and people in no team, see every team's claims and pointings.
  */
-import { and, asc, desc, eq, inArray } from 'drizzle-orm';
+import { and, asc, count, desc, eq, inArray, sql } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import type { SessionUser } from '../people/auth';
+import { WORK_POINTINGS_PAGE_SIZE } from '../../limits.ts';
 
 export interface WorkClaim {
 	id: string;
@@ -51,11 +52,21 @@ export interface WorkPointing {
 	claimId: string | null;
 }
 
+/** Which page of a long list is shown: 1-based `page` of `pages`, `total` rows in all. */
+export interface Paging {
+	page: number;
+	pages: number;
+	total: number;
+	pageSize: number;
+}
+
 export interface TeamWork {
 	/** Whose work: the person's teams, or every team (coordinators and people in no team). */
 	scope: { teams: { id: string; name: string }[]; allTeams: boolean };
 	claims: WorkClaim[];
+	/** One page of the teams' pointings, newest first (an event may have tens of thousands). */
 	pointings: WorkPointing[];
+	pointingsPaging: Paging;
 	/** Open claims (claimed or observing) of every team. */
 	openClaims: WorkClaim[];
 }
@@ -141,7 +152,7 @@ function claimRows(eventId: string, where: ReturnType<typeof and>): WorkClaim[] 
 }
 
 /** The work of the person's teams on one event (see the module comment for whose work that is). */
-export function teamWork(eventId: string, user: SessionUser): TeamWork {
+export function teamWork(eventId: string, user: SessionUser, o: { pointingsPage?: number } = {}): TeamWork {
 	const coordinator = user.roles.includes('coordinator');
 	const allTeams = coordinator || user.teamIds.length === 0;
 	const teams = db
@@ -153,14 +164,22 @@ export function teamWork(eventId: string, user: SessionUser): TeamWork {
 	const teamIds = teams.map((t) => t.id);
 	const ofEvent = eq(table.claim.eventId, eventId);
 
-	const pointings = teamIds.length
+	const ofTeams = and(eq(table.observation.eventId, eventId), inArray(table.observation.teamId, teamIds));
+	const total = teamIds.length ? (db.select({ n: count() }).from(table.observation).where(ofTeams).get()?.n ?? 0) : 0;
+	const pageSize = WORK_POINTINGS_PAGE_SIZE;
+	const pages = Math.max(1, Math.ceil(total / pageSize));
+	// A page past the end (the list shrank, or a typed URL) shows the last one.
+	const page = Math.min(pages, Math.max(1, Math.floor(o.pointingsPage ?? 1)));
+	const pointings = total
 		? db
 				.select({ o: table.observation, teamName: table.team.name, telescopeName: table.telescope.name })
 				.from(table.observation)
 				.innerJoin(table.team, eq(table.team.id, table.observation.teamId))
 				.innerJoin(table.telescope, eq(table.telescope.id, table.observation.telescopeId))
-				.where(and(eq(table.observation.eventId, eventId), inArray(table.observation.teamId, teamIds)))
-				.orderBy(desc(table.observation.observedAt))
+				.where(ofTeams)
+				.orderBy(desc(table.observation.observedAt), desc(sql`observation.rowid`))
+				.limit(pageSize)
+				.offset((page - 1) * pageSize)
 				.all()
 				.map(({ o, teamName, telescopeName }) => ({
 					id: o.id,
@@ -182,6 +201,7 @@ export function teamWork(eventId: string, user: SessionUser): TeamWork {
 		scope: { teams, allTeams },
 		claims: teamIds.length ? claimRows(eventId, and(ofEvent, inArray(table.claim.teamId, teamIds))) : [],
 		pointings,
+		pointingsPaging: { page, pages, total, pageSize },
 		openClaims: claimRows(eventId, and(ofEvent, inArray(table.claim.state, [...table.OPEN_CLAIM_STATES])))
 	};
 }

@@ -11,12 +11,15 @@ import { listCandidates } from '../candidates/candidates';
 import { listTelescopes } from '../people/telescopes';
 import type { EventCoverage } from '../coordination/event-coverage';
 import { isStoredRaster, packRaster } from '../../sky-view/raster-image.ts';
-import type { DisplayRaster, SkyBody, SkyCandidate, SkyContour, SkyFootprint, SkyTarget, TargetState } from '../../sky-view/types.ts';
+import type { DisplayRaster, FootprintCount, SkyBody, SkyCandidate, SkyContour, SkyFootprint, SkyTarget, TargetState } from '../../sky-view/types.ts';
 import { moonPhase, moonPosition, sunPosition } from '../../targeting/sun-moon.ts';
 import { footprintOf } from '../../targeting/telescope.ts';
 import { positionErrText } from '../../candidates/position.ts';
 import { formatProbability } from '../../alerts/display.ts';
 import { claimStateAt } from '../../closeout/replay.ts';
+import { drawnFootprints } from '../../sky-view/drawn-footprints.ts';
+import type { FootprintShape } from '../../targeting/sky-geometry.ts';
+import { SKY_FOOTPRINTS_MAX } from '../../limits.ts';
 
 /** Display avoidance radii: the telescope defaults (telescope.min_sun/moon_separation_deg). */
 const SUN_AVOID_DEG = 45;
@@ -34,6 +37,8 @@ export interface SkyViewData {
 	targets: SkyTarget[];
 	footprints: SkyFootprint[];
 	candidates: SkyCandidate[];
+	/** Pointings behind `footprints`: all of them, the distinct places, and the places drawn. */
+	footprintCount: FootprintCount;
 }
 
 const pct = formatProbability;
@@ -56,6 +61,24 @@ function mapDisplay(skymapId: string): { raster: DisplayRaster | null; contours:
 	if (shown.size >= SHOWN_MAPS) shown.delete(shown.keys().next().value!);
 	shown.set(key, packed);
 	return packed;
+}
+
+/**
+ * The footprints drawn for a coverage result. eventCoverage hands out the same object while the
+ * map and the pointings are unchanged, so this is worked out once per change, not per page load.
+ */
+const drawnCache = new WeakMap<EventCoverage, { footprints: SkyFootprint[]; places: number }>();
+function drawnOf(covered: EventCoverage): { footprints: SkyFootprint[]; places: number } {
+	const hit = drawnCache.get(covered);
+	if (hit) return hit;
+	const drawn = footprintsForSky(
+		covered.footprints.map((f) => ({ ...f, timeMs: Date.parse(f.observedAt) })),
+		(f) => f.shape,
+		(f) => `${f.teamName} · ${f.telescopeName} · ${f.filter} to ${f.limitingMag.toFixed(1)} mag · ${f.observedAt.slice(11, 16)} UTC`,
+		(f) => `Observed: ${pct(f.probability)} of the map inside`
+	);
+	drawnCache.set(covered, drawn);
+	return drawn;
 }
 
 /**
@@ -135,14 +158,8 @@ export function eventSky(
 		});
 	}
 
-	const footprints: SkyFootprint[] = (covered?.footprints ?? []).map((f) => ({
-		id: f.id,
-		raDeg: f.raDeg,
-		decDeg: f.decDeg,
-		...f.shape,
-		groupId: `${f.teamName} · ${f.telescopeName} · ${f.filter} to ${f.limitingMag.toFixed(1)} mag · ${f.observedAt.slice(11, 16)} UTC`,
-		label: `Observed: ${pct(f.probability)} of the map inside`
-	}));
+	const observed = covered?.footprints ?? [];
+	const { footprints, places } = covered ? drawnOf(covered) : { footprints: [], places: 0 };
 
 	const candidates: SkyCandidate[] = listCandidates(eventId)
 		.filter((c) => !o.asOf || Date.parse(c.createdAt) <= atMs)
@@ -168,6 +185,31 @@ export function eventSky(
 		sun: { raDeg: sun.raDeg, decDeg: sun.decDeg, avoidRadiusDeg: SUN_AVOID_DEG },
 		moon: { raDeg: moon.raDeg, decDeg: moon.decDeg, avoidRadiusDeg: MOON_AVOID_DEG, illumination: moonPhase(now).illumination },
 		targets,
-		footprints
+		footprints,
+		footprintCount: { pointings: observed.length, places, drawn: footprints.length }
+	};
+}
+
+/**
+ * Footprints to draw from an event's pointings: one per place (repeats counted in the label), the
+ * latest SKY_FOOTPRINTS_MAX places; `group` and `label` give the words of the latest pointing there.
+ */
+export function footprintsForSky<T extends { id: string; raDeg: number; decDeg: number; timeMs: number }>(
+	items: readonly T[],
+	shapeOf: (item: T) => FootprintShape,
+	group: (item: T) => string,
+	label: (item: T) => string
+): { footprints: SkyFootprint[]; places: number } {
+	const { drawn, places } = drawnFootprints(items, shapeOf, SKY_FOOTPRINTS_MAX);
+	return {
+		places,
+		footprints: drawn.map(({ latest, count }) => ({
+			id: latest.id,
+			raDeg: latest.raDeg,
+			decDeg: latest.decDeg,
+			...shapeOf(latest),
+			groupId: count > 1 ? `${group(latest)} (latest of ${count} pointings here)` : group(latest),
+			label: label(latest)
+		}))
 	};
 }

@@ -697,6 +697,8 @@ export const observation = sqliteTable(
 	},
 	(t) => [
 		index('observation_event_idx').on(t.eventId, t.observedAt),
+		// The replay's clock: pointings by when they were reported (sky-replay.ts).
+		index('observation_event_recorded_idx').on(t.eventId, t.createdAt),
 		check('observation_ra', sql`${t.raDeg} >= 0 AND ${t.raDeg} < 360`),
 		check('observation_dec', sql`${t.decDeg} BETWEEN -90 AND 90`),
 		check('observation_exposure', sql`${t.exposureS} > 0`)

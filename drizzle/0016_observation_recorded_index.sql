@@ -1,0 +1,1 @@
+CREATE INDEX `observation_event_recorded_idx` ON `observation` (`event_id`,`created_at`);

@@ -1,0 +1,151 @@
+import { afterAll, beforeAll, beforeEach, describe, expect, it } from 'vitest';
+import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { createTestDatabase } from '../platform/testing/database';
+import { db } from '../platform/db';
+import * as table from '../platform/db/schema';
+import { saveFile, useStorageRoot } from '../platform/storage';
+import { loadSessionUser, type SessionUser } from '../people/auth';
+import { clearCoverageCache } from '../coordination/event-coverage';
+import { teamWork } from '../coordination/team-work';
+import { clearReplayCache, replayBounds } from './sky-replay';
+import { eventPage } from './event-page';
+import { analyseSkymap, skyRaster } from '../../sky/index.ts';
+import { COVERAGE_CURVE_POINTS_MAX, REPLAY_MOMENTS_MAX, SKY_FOOTPRINTS_MAX, WORK_POINTINGS_PAGE_SIZE } from '../../limits.ts';
+import { addCrowdOfPointings } from '../../../../tests/bench/pages/crowd.ts';
+
+const FIX = fileURLToPath(new URL('../../../../tests/fixtures/', import.meta.url));
+const HOUR = 3_600_000;
+const POINTINGS = 18_000;
+
+let storage: string;
+beforeAll(() => {
+	storage = mkdtempSync(join(tmpdir(), 'strainline-event-page-'));
+	useStorageRoot(storage);
+});
+afterAll(() => {
+	useStorageRoot(null);
+	rmSync(storage, { recursive: true, force: true });
+});
+beforeEach(() => {
+	createTestDatabase();
+	clearCoverageCache();
+	clearReplayCache();
+});
+
+/**
+ * An event whose notice arrived a minute after a merger 10 h ago, with the multi-order test map
+ * (analysed and rastered as ingestion does), three teams with a wide, a narrow and a round
+ * field of view, and `pointings` pointings spread over the 10 h (tests/bench/pages/crowd.ts).
+ */
+function crowdedEvent(pointings: number): { coordinator: SessionUser; observer: SessionUser } {
+	const merger = new Date(Date.now() - 10 * HOUR);
+	const scopes = [
+		{ team: 'team-w', fovShape: 'rectangle' as const, fovWidthDeg: 3, fovHeightDeg: 3 },
+		{ team: 'team-n', fovShape: 'rectangle' as const, fovWidthDeg: 0.4, fovHeightDeg: 0.4 },
+		{ team: 'team-c', fovShape: 'circle' as const, fovWidthDeg: 0.7, fovHeightDeg: 0.7 }
+	];
+	for (const s of scopes) {
+		db.insert(table.team).values({ id: s.team, name: `Team ${s.team.slice(5)}`, region: 'Test' }).run();
+		db.insert(table.telescope)
+			.values({ id: `tel-${s.team}`, teamId: s.team, name: `Scope ${s.team.slice(5)}`, siteName: 'Test site', latitudeDeg: -30, longitudeDeg: -70, elevationM: 2000, apertureM: 1, fovShape: s.fovShape, fovWidthDeg: s.fovWidthDeg, fovHeightDeg: s.fovHeightDeg, filters: ['g', 'r'], limitingMag: 21, limitingMagExposureS: 60 })
+			.run();
+	}
+	const person = (id: string, roles: table.Role[], teamIds: string[]) => {
+		db.insert(table.user).values({ id, email: `${id}@page.test`, name: id, passwordHash: 'unused' }).run();
+		for (const role of roles) db.insert(table.userRole).values({ userId: id, role }).run();
+		for (const teamId of teamIds) db.insert(table.teamMember).values({ teamId, userId: id }).run();
+		return loadSessionUser(id)!;
+	};
+	const coordinator = person('u-coord', ['coordinator'], []);
+	const observer = person('u-obs', ['observer'], ['team-w']);
+
+	db.insert(table.gwEvent).values({ id: 'ev-crowd', sourceEventId: 'S-crowd-1', role: 'observation', state: 'active', eventTime: merger }).run();
+	const received = new Date(merger.getTime() + 60_000);
+	const inbox = db.insert(table.noticeInbox).values({ ivorn: 'ivo://test/crowd#1', rawXml: '<x/>', via: 'api', receivedAt: received, processedAt: received }).returning().get();
+	db.insert(table.notice).values({ id: 'n-1', eventId: 'ev-crowd', inboxId: inbox.id, ivorn: 'ivo://test/crowd#1', kind: 'initial', role: 'observation', authoredAt: merger, citations: [], parsed: {} }).run();
+	const bytes = new Uint8Array(readFileSync(FIX + 'sky/moc_map.fits'));
+	const { map, ...summary } = analyseSkymap(bytes);
+	const display = skyRaster(map, { width: 360, height: 180 }) as unknown as Record<string, unknown>;
+	const file = saveFile('skymaps', 'crowd.fits', bytes);
+	db.insert(table.skymap).values({ id: 'map-1', eventId: 'ev-crowd', noticeId: 'n-1', filePath: file.path, summary, display }).run();
+	db.update(table.gwEvent).set({ latestSkymapId: 'map-1', latestNoticeId: 'n-1', latestKind: 'initial' }).run();
+	addCrowdOfPointings(db, 'ev-crowd', { pointings });
+	return { coordinator, observer };
+}
+
+describe('the event page of a crowded event', () => {
+	it(`sends aggregates, not every one of ${POINTINGS.toLocaleString('en-GB')} pointings: under 300 kB`, () => {
+		expect.hasAssertions();
+		const { coordinator } = crowdedEvent(POINTINGS);
+		const first = eventPage('ev-crowd', coordinator)!;
+		// Every pointing counts in the figures…
+		expect(first.coverage!.observations).toBe(POINTINGS);
+		expect(first.sky.footprintCount.pointings).toBe(POINTINGS);
+		// …while the page carries a bounded picture of them.
+		expect(first.sky.footprints.length).toBeLessThanOrEqual(SKY_FOOTPRINTS_MAX);
+		expect(first.sky.footprintCount.drawn).toBe(first.sky.footprints.length);
+		expect(first.sky.footprintCount.places).toBeGreaterThanOrEqual(first.sky.footprints.length);
+		expect(first.coverage!.curve.length).toBeLessThanOrEqual(COVERAGE_CURVE_POINTS_MAX);
+		expect(first.coverage!.curve.at(-1)![1]).toBeCloseTo(first.coverage!.union, 5);
+		for (const t of first.coverage!.teams) expect(t.curve.length).toBeLessThanOrEqual(COVERAGE_CURVE_POINTS_MAX);
+		expect(first.replay!.moments.length).toBeLessThanOrEqual(REPLAY_MOMENTS_MAX);
+		expect(first.sky.raster).not.toBeNull();
+
+		// A warm load (coverage cached, as it is between pointings): the size and time a crowd sees.
+		const t0 = performance.now();
+		const warm = eventPage('ev-crowd', coordinator)!;
+		const ms = performance.now() - t0;
+		const bytes = Buffer.byteLength(JSON.stringify(warm));
+		expect(bytes).toBeLessThan(300_000);
+		// The goal is 300 ms on a quiet machine; the bound is wide because the test machine is shared
+		// (a run under load average 12 took 690 ms). tests/bench/pages.bench.ts measures it properly.
+		expect(ms).toBeLessThan(1500);
+	}, 120_000);
+
+	it('keeps the last change of each replay slice exactly as thinning every pointing would', () => {
+		expect.hasAssertions();
+		crowdedEvent(REPLAY_MOMENTS_MAX * 3);
+		const bounds = replayBounds('ev-crowd')!;
+		const created = db.select({ at: table.observation.createdAt }).from(table.observation).all().map((o) => o.at.getTime());
+		const sliceMs = (bounds.endMs - bounds.startMs) / REPLAY_MOMENTS_MAX;
+		const firstPerSlice = new Map<number, number>();
+		for (const t of [...created, bounds.startMs].sort((a, b) => a - b)) {
+			const slice = Math.min(REPLAY_MOMENTS_MAX - 1, Math.floor((t - bounds.startMs) / sliceMs));
+			if (!firstPerSlice.has(slice)) firstPerSlice.set(slice, t);
+		}
+		expect(bounds.moments).toEqual([...firstPerSlice.values()]);
+	}, 60_000);
+});
+
+describe('pointings on "Our claims and pointings", a page at a time', () => {
+	it('returns the right slices, newest first, with the total, for every team or one team', () => {
+		expect.hasAssertions();
+		const { coordinator, observer } = crowdedEvent(1_234);
+		const all = db
+			.select({ id: table.observation.id, at: table.observation.observedAt, teamId: table.observation.teamId })
+			.from(table.observation)
+			.all()
+			.sort((a, b) => b.at.getTime() - a.at.getTime());
+		const size = WORK_POINTINGS_PAGE_SIZE;
+		const pages = Math.ceil(all.length / size);
+
+		const first = teamWork('ev-crowd', coordinator);
+		expect(first.pointingsPaging).toEqual({ page: 1, pages, total: all.length, pageSize: size });
+		expect(first.pointings.map((p) => p.id)).toEqual(all.slice(0, size).map((p) => p.id));
+		const third = teamWork('ev-crowd', coordinator, { pointingsPage: 3 });
+		expect(third.pointings.map((p) => p.id)).toEqual(all.slice(2 * size, 3 * size).map((p) => p.id));
+		const last = teamWork('ev-crowd', coordinator, { pointingsPage: pages });
+		expect(last.pointings.map((p) => p.id)).toEqual(all.slice((pages - 1) * size).map((p) => p.id));
+		// Past the end: the last page, said so.
+		expect(teamWork('ev-crowd', coordinator, { pointingsPage: pages + 5 }).pointingsPaging.page).toBe(pages);
+
+		// An observer sees their own team's pointings only, counted and paged the same way.
+		const own = all.filter((p) => p.teamId === 'team-w');
+		const mine = teamWork('ev-crowd', observer, { pointingsPage: 2 });
+		expect(mine.pointingsPaging).toEqual({ page: 2, pages: Math.ceil(own.length / size), total: own.length, pageSize: size });
+		expect(mine.pointings.map((p) => p.id)).toEqual(own.slice(size, 2 * size).map((p) => p.id));
+	});
+});
