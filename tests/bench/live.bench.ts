@@ -34,7 +34,7 @@
  *
  * Bounded: the app is built first when `build/` is older than the sources (callers hold the
  * shared build lock); once the world is ready a watchdog kills every child after 300 s. Connect
- * timeout 30 s, HTTP timeout 10 s (60 s for the upload), temporary database and storage.
+ * timeout 30 s, HTTP timeout 10 s (240 s for the upload), temporary database and storage.
  * `LIVE_BENCH_SECONDS` shortens the main phase; `LIVE_BENCH_CATALOG_ROWS=0` and
  * `LIVE_BENCH_ADDED_LOAD=0` leave out the catalogue and the added load.
  */
@@ -48,7 +48,7 @@ import Database from 'better-sqlite3';
 import { median, type BenchResult } from './run.ts';
 import { startBroker, type FakeBroker } from '../../fake-alert-broker/broker.ts';
 import { prepareAppWorld, type AppWorld } from './live/app-world.ts';
-import { flatMapFitsGz, pointingsCsv, updateNoticeXml } from './live/added-load.ts';
+import { flatMapFits, pointingsCsv, updateNoticeXml } from './live/added-load.ts';
 import { freePort, keyOf, nowMs, percentile, type ClientReport, type DriveRequest, type ExpectedMessage, type FromClients, type ToClients } from './live/protocol.ts';
 
 const ROOT = fileURLToPath(new URL('../../', import.meta.url));
@@ -61,17 +61,21 @@ const REFERENCE_S = Math.min(15, MAIN_S);
 const CONNECT_TIMEOUT_MS = 30_000;
 const HTTP_TIMEOUT_MS = 10_000;
 const DRAIN_MS = 3000;
-const WATCHDOG_MS = 300_000;
+const WATCHDOG_MS = 480_000;
 const CATALOG_ROWS = Number(process.env.LIVE_BENCH_CATALOG_ROWS ?? 1_000_000);
 const ADDED_LOAD = process.env.LIVE_BENCH_ADDED_LOAD !== '0';
 /** Second of the main phase at which the update notice and the upload go out. */
 const LOAD_AT_S = Math.min(20, Math.floor(MAIN_S / 3));
 const CSV_ROWS = 9000;
-const UPLOAD_TIMEOUT_MS = 60_000;
+const UPLOAD_TIMEOUT_MS = 240_000;
+const SETTLED_MS = 100;
+const SETTLE_MAX_MS = 60_000;
 /** How long after the driver's last request the update may still take to be ranked. */
 const UPDATE_WAIT_MS = 90_000;
 /** The flat map's file on the broker's HTTP server. */
-const FLAT_MAP_NAME = 'bench-update.flat.fits.gz';
+const FLAT_MAP_NAME = 'bench-update.flat.fits';
+/** The app's sky-map size cap for the main phase, MB: the default (64) refuses a 100 MB flat nside-1024 map. */
+const SKYMAP_MAX_MB = 128;
 /** Epochs a claim may carry (the route accepts 1–100): distinct (galaxy, epoch) pairs keep every claim a 201. */
 const MAX_EPOCH = 100;
 const FILTER = 'r';
@@ -208,7 +212,11 @@ function stop(child: ChildProcess, ms: number): Promise<void> {
 
 // ─── HTTP ───
 
-const agent = new http.Agent({ keepAlive: true, maxSockets: 8 });
+// Enough sockets that a stalled server, not the driver's own pool, decides when a request is answered
+// (a queued request's timeout would only start once it had a socket).
+const agent = new http.Agent({ keepAlive: true, maxSockets: 64 });
+/** The upload is another person's request: its own connection, not one of the driver's. */
+const uploadAgent = new http.Agent({ keepAlive: false, maxSockets: 1 });
 
 /** POST JSON, or text as it is when `body` is `{ csv }` (sent as text/csv). */
 function postJson(url: string, token: string | null, body: unknown): Promise<{ status: number; body: unknown }> {
@@ -217,8 +225,12 @@ function postJson(url: string, token: string | null, body: unknown): Promise<{ s
 		const data = csv ?? JSON.stringify(body);
 		const headers: Record<string, string | number> = { 'content-type': csv === null ? 'application/json' : 'text/csv', 'content-length': Buffer.byteLength(data) };
 		if (token) headers.authorization = `Bearer ${token}`;
-		const req = http.request(url, { method: 'POST', agent, headers }, (res) => {
+		const req = http.request(url, { method: 'POST', agent: csv === null ? agent : uploadAgent, headers }, (res) => {
 			let text = '';
+			res.on('error', (e) => {
+				clearTimeout(timer);
+				reject(e);
+			});
 			res.setEncoding('utf8');
 			res.on('data', (c: string) => (text += c));
 			res.on('end', () => {
@@ -228,11 +240,16 @@ function postJson(url: string, token: string | null, body: unknown): Promise<{ s
 				} catch {
 					// Not JSON (an HTML error page): kept as text for the error message.
 				}
+				clearTimeout(timer);
 				resolve({ status: res.statusCode ?? 0, body: parsed });
 			});
 		});
-		req.setTimeout(csv === null ? HTTP_TIMEOUT_MS : UPLOAD_TIMEOUT_MS, () => req.destroy(new Error('request timed out')));
-		req.on('error', reject);
+		// Counted from the send, not from when a socket was free: a stalled server cannot hold the driver past it.
+		const timer = setTimeout(() => req.destroy(new Error('request timed out')), csv === null ? HTTP_TIMEOUT_MS : UPLOAD_TIMEOUT_MS);
+		req.on('error', (e) => {
+			clearTimeout(timer);
+			reject(e);
+		});
 		req.end(data);
 	});
 }
@@ -343,23 +360,41 @@ function loggedExpected(dbFile: string, room: string, afterSeq: number, sent: Se
 		logged.set(key, (logged.get(key) ?? 0) + 1);
 		const at = sentAt.get(key);
 		if (at === undefined && isDriverAction(r.action)) untraced++;
-		const group =
-			load === null
-				? 'all'
-				: uploadKeys.has(key)
-					? 'upload'
-					: at === undefined
-						? 'update'
-						: at < load.startedAtMs
-							? 'quiet'
-							: at <= load.endAtMs
-								? 'loaded'
-								: 'after';
-		expected.push({ key, seq: r.seq, sentAtMs: at ?? null, group });
+		const group = (): string => {
+			if (load === null) return 'all';
+			if (uploadKeys.has(key)) return 'upload';
+			// Logged without an answer naming it (a request that timed out): counted, never timed.
+			if (at === undefined) return isDriverAction(r.action) ? 'untraced' : 'update';
+			return at < load.startedAtMs ? 'quiet' : at <= load.endAtMs ? 'loaded' : 'after';
+		};
+		expected.push({ key, seq: r.seq, sentAtMs: at ?? null, group: group() });
 	}
 	let notLoggedOnce = 0;
 	for (const key of sentAt.keys()) if (logged.get(key) !== 1) notLoggedOnce++;
 	return { expected, notLoggedOnce, untraced };
+}
+
+/**
+ * Wait until the app answers a cheap read three times in a row within SETTLED_MS (a freshly started
+ * app with a 10⁶-galaxy catalogue may still be busy), at most SETTLE_MAX_MS; says how long it took.
+ */
+async function settled(url: string, token: string): Promise<void> {
+	const t0 = nowMs();
+	let good = 0;
+	while (good < 3 && nowMs() - t0 < SETTLE_MAX_MS) {
+		const t = nowMs();
+		const status = await new Promise<number>((resolve) => {
+			const req = http.get(url, { agent, headers: { authorization: `Bearer ${token}` } }, (res) => {
+				res.resume();
+				res.on('end', () => resolve(res.statusCode ?? 0));
+			});
+			req.setTimeout(HTTP_TIMEOUT_MS, () => req.destroy());
+			req.on('error', () => resolve(0));
+		});
+		good = status === 200 && nowMs() - t < SETTLED_MS ? good + 1 : 0;
+		if (good < 3) await new Promise((r) => setTimeout(r, 200));
+	}
+	process.stderr.write(`live bench: app ${good >= 3 ? 'settled' : 'NOT settled'} after ${((nowMs() - t0) / 1000).toFixed(1)} s (three reads under ${SETTLED_MS} ms)\n`);
 }
 
 /**
@@ -379,14 +414,22 @@ async function addedLoad(origin: string, w: AppWorld, broker: FakeBroker, dbFile
 		const out = a as { results: { observation: { id: string }; completedClaimIds: string[] }[] };
 		return out.results.flatMap((r) => [...r.completedClaimIds.map((id) => `claim.done|${id}`), `observation.reported|${r.observation.id}`]);
 	});
+	const since = (t: number) => `${((t - startedAtMs) / 1000).toFixed(1)} s`;
+	void upload.then((u) => process.stderr.write(`live bench: upload answered HTTP ${u.status} after ${since(u.sentAtMs + u.httpMs)}${u.error ? `: ${u.error}` : ''}\n`));
+	void publish.then((p) => process.stderr.write(`live bench: update notice ${p.ackedAtMs ? `acked after ${since(p.ackedAtMs)}` : `not acked: ${p.error}`}\n`));
 	const [up, pub] = await Promise.all([upload, publish]);
-	const deadline = nowMs() + UPDATE_WAIT_MS + MAIN_S * 1000;
+	const deadline = startedAtMs + MAIN_S * 1000 + UPDATE_WAIT_MS;
+	const said = new Set<number>();
 	let updateLogged: { action: string; atMs: number }[] = [];
 	let settled = false;
 	while (nowMs() < deadline) {
 		updateLogged = roomRows(dbFile, room, afterSeq)
 			.filter((r) => !isDriverAction(r.action) && r.createdAt >= startedAtMs - 1000)
 			.map((r) => ({ action: r.action, atMs: r.createdAt }));
+		updateLogged.forEach((u, k) => {
+			if (!said.has(k)) process.stderr.write(`live bench: ${u.action} logged after ${since(u.atMs)}\n`);
+			said.add(k);
+		});
 		settled = updateLogged.some((u) => u.action === 'targets.ranked' || u.action === 'skymap.failed');
 		if (settled || pub.error) break;
 		await new Promise((r) => setTimeout(r, 250));
@@ -415,7 +458,7 @@ interface PhaseSetup {
 	/** Called before the first action; returns what computes the expected messages afterwards. */
 	before: () => ExpectedOf;
 	/** Awaited once the clients are connected, before timing starts (e.g. the app subscribed to the broker). */
-	ready?: () => Promise<void>;
+	ready?: (origin: string) => Promise<void>;
 	/** Heavy work started at action `atAction` while the driver keeps its pace; awaited before the drain. */
 	load?: { atAction: number; run: (origin: string) => Promise<LoadOutcome> };
 }
@@ -430,6 +473,8 @@ async function phase(label: string, seconds: number, setup: PhaseSetup, children
 		await waitForLine(hub, setup.readyLine, 30_000, label);
 		for (let p = 0; p < CLIENT_PROCESSES; p++) {
 			const child = fork(join(HERE, 'clients.ts'), [], { cwd: ROOT, execArgv: ['--import', 'tsx'], stdio: ['ignore', 'inherit', 'inherit', 'ipc'] });
+			// A client killed by the watchdog must not crash the orchestrator on its next send.
+			child.on('error', (e) => process.stderr.write(`live bench: client process: ${e.message}\n`));
 			children.add(child);
 			clientProcs.push(child);
 		}
@@ -444,7 +489,7 @@ async function phase(label: string, seconds: number, setup: PhaseSetup, children
 		});
 		for (const m of await Promise.all(ready)) if (m.ev !== 'ready') throw new Error(`clients failed to connect: ${m.ev === 'failed' ? m.error : m.ev}`);
 		const connectMs = nowMs() - t0;
-		await setup.ready?.();
+		await setup.ready?.(origin);
 		// Let the presence burst of 300 joins settle before timing.
 		await new Promise((r) => setTimeout(r, 1000));
 
@@ -611,7 +656,7 @@ function addedLoadRows(r: PhaseResult, load: string): BenchResult[] {
 			strainlineMs: l.upload.httpMs,
 			note:
 				`HTTP ${l.upload.status}${l.upload.error ? ` ${l.upload.error}` : ''}; its ${upload.expected / CLIENTS} messages from the POST: p50 ${median(upload.latenciesMs).toFixed(0)} ms, ` +
-				`p99 ${percentile(upload.latenciesMs, 99).toFixed(0)} ms, ${lost(upload)}`
+				`p99 ${percentile(upload.latenciesMs, 99).toFixed(0)} ms, ${lost(upload)}; claim/observation messages logged for requests that timed out: ${g('untraced').expected / CLIENTS}, ${lost(g('untraced'))}`
 		}
 	];
 }
@@ -636,10 +681,10 @@ export async function run(): Promise<BenchResult[]> {
 		let mapBytes = 0;
 		if (ADDED_LOAD) {
 			const t1 = nowMs();
-			const map = flatMapFitsGz({ raDeg: world.notice.antiSunRaDeg, decDeg: -20, widthDeg: 3, object: world.notice.sourceId, dateObs: world.notice.eventTime.slice(0, 23) });
+			const map = flatMapFits({ raDeg: world.notice.antiSunRaDeg, decDeg: -20, widthDeg: 3, object: world.notice.sourceId, dateObs: world.notice.eventTime.slice(0, 23) });
 			mapBytes = map.length;
 			broker = await startBroker({ host: '127.0.0.1', vtpPort: 0, httpPort: 0, files: new Map([[FLAT_MAP_NAME, map]]), log: () => {} });
-			process.stderr.write(`live bench: flat nside-1024 map (${(map.length / 1e6).toFixed(1)} MB gzip) made in ${((nowMs() - t1) / 1000).toFixed(1)} s; broker on ${broker.httpBase}\n`);
+			process.stderr.write(`live bench: flat nside-1024 map (${(map.length / 1e6).toFixed(1)} MB) made in ${((nowMs() - t1) / 1000).toFixed(1)} s; broker on ${broker.httpBase}\n`);
 		}
 		const pairs = (RATE_PER_S * MAIN_S) / 2;
 		if (pairs > world.targets.length * MAX_EPOCH) throw new Error(`${pairs} claims need more than ${world.targets.length} galaxies × ${MAX_EPOCH} epochs`);
@@ -654,8 +699,8 @@ export async function run(): Promise<BenchResult[]> {
 			'app',
 			MAIN_S,
 			{
-				start: (port) =>
-					spawn(process.execPath, ['server.js'], {
+				start: (port) => {
+					const app = spawn(process.execPath, ['server.js'], {
 						cwd: ROOT,
 						stdio: ['ignore', 'pipe', 'inherit'],
 						env: {
@@ -667,10 +712,20 @@ export async function run(): Promise<BenchResult[]> {
 							STORAGE_DIR: storageDir,
 							VTP_BROKER: broker ? `127.0.0.1:${broker.vtpPort}` : '',
 							VTP_ARCHIVE_URL: broker ? broker.httpBase : '',
+							SKYMAP_MAX_MB: String(SKYMAP_MAX_MB),
 							FAKE_SMTP_PORT: '0',
 							SMTP_URL: ''
 						}
-					}),
+					});
+					// The app's own account of the notice it is sent (fetch, analysis, ranking), beside the figures.
+					let partial = '';
+					app.stdout!.on('data', (chunk: Buffer) => {
+						const lines = (partial + chunk.toString()).split('\n');
+						partial = lines.pop() ?? '';
+						for (const line of lines) if (/sky ?map|notice|rank|error|fail/i.test(line)) process.stderr.write(`live bench app: ${line.slice(0, 300)}\n`);
+					});
+					return app;
+				},
 				readyLine: 'Strainline listening on',
 				room,
 				tokens: world.listenerTokens,
@@ -679,9 +734,9 @@ export async function run(): Promise<BenchResult[]> {
 					afterSeq = latestSeq(dbFile);
 					return (sent, load) => loggedExpected(dbFile, room, afterSeq, sent, load);
 				},
-				ready: async () => {
-					if (!subscribed) return;
-					await Promise.race([subscribed, new Promise((_, reject) => setTimeout(() => reject(new Error('the app did not subscribe to the fake broker within 30 s')), 30_000))]);
+				ready: async (origin) => {
+					if (subscribed) await Promise.race([subscribed, new Promise((_, reject) => setTimeout(() => reject(new Error('the app did not subscribe to the fake broker within 30 s')), 30_000))]);
+					await settled(`${origin}/api/v1/events/${world.eventId}`, world.listenerTokens[0]);
 				},
 				load: broker ? { atAction: LOAD_AT_S * RATE_PER_S, run: (origin) => addedLoad(origin, world, broker!, dbFile, room, afterSeq) } : undefined
 			},
@@ -764,6 +819,7 @@ export async function run(): Promise<BenchResult[]> {
 		clearTimeout(watchdog);
 		await broker?.stop();
 		agent.destroy();
+		uploadAgent.destroy();
 		for (const c of children) c.kill('SIGKILL');
 		rmSync(dir, { recursive: true, force: true });
 	}

@@ -2,13 +2,12 @@
  * The heavy work the live benchmark adds in the middle of its main phase, the way it reaches a
  * running server:
  *  - an update notice for the bench event, published by the fake alert broker over VTP, whose sky
- *    map is a flat HEALPix map (RING, nside 1024, one float64 PROB column, gzip) served by the
+ *    map is a flat HEALPix map (RING, nside 1024, one float64 PROB column, 100 MB) served by the
  *    broker's HTTP server: the app fetches it, analyses it and re-ranks the event's galaxies;
  *  - a pointing CSV (`POST /api/v1/observations`, `text/csv`) from a demo observer, for a telescope
  *    the driver never claims with, every row a new pointing and one `observation.reported`.
  * Everything here is invented: the map is a Fisher (von Mises–Fisher) blob of our own.
  */
-import { gzipSync } from 'node:zlib';
 import { writeBinTable } from '../../../fake-alert-broker/fits.ts';
 import { buildNoticeXml } from '../../../fake-alert-broker/notices.ts';
 import { ringToAng } from '../../../src/lib/sky/coords.ts';
@@ -20,9 +19,12 @@ const DEG = Math.PI / 180;
 /**
  * A flat RING map at nside 2^FLAT_ORDER: probability per pixel of a Fisher distribution on the
  * sphere centred on (raDeg, decDeg), concentration κ = 1 / σ² with σ = widthDeg in radians
- * (density ∝ exp(κ (cos γ − 1)), γ the angle to the centre; Fisher 1953). Gzip, as alerts serve maps.
+ * (density ∝ exp(κ (cos γ − 1)), γ the angle to the centre; Fisher 1953). Uncompressed float64,
+ * as a flat map of that size usually is (its mantissas do not compress). Walks the map ring by
+ * ring: the pixels of a RING-ordered ring are equally spaced in φ (Górski et al. 2005, §4), so
+ * only each ring's first pixel needs `ringToAng`.
  */
-export function flatMapFitsGz(o: { raDeg: number; decDeg: number; widthDeg: number; object: string; dateObs: string }): Buffer {
+export function flatMapFits(o: { raDeg: number; decDeg: number; widthDeg: number; object: string; dateObs: string }): Buffer {
 	const nside = 2 ** FLAT_ORDER;
 	const npix = 12 * nside * nside;
 	const kappa = 1 / (o.widthDeg * DEG) ** 2;
@@ -31,16 +33,21 @@ export function flatMapFitsGz(o: { raDeg: number; decDeg: number; widthDeg: numb
 	const cz = Math.sin(o.decDeg * DEG);
 	const prob = new Float64Array(npix);
 	let sum = 0;
-	for (let i = 0; i < npix; i++) {
-		const { theta, phi } = ringToAng(FLAT_ORDER, i);
+	for (let ring = 1, first = 0; ring < 4 * nside; ring++) {
+		const count = 4 * Math.min(ring, nside, 4 * nside - ring);
+		const { theta, phi } = ringToAng(FLAT_ORDER, first);
 		const st = Math.sin(theta);
-		const cosGamma = st * Math.cos(phi) * cx + st * Math.sin(phi) * cy + Math.cos(theta) * cz;
-		const p = Math.exp(kappa * (cosGamma - 1));
-		prob[i] = p;
-		sum += p;
+		const ct = Math.cos(theta);
+		const step = (2 * Math.PI) / count;
+		for (let j = 0; j < count; j++) {
+			const p = Math.exp(kappa * (st * (Math.cos(phi + j * step) * cx + Math.sin(phi + j * step) * cy) + ct * cz - 1));
+			prob[first + j] = p;
+			sum += p;
+		}
+		first += count;
 	}
 	for (let i = 0; i < npix; i++) prob[i] /= sum;
-	const fits = writeBinTable(
+	return writeBinTable(
 		[{ name: 'PROB', format: 'D', unit: 'pix-1', data: prob }],
 		[
 			{ key: 'PIXTYPE', value: 'HEALPIX' },
@@ -53,7 +60,6 @@ export function flatMapFitsGz(o: { raDeg: number; decDeg: number; widthDeg: numb
 		],
 		'SKYMAP'
 	);
-	return gzipSync(fits, { level: 1 });
 }
 
 /** The update notice (VOEvent 2.0, as the fake broker writes them) superseding the bench event's notice. */
