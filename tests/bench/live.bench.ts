@@ -19,12 +19,24 @@
  * against the ids the HTTP responses returned. Per client, each expected message must arrive
  * exactly once, in seq order, with the logged seq, and nothing else may arrive in the room.
  *
+ * Added load (`live/added-load.ts`): before the app starts, a synthetic catalogue of 10⁶ galaxies
+ * is imported through the app's catalogue import and the event ranked against it. At LOAD_AT_S of
+ * the main phase, while the driver keeps its pace, the fake alert broker publishes an update notice
+ * for the event whose sky map is a flat nside-1024 map (100 MB, gzip) on the broker's HTTP server —
+ * the app fetches, analyses and re-ranks — and a demo observer POSTs a 9,000-row pointing CSV.
+ * The driver's messages are grouped by when their request left: before the load ("quiet", the
+ * reference for the loaded part in the same run), from the load's start until its last message was
+ * logged ("loaded"), and after. The update's and the upload's own messages are checked for loss
+ * too and reported apart (the upload's latency counts from the POST, so it includes the upload).
+ *
  * Reference in the same run: the same clients and driver against a bare socket.io server
  * (`live/bare-hub.ts`: no authentication, no database, no route), for 15 s at the same rate.
  *
  * Bounded: the app is built first when `build/` is older than the sources (callers hold the
- * shared build lock); after that a watchdog kills every child after 170 s. Connect timeout 30 s,
- * HTTP timeout 10 s, temporary database and storage. `LIVE_BENCH_SECONDS` shortens the main phase.
+ * shared build lock); once the world is ready a watchdog kills every child after 300 s. Connect
+ * timeout 30 s, HTTP timeout 10 s (240 s for the upload), temporary database and storage.
+ * `LIVE_BENCH_SECONDS` shortens the main phase; `LIVE_BENCH_CATALOG_ROWS=0` and
+ * `LIVE_BENCH_ADDED_LOAD=0` leave out the catalogue and the added load.
  */
 import { fork, spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import http from 'node:http';
@@ -34,7 +46,9 @@ import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import Database from 'better-sqlite3';
 import { median, type BenchResult } from './run.ts';
+import { startBroker, type FakeBroker } from '../../fake-alert-broker/broker.ts';
 import { prepareAppWorld, type AppWorld } from './live/app-world.ts';
+import { flatMapFits, pointingsCsv, updateNoticeXml } from './live/added-load.ts';
 import { freePort, keyOf, nowMs, percentile, type ClientReport, type DriveRequest, type ExpectedMessage, type FromClients, type ToClients } from './live/protocol.ts';
 
 const ROOT = fileURLToPath(new URL('../../', import.meta.url));
@@ -47,14 +61,28 @@ const REFERENCE_S = Math.min(15, MAIN_S);
 const CONNECT_TIMEOUT_MS = 30_000;
 const HTTP_TIMEOUT_MS = 10_000;
 const DRAIN_MS = 3000;
-const WATCHDOG_MS = 170_000;
+const WATCHDOG_MS = 480_000;
+const CATALOG_ROWS = Number(process.env.LIVE_BENCH_CATALOG_ROWS ?? 1_000_000);
+const ADDED_LOAD = process.env.LIVE_BENCH_ADDED_LOAD !== '0';
+/** Second of the main phase at which the update notice and the upload go out. */
+const LOAD_AT_S = Math.min(20, Math.floor(MAIN_S / 3));
+const CSV_ROWS = 9000;
+const UPLOAD_TIMEOUT_MS = 240_000;
+const SETTLED_MS = 100;
+const SETTLE_MAX_MS = 60_000;
+/** How long after the driver's last request the update may still take to be ranked. */
+const UPDATE_WAIT_MS = 90_000;
+/** The flat map's file on the broker's HTTP server. */
+const FLAT_MAP_NAME = 'bench-update.flat.fits';
+/** The app's sky-map size cap for the main phase, MB: the default (64) refuses a 100 MB flat nside-1024 map. */
+const SKYMAP_MAX_MB = 128;
 /** Epochs a claim may carry (the route accepts 1–100): distinct (galaxy, epoch) pairs keep every claim a 201. */
 const MAX_EPOCH = 100;
 const FILTER = 'r';
 
 /** One request of the driver: when it left, how long its answer took, and the live messages it names. */
 interface Sent {
-	kind: 'claim' | 'observation' | 'bench';
+	kind: 'claim' | 'observation' | 'bench' | 'upload';
 	sentAtMs: number;
 	httpMs: number;
 	status: number;
@@ -87,6 +115,23 @@ interface PhaseResult {
 	hubCpuS: number;
 	/** Wall seconds of the timed part (first request → last answer). */
 	wallS: number;
+	/** Per group of expected messages (quiet / loaded / after / upload / update; 'all' without load). */
+	groups: Record<string, { latenciesMs: number[]; lost: number; expected: number }>;
+	load: LoadOutcome | null;
+}
+
+/** What the added load did, on the wall clock of the driver. */
+interface LoadOutcome {
+	startedAtMs: number;
+	upload: Sent;
+	uploadRows: number;
+	publish: { ackedAtMs: number | null; error?: string };
+	/** Logged times (event_log.created_at) of the update's messages in the event room, by action. */
+	updateLogged: { action: string; atMs: number }[];
+	/** End of the loaded window: the upload's answer or the update's last logged message, the later. */
+	endAtMs: number;
+	/** Whether the update's ranking (or a failure) was logged before the bench stopped waiting. */
+	settled: boolean;
 }
 
 // ─── Build and processes ───
@@ -167,15 +212,25 @@ export function stop(child: ChildProcess, ms: number): Promise<void> {
 
 // ─── HTTP ───
 
-const agent = new http.Agent({ keepAlive: true, maxSockets: 8 });
+// Enough sockets that a stalled server, not the driver's own pool, decides when a request is answered
+// (a queued request's timeout would only start once it had a socket).
+const agent = new http.Agent({ keepAlive: true, maxSockets: 64 });
+/** The upload is another person's request: its own connection, not one of the driver's. */
+const uploadAgent = new http.Agent({ keepAlive: false, maxSockets: 1 });
 
+/** POST JSON, or text as it is when `body` is `{ csv }` (sent as text/csv). */
 function postJson(url: string, token: string | null, body: unknown): Promise<{ status: number; body: unknown }> {
 	return new Promise((resolve, reject) => {
-		const data = JSON.stringify(body);
-		const headers: Record<string, string | number> = { 'content-type': 'application/json', 'content-length': Buffer.byteLength(data) };
+		const csv = typeof body === 'object' && body !== null && 'csv' in body ? String((body as { csv: string }).csv) : null;
+		const data = csv ?? JSON.stringify(body);
+		const headers: Record<string, string | number> = { 'content-type': csv === null ? 'application/json' : 'text/csv', 'content-length': Buffer.byteLength(data) };
 		if (token) headers.authorization = `Bearer ${token}`;
-		const req = http.request(url, { method: 'POST', agent, headers }, (res) => {
+		const req = http.request(url, { method: 'POST', agent: csv === null ? agent : uploadAgent, headers }, (res) => {
 			let text = '';
+			res.on('error', (e) => {
+				clearTimeout(timer);
+				reject(e);
+			});
 			res.setEncoding('utf8');
 			res.on('data', (c: string) => (text += c));
 			res.on('end', () => {
@@ -185,11 +240,16 @@ function postJson(url: string, token: string | null, body: unknown): Promise<{ s
 				} catch {
 					// Not JSON (an HTML error page): kept as text for the error message.
 				}
+				clearTimeout(timer);
 				resolve({ status: res.statusCode ?? 0, body: parsed });
 			});
 		});
-		req.setTimeout(HTTP_TIMEOUT_MS, () => req.destroy(new Error('request timed out')));
-		req.on('error', reject);
+		// Counted from the send, not from when a socket was free: a stalled server cannot hold the driver past it.
+		const timer = setTimeout(() => req.destroy(new Error('request timed out')), csv === null ? HTTP_TIMEOUT_MS : UPLOAD_TIMEOUT_MS);
+		req.on('error', (e) => {
+			clearTimeout(timer);
+			reject(e);
+		});
 		req.end(data);
 	});
 }
@@ -201,7 +261,7 @@ async function timed(kind: Sent['kind'], url: string, token: string | null, body
 		const r = await postJson(url, token, body);
 		const httpMs = nowMs() - sentAtMs;
 		const ok = kind === 'bench' ? r.status === 200 : r.status === 201;
-		if (!ok) return { kind, sentAtMs, httpMs, status: r.status, keys: [], completed: 0, error: JSON.stringify(r.body).slice(0, 200) };
+		if (!ok) return { kind, sentAtMs, httpMs, status: r.status, keys: [], completed: 0, error: JSON.stringify(r.body).slice(0, 300) };
 		const keys = keysOf(r.body);
 		return { kind, sentAtMs, httpMs, status: r.status, keys, completed: kind === 'observation' ? keys.length - 1 : 0, answer: r.body };
 	} catch (e) {
@@ -262,30 +322,120 @@ function bareExpected(sent: Sent[]): { expected: ExpectedMessage[]; notLoggedOnc
 	return { expected, notLoggedOnce: 0, untraced: 0 };
 }
 
-/** Expected messages of the app phase: the room's event-log rows after `afterSeq`, traced to the requests. */
-function loggedExpected(dbFile: string, room: string, afterSeq: number, sent: Sent[]): { expected: ExpectedMessage[]; notLoggedOnce: number; untraced: number } {
+type ExpectedOf = (sent: Sent[], load: LoadOutcome | null) => { expected: ExpectedMessage[]; notLoggedOnce: number; untraced: number };
+
+/** A claim or observation message no request of the driver or the upload names is a failure; anything else the load caused. */
+const isDriverAction = (action: string) => /^(claim|observation)\./.test(action);
+
+interface LogRow {
+	seq: number;
+	action: string;
+	payload: string;
+	createdAt: number;
+}
+
+function roomRows(dbFile: string, room: string, afterSeq: number): LogRow[] {
 	const sqlite = new Database(dbFile, { readonly: true, fileMustExist: true });
-	let rows: { seq: number; action: string; payload: string }[];
 	try {
-		rows = sqlite.prepare('SELECT seq, action, payload FROM event_log WHERE room = ? AND seq > ? ORDER BY seq').all(room, afterSeq) as typeof rows;
+		return sqlite.prepare('SELECT seq, action, payload, created_at AS createdAt FROM event_log WHERE room = ? AND seq > ? ORDER BY seq').all(room, afterSeq) as LogRow[];
 	} finally {
 		sqlite.close();
 	}
+}
+
+/**
+ * Expected messages of the app phase: the room's event-log rows after `afterSeq`, traced to the
+ * requests, and grouped by the added load's window when there was one.
+ */
+function loggedExpected(dbFile: string, room: string, afterSeq: number, sent: Sent[], load: LoadOutcome | null): ReturnType<ExpectedOf> {
+	const rows = roomRows(dbFile, room, afterSeq);
 	const sentAt = new Map<string, number>();
-	for (const s of sent) for (const key of s.keys) sentAt.set(key, s.sentAtMs);
+	for (const s of [...sent, ...(load ? [load.upload] : [])]) for (const key of s.keys) sentAt.set(key, s.sentAtMs);
+	const uploadKeys = new Set(load?.upload.keys ?? []);
 	const logged = new Map<string, number>();
 	let untraced = 0;
 	const expected: ExpectedMessage[] = [];
 	for (const r of rows) {
-		const key = keyOf(r.action, JSON.parse(r.payload) as Record<string, unknown>) ?? `untraceable|${r.seq}`;
+		const key = keyOf(r.action, JSON.parse(r.payload) as Record<string, unknown>, r.seq) ?? `untraceable|${r.seq}`;
 		logged.set(key, (logged.get(key) ?? 0) + 1);
 		const at = sentAt.get(key);
-		if (at === undefined) untraced++;
-		expected.push({ key, seq: r.seq, sentAtMs: at ?? null });
+		if (at === undefined && isDriverAction(r.action)) untraced++;
+		const group = (): string => {
+			if (load === null) return 'all';
+			if (uploadKeys.has(key)) return 'upload';
+			// Logged without an answer naming it (a request that timed out): counted, never timed.
+			if (at === undefined) return isDriverAction(r.action) ? 'untraced' : 'update';
+			return at < load.startedAtMs ? 'quiet' : at <= load.endAtMs ? 'loaded' : 'after';
+		};
+		expected.push({ key, seq: r.seq, sentAtMs: at ?? null, group: group() });
 	}
 	let notLoggedOnce = 0;
 	for (const key of sentAt.keys()) if (logged.get(key) !== 1) notLoggedOnce++;
 	return { expected, notLoggedOnce, untraced };
+}
+
+/**
+ * Wait until the app answers a cheap read three times in a row within SETTLED_MS (a freshly started
+ * app with a 10⁶-galaxy catalogue may still be busy), at most SETTLE_MAX_MS; says how long it took.
+ */
+async function settled(url: string, token: string): Promise<void> {
+	const t0 = nowMs();
+	let good = 0;
+	while (good < 3 && nowMs() - t0 < SETTLE_MAX_MS) {
+		const t = nowMs();
+		const status = await new Promise<number>((resolve) => {
+			const req = http.get(url, { agent, headers: { authorization: `Bearer ${token}` } }, (res) => {
+				res.resume();
+				res.on('end', () => resolve(res.statusCode ?? 0));
+			});
+			req.setTimeout(HTTP_TIMEOUT_MS, () => req.destroy());
+			req.on('error', () => resolve(0));
+		});
+		good = status === 200 && nowMs() - t < SETTLED_MS ? good + 1 : 0;
+		if (good < 3) await new Promise((r) => setTimeout(r, 200));
+	}
+	process.stderr.write(`live bench: app ${good >= 3 ? 'settled' : 'NOT settled'} after ${((nowMs() - t0) / 1000).toFixed(1)} s (three reads under ${SETTLED_MS} ms)\n`);
+}
+
+/**
+ * Start the added load: publish the update notice and POST the pointing CSV at once, then wait
+ * until the upload has answered and the update's ranking (or its failure) is logged in the room.
+ */
+async function addedLoad(origin: string, w: AppWorld, broker: FakeBroker, dbFile: string, room: string, afterSeq: number): Promise<LoadOutcome> {
+	const centre = { raDeg: w.notice.antiSunRaDeg, decDeg: -20 };
+	const csv = pointingsCsv(w, CSV_ROWS, centre);
+	const xml = updateNoticeXml(w, `${broker.httpBase}/skymaps/${FLAT_MAP_NAME}`);
+	const startedAtMs = nowMs();
+	const publish = broker.publish(xml).then(
+		(r) => (r.acked > 0 ? { ackedAtMs: nowMs() } : { ackedAtMs: null, error: `published to ${r.delivered} subscriber(s), acked by ${r.acked}` }),
+		(e: Error) => ({ ackedAtMs: null, error: e.message })
+	);
+	const upload = timed('upload', `${origin}/api/v1/observations?eventId=${encodeURIComponent(w.eventId)}&telescopeId=${encodeURIComponent(w.uploader.telescope.id)}`, w.uploader.token, { csv }, (a) => {
+		const out = a as { results: { observation: { id: string }; completedClaimIds: string[] }[] };
+		return out.results.flatMap((r) => [...r.completedClaimIds.map((id) => `claim.done|${id}`), `observation.reported|${r.observation.id}`]);
+	});
+	const since = (t: number) => `${((t - startedAtMs) / 1000).toFixed(1)} s`;
+	void upload.then((u) => process.stderr.write(`live bench: upload answered HTTP ${u.status} after ${since(u.sentAtMs + u.httpMs)}${u.error ? `: ${u.error}` : ''}\n`));
+	void publish.then((p) => process.stderr.write(`live bench: update notice ${p.ackedAtMs ? `acked after ${since(p.ackedAtMs)}` : `not acked: ${p.error}`}\n`));
+	const [up, pub] = await Promise.all([upload, publish]);
+	const deadline = startedAtMs + MAIN_S * 1000 + UPDATE_WAIT_MS;
+	const said = new Set<number>();
+	let updateLogged: { action: string; atMs: number }[] = [];
+	let settled = false;
+	while (nowMs() < deadline) {
+		updateLogged = roomRows(dbFile, room, afterSeq)
+			.filter((r) => !isDriverAction(r.action) && r.createdAt >= startedAtMs - 1000)
+			.map((r) => ({ action: r.action, atMs: r.createdAt }));
+		updateLogged.forEach((u, k) => {
+			if (!said.has(k)) process.stderr.write(`live bench: ${u.action} logged after ${since(u.atMs)}\n`);
+			said.add(k);
+		});
+		settled = updateLogged.some((u) => u.action === 'targets.ranked' || u.action === 'skymap.failed');
+		if (settled || pub.error) break;
+		await new Promise((r) => setTimeout(r, 250));
+	}
+	const endAtMs = Math.max(up.sentAtMs + up.httpMs, ...updateLogged.map((u) => u.atMs));
+	return { startedAtMs, upload: up, uploadRows: CSV_ROWS, publish: pub, updateLogged, endAtMs, settled };
 }
 
 function latestSeq(dbFile: string): number {
@@ -306,7 +456,11 @@ interface PhaseSetup {
 	tokens: string[];
 	driver: (origin: string) => Driver;
 	/** Called before the first action; returns what computes the expected messages afterwards. */
-	before: () => (sent: Sent[]) => { expected: ExpectedMessage[]; notLoggedOnce: number; untraced: number };
+	before: () => ExpectedOf;
+	/** Awaited once the clients are connected, before timing starts (e.g. the app subscribed to the broker). */
+	ready?: (origin: string) => Promise<void>;
+	/** Heavy work started at action `atAction` while the driver keeps its pace; awaited before the drain. */
+	load?: { atAction: number; run: (origin: string) => Promise<LoadOutcome> };
 }
 
 async function phase(label: string, seconds: number, setup: PhaseSetup, children: Set<ChildProcess>): Promise<PhaseResult> {
@@ -319,6 +473,8 @@ async function phase(label: string, seconds: number, setup: PhaseSetup, children
 		await waitForLine(hub, setup.readyLine, 30_000, label);
 		for (let p = 0; p < CLIENT_PROCESSES; p++) {
 			const child = fork(join(HERE, 'clients.ts'), [], { cwd: ROOT, execArgv: ['--import', 'tsx'], stdio: ['ignore', 'inherit', 'inherit', 'ipc'] });
+			// A client killed by the watchdog must not crash the orchestrator on its next send.
+			child.on('error', (e) => process.stderr.write(`live bench: client process: ${e.message}\n`));
 			children.add(child);
 			clientProcs.push(child);
 		}
@@ -333,6 +489,7 @@ async function phase(label: string, seconds: number, setup: PhaseSetup, children
 		});
 		for (const m of await Promise.all(ready)) if (m.ev !== 'ready') throw new Error(`clients failed to connect: ${m.ev === 'failed' ? m.error : m.ev}`);
 		const connectMs = nowMs() - t0;
+		await setup.ready?.(origin);
 		// Let the presence burst of 300 joins settle before timing.
 		await new Promise((r) => setTimeout(r, 1000));
 
@@ -343,16 +500,19 @@ async function phase(label: string, seconds: number, setup: PhaseSetup, children
 		const pending: Promise<Sent>[] = [];
 		const cpu0 = cpuSeconds(hub.pid);
 		const start = nowMs() + 50;
+		let loading: Promise<LoadOutcome> | null = null;
 		for (let k = 0; k < total; k++) {
 			const wait = start + k * intervalMs - nowMs();
 			if (wait > 0) await new Promise((r) => setTimeout(r, wait));
+			if (setup.load && k === setup.load.atAction) loading = setup.load.run(origin);
 			pending.push(drive(k));
 		}
 		const sent = await Promise.all(pending);
+		const load = loading ? await loading : null;
 		const wallS = (nowMs() - start) / 1000;
 		const hubCpuS = cpuSeconds(hub.pid) - cpu0;
 		await new Promise((r) => setTimeout(r, DRAIN_MS));
-		const { expected, notLoggedOnce, untraced } = expectedOf(sent);
+		const { expected, notLoggedOnce, untraced } = expectedOf(sent, load);
 
 		const reports = await Promise.all(
 			clientProcs.map(async (c) => {
@@ -364,6 +524,14 @@ async function phase(label: string, seconds: number, setup: PhaseSetup, children
 			})
 		);
 		const sum = (f: (r: ClientReport) => number) => reports.reduce((n, r) => n + f(r), 0);
+		const groups: PhaseResult['groups'] = {};
+		for (const r of reports)
+			for (const [name, g] of Object.entries(r.groups)) {
+				const into = (groups[name] ??= { latenciesMs: [], lost: 0, expected: 0 });
+				into.latenciesMs.push(...g.latenciesMs);
+				into.lost += g.lost;
+				into.expected += g.expected;
+			}
 		return {
 			latenciesMs: reports.flatMap((r) => r.latenciesMs),
 			expected: expected.length,
@@ -381,7 +549,9 @@ async function phase(label: string, seconds: number, setup: PhaseSetup, children
 			maxClientLagMs: reports.reduce((m, r) => Math.max(m, r.maxLoopLagMs), 0),
 			connectMs,
 			hubCpuS,
-			wallS
+			wallS,
+			groups,
+			load
 		};
 	} finally {
 		for (const c of clientProcs) {
@@ -437,33 +607,100 @@ function checkPhase(name: string, r: PhaseResult): void {
 	}
 }
 
+/** The loaded window against the quiet part of the same run, and what the added load itself took. */
+function addedLoadRows(r: PhaseResult, load: string): BenchResult[] {
+	const l = r.load;
+	if (!l) return [];
+	const g = (name: string) => r.groups[name] ?? { latenciesMs: [], lost: 0, expected: 0 };
+	const quiet = g('quiet');
+	const loaded = g('loaded');
+	const after = g('after');
+	const upload = g('upload');
+	const update = g('update');
+	const reference = 'same run, before the load (quiet)';
+	const windowS = (l.endAtMs - l.startedAtMs) / 1000;
+	const lost = (x: { lost: number; expected: number }) => `lost ${x.lost} of ${x.expected}`;
+	const p99 = percentile(loaded.latenciesMs, 99);
+	const at = (action: string) => {
+		const u = l.updateLogged.find((x) => x.action === action);
+		return u ? `${((u.atMs - l.startedAtMs) / 1000).toFixed(1)} s` : 'not logged';
+	};
+	return [
+		{
+			suite: 'live',
+			name: 'added load: broadcast latency p50, loaded window',
+			strainlineMs: median(loaded.latenciesMs),
+			referenceMs: median(quiet.latenciesMs),
+			reference,
+			note: `window ${windowS.toFixed(1)} s from ${LOAD_AT_S} s; loaded ${lost(loaded)}, quiet ${lost(quiet)}, after ${lost(after)} (p99 after ${percentile(after.latenciesMs, 99).toFixed(1)} ms)`
+		},
+		{
+			suite: 'live',
+			name: 'added load: broadcast latency p99, loaded window',
+			strainlineMs: p99,
+			referenceMs: percentile(quiet.latenciesMs, 99),
+			reference,
+			note: `goal < 150 ms with none lost: ${p99 < 150 && loaded.lost === 0 ? 'met' : 'NOT met'}; max ${percentile(loaded.latenciesMs, 100).toFixed(1)} ms; load ${load}`
+		},
+		{
+			suite: 'live',
+			name: `added load: update notice, flat nside-1024 map → ranked`,
+			strainlineMs: l.updateLogged.find((x) => x.action === 'targets.ranked') ? l.updateLogged.find((x) => x.action === 'targets.ranked')!.atMs - l.startedAtMs : NaN,
+			note:
+				`acked ${l.publish.ackedAtMs ? `${((l.publish.ackedAtMs - l.startedAtMs) / 1000).toFixed(1)} s` : `no (${l.publish.error})`}; skymap.analysed ${at('skymap.analysed')}, ` +
+				`targets.ranked ${at('targets.ranked')}${at('skymap.failed') !== 'not logged' ? `, skymap.failed ${at('skymap.failed')}` : ''}; its ${update.expected / CLIENTS} room messages ${lost(update)}`
+		},
+		{
+			suite: 'live',
+			name: `added load: ${l.uploadRows.toLocaleString('en')}-row pointing CSV, HTTP`,
+			strainlineMs: l.upload.httpMs,
+			note:
+				`HTTP ${l.upload.status}${l.upload.error ? ` ${l.upload.error}` : ''}; its ${upload.expected / CLIENTS} messages from the POST: p50 ${median(upload.latenciesMs).toFixed(0)} ms, ` +
+				`p99 ${percentile(upload.latenciesMs, 99).toFixed(0)} ms, ${lost(upload)}; claim/observation messages logged for requests that timed out: ${g('untraced').expected / CLIENTS}, ${lost(g('untraced'))}`
+		}
+	];
+}
+
 export async function run(): Promise<BenchResult[]> {
 	ensureBuilt();
 	const dir = mkdtempSync(join(tmpdir(), 'strainline-live-bench-'));
 	const children = new Set<ChildProcess>();
-	const watchdog = setTimeout(() => {
-		process.stderr.write(`live bench: watchdog after ${WATCHDOG_MS} ms, stopping every child\n`);
-		for (const c of children) c.kill('SIGKILL');
-	}, WATCHDOG_MS);
-	watchdog.unref();
+	let watchdog: NodeJS.Timeout | undefined;
+	let broker: FakeBroker | null = null;
 	try {
 		const dbFile = join(dir, 'bench.sqlite');
 		const storageDir = join(dir, 'files');
 		const t0 = nowMs();
-		const world = await prepareAppWorld(ROOT, dbFile, storageDir);
+		const world = await prepareAppWorld(ROOT, dbFile, storageDir, { catalogRows: CATALOG_ROWS });
+		const worldS = (nowMs() - t0) / 1000;
+		watchdog = setTimeout(() => {
+			process.stderr.write(`live bench: watchdog after ${WATCHDOG_MS} ms, stopping every child\n`);
+			for (const c of children) c.kill('SIGKILL');
+		}, WATCHDOG_MS);
+		watchdog.unref();
+		let mapBytes = 0;
+		if (ADDED_LOAD) {
+			const t1 = nowMs();
+			const map = flatMapFits({ raDeg: world.notice.antiSunRaDeg, decDeg: -20, widthDeg: 3, object: world.notice.sourceId, dateObs: world.notice.eventTime.slice(0, 23) });
+			mapBytes = map.length;
+			broker = await startBroker({ host: '127.0.0.1', vtpPort: 0, httpPort: 0, files: new Map([[FLAT_MAP_NAME, map]]), log: () => {} });
+			process.stderr.write(`live bench: flat nside-1024 map (${(map.length / 1e6).toFixed(1)} MB) made in ${((nowMs() - t1) / 1000).toFixed(1)} s; broker on ${broker.httpBase}\n`);
+		}
 		const pairs = (RATE_PER_S * MAIN_S) / 2;
 		if (pairs > world.targets.length * MAX_EPOCH) throw new Error(`${pairs} claims need more than ${world.targets.length} galaxies × ${MAX_EPOCH} epochs`);
 		process.stderr.write(
-			`live bench: event ${world.eventId} with ${world.targets.length} ranked galaxies ready in ${((nowMs() - t0) / 1000).toFixed(1)} s; ` +
+			`live bench: event ${world.eventId} with ${world.targets.length} ranked galaxies of ${world.catalogGalaxies.toLocaleString('en')} ready in ${worldS.toFixed(1)} s; ` +
 				`${CLIENTS} clients × ${RATE_PER_S} actions/s × ${MAIN_S} s on the app's routes…\n`
 		);
 		const room = `event:${world.eventId}`;
+		let afterSeq = 0;
+		const subscribed = broker ? new Promise<void>((resolve) => broker!.once('subscribe', () => resolve())) : null;
 		const ours = await phase(
 			'app',
 			MAIN_S,
 			{
-				start: (port) =>
-					spawn(process.execPath, ['server.js'], {
+				start: (port) => {
+					const app = spawn(process.execPath, ['server.js'], {
 						cwd: ROOT,
 						stdio: ['ignore', 'pipe', 'inherit'],
 						env: {
@@ -473,20 +710,35 @@ export async function run(): Promise<BenchResult[]> {
 							ORIGIN: `http://127.0.0.1:${port}`,
 							DATABASE_URL: dbFile,
 							STORAGE_DIR: storageDir,
-							VTP_BROKER: '',
-							VTP_ARCHIVE_URL: '',
+							VTP_BROKER: broker ? `127.0.0.1:${broker.vtpPort}` : '',
+							VTP_ARCHIVE_URL: broker ? broker.httpBase : '',
+							SKYMAP_MAX_MB: String(SKYMAP_MAX_MB),
 							FAKE_SMTP_PORT: '0',
 							SMTP_URL: ''
 						}
-					}),
+					});
+					// The app's own account of the notice it is sent (fetch, analysis, ranking), beside the figures.
+					let partial = '';
+					app.stdout!.on('data', (chunk: Buffer) => {
+						const lines = (partial + chunk.toString()).split('\n');
+						partial = lines.pop() ?? '';
+						for (const line of lines) if (/sky ?map|notice|rank|error|fail/i.test(line)) process.stderr.write(`live bench app: ${line.slice(0, 300)}\n`);
+					});
+					return app;
+				},
 				readyLine: 'Strainline listening on',
 				room,
 				tokens: world.listenerTokens,
 				driver: (origin) => appDriver(origin, world),
 				before: () => {
-					const afterSeq = latestSeq(dbFile);
-					return (sent) => loggedExpected(dbFile, room, afterSeq, sent);
-				}
+					afterSeq = latestSeq(dbFile);
+					return (sent, load) => loggedExpected(dbFile, room, afterSeq, sent, load);
+				},
+				ready: async (origin) => {
+					if (subscribed) await Promise.race([subscribed, new Promise((_, reject) => setTimeout(() => reject(new Error('the app did not subscribe to the fake broker within 30 s')), 30_000))]);
+					await settled(`${origin}/api/v1/events/${world.eventId}`, world.listenerTokens[0]);
+				},
+				load: broker ? { atAction: LOAD_AT_S * RATE_PER_S, run: (origin) => addedLoad(origin, world, broker!, dbFile, room, afterSeq) } : undefined
 			},
 			children
 		);
@@ -521,13 +773,20 @@ export async function run(): Promise<BenchResult[]> {
 			);
 			checkPhase(name, r);
 		}
+		const l = ours.load;
+		if (l && (l.upload.error || l.publish.error || !l.settled || l.updateLogged.some((u) => u.action === 'skymap.failed'))) {
+			process.stderr.write(`live bench: ADDED LOAD INCOMPLETE: upload ${l.upload.error ?? 'ok'}; publish ${l.publish.error ?? 'ok'}; update ${l.settled ? 'settled' : 'not ranked in time'}; logged ${l.updateLogged.map((u) => u.action).join(', ')}\n`);
+			process.exitCode = 1;
+		}
 		const reference = `bare socket.io (no auth, DB, route), ${REFERENCE_S} s`;
-		const p99 = percentile(ours.latenciesMs, 99);
+		// The driver's own messages (the upload's are timed from its POST and reported apart).
+		const driverLatencies = ['all', 'quiet', 'loaded', 'after'].flatMap((g) => ours.groups[g]?.latenciesMs ?? []);
+		const p99 = percentile(driverLatencies, 99);
 		const run = `${CLIENTS} clients, ${RATE_PER_S} actions/s, ${MAIN_S} s`;
 		const actions = `${claims.length} claims + ${observations.length} observations → ${ours.expected} messages`;
 		return [
-			{ suite: 'live', name: `${run}: broadcast latency p50`, strainlineMs: median(ours.latenciesMs), referenceMs: median(bare.latenciesMs), reference, note: describe(ours) },
-			{ suite: 'live', name: `${run}: broadcast latency p95`, strainlineMs: percentile(ours.latenciesMs, 95), referenceMs: percentile(bare.latenciesMs, 95), reference, note: actions },
+			{ suite: 'live', name: `${run}: broadcast latency p50`, strainlineMs: median(driverLatencies), referenceMs: median(bare.latenciesMs), reference, note: describe(ours) },
+			{ suite: 'live', name: `${run}: broadcast latency p95`, strainlineMs: percentile(driverLatencies, 95), referenceMs: percentile(bare.latenciesMs, 95), reference, note: actions },
 			{
 				suite: 'live',
 				name: `${run}: broadcast latency p99`,
@@ -553,11 +812,14 @@ export async function run(): Promise<BenchResult[]> {
 				referenceMs: percentile(refPost, 99),
 				reference: 'bare POST, p99',
 				note: `max ${percentile(observations, 100).toFixed(1)} ms; ${cpus().length} cores, load ${load}`
-			}
+			},
+			...addedLoadRows(ours, load)
 		];
 	} finally {
 		clearTimeout(watchdog);
+		await broker?.stop();
 		agent.destroy();
+		uploadAgent.destroy();
 		for (const c of children) c.kill('SIGKILL');
 		rmSync(dir, { recursive: true, force: true });
 	}

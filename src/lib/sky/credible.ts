@@ -77,7 +77,18 @@ function histogram(a: MassAccess, pass: number, candidates: Uint32Array | null):
 	const count = new Uint32Array(BUCKETS);
 	const { density, bits, order, areas, uniformArea } = a;
 	const n = candidates ? candidates.length : density.length;
-	if (order === null) {
+	if (order === null && candidates === null) {
+		// The whole flat map, the pass over every pixel: the top 16 bits only, read in stride.
+		for (let i = 0, w = HI; i < n; i++, w += 2) {
+			const key = bits[w] >>> 16;
+			mass[key] += density[i];
+			count[key]++;
+		}
+		for (let b = 0; b < BUCKETS; b++) {
+			mass[b] *= uniformArea;
+			area[b] = count[b] * uniformArea;
+		}
+	} else if (order === null) {
 		// Flat map: accumulate density, scale by the common pixel area afterwards.
 		for (let k = 0; k < n; k++) {
 			const i = candidates ? candidates[k] : k;
@@ -102,43 +113,73 @@ function histogram(a: MassAccess, pass: number, candidates: Uint32Array | null):
 	return { mass, area, count };
 }
 
-function select(a: MassAccess, level: number, top: Histogram, total: number): CredibleRegion {
-	const target = level * total;
-	let massAbove = 0;
-	let areaAbove = 0;
-	let countAbove = 0;
-	let candidates: Uint32Array | null = null;
-	let hist = top;
-	for (let pass = 0; pass < 4; pass++) {
-		// Bucket 0 of pass 0 holds the zero-density pixels; they never raise the sum.
-		let b = BUCKETS - 1;
-		for (; b >= 0; b--) {
-			if (massAbove + hist.mass[b] >= target && hist.count[b] > 0) break;
-			massAbove += hist.mass[b];
-			areaAbove += hist.area[b];
-			countAbove += hist.count[b];
-		}
-		if (b < 0) {
-			// Rounding left the target just out of reach: the region is every pixel with probability.
-			return finish(level, areaAbove, countAbove, lowestPositive(a));
-		}
-		const next = new Uint32Array(hist.count[b]);
-		let m = 0;
-		const n = candidates ? candidates.length : a.density.length;
-		for (let k = 0; k < n; k++) {
-			const i = candidates ? candidates[k] : k;
-			if (keyAt(a.bits, i, pass) === b) next[m++] = i;
-		}
-		candidates = next;
-		if (candidates.length <= SORT_BELOW || pass === 3) break;
-		hist = histogram(a, pass + 1, candidates);
+/** Running totals of the pixels already known to lie above the crossing bucket. */
+interface Above {
+	mass: number;
+	area: number;
+	count: number;
+}
+
+/**
+ * The bucket of `hist` in which the running sum, densest bucket first, reaches `target`, with the
+ * totals of the buckets above it added to `above`; −1 when rounding leaves the target out of reach.
+ */
+function crossing(hist: Histogram, target: number, above: Above): number {
+	// Bucket 0 of pass 0 holds the zero-density pixels; they never raise the sum.
+	for (let b = BUCKETS - 1; b >= 0; b--) {
+		if (above.mass + hist.mass[b] >= target && hist.count[b] > 0) return b;
+		above.mass += hist.mass[b];
+		above.area += hist.area[b];
+		above.count += hist.count[b];
 	}
-	const c = Array.from(candidates!);
+	return -1;
+}
+
+/** Pixels among `candidates` whose 16-bit key of `pass` is `bucket`. */
+function pick(a: MassAccess, candidates: Uint32Array, pass: number, bucket: number, size: number): Uint32Array {
+	const next = new Uint32Array(size);
+	let m = 0;
+	for (let k = 0; k < candidates.length; k++) {
+		const i = candidates[k];
+		if (keyAt(a.bits, i, pass) === bucket) next[m++] = i;
+	}
+	return next;
+}
+
+/**
+ * One pass over the whole map collecting, for each distinct pass-0 bucket in `buckets`, the
+ * pixels that fall in it (every level's crossing bucket in a single sweep).
+ */
+function pickTop(a: MassAccess, buckets: number[], top: Histogram): Map<number, Uint32Array> {
+	const distinct = [...new Set(buckets.filter((b) => b >= 0))];
+	const lists = distinct.map((b) => new Uint32Array(top.count[b]));
+	const fill = new Uint32Array(distinct.length);
+	const slot = new Int32Array(BUCKETS).fill(-1);
+	distinct.forEach((b, s) => (slot[b] = s));
+	const bits = a.bits;
+	const n = a.density.length;
+	for (let i = 0, w = HI; i < n; i++, w += 2) {
+		const s = slot[bits[w] >>> 16];
+		if (s >= 0) lists[s][fill[s]++] = i;
+	}
+	return new Map(distinct.map((b, s) => [b, lists[s]]));
+}
+
+/** Finish one level from its pass-0 crossing: narrow by the lower 16-bit keys, then sort the few left. */
+function refine(a: MassAccess, level: number, target: number, above: Above, topCandidates: Uint32Array): CredibleRegion {
+	let candidates = topCandidates;
+	for (let pass = 1; pass < 4 && candidates.length > SORT_BELOW; pass++) {
+		const hist = histogram(a, pass, candidates);
+		const b = crossing(hist, target, above);
+		if (b < 0) return finish(level, above.area, above.count, lowestPositive(a));
+		candidates = pick(a, candidates, pass, b, hist.count[b]);
+	}
+	const c = Array.from(candidates);
 	const d = a.density;
 	c.sort((x, y) => d[y] - d[x] || x - y);
-	let mass = massAbove;
-	let areaSr = areaAbove;
-	let count = countAbove;
+	let mass = above.mass;
+	let areaSr = above.area;
+	let count = above.count;
 	for (const i of c) {
 		const s = a.order ? a.areas[a.order[i]] : a.uniformArea;
 		mass += d[i] * s;
@@ -169,7 +210,15 @@ export function credibleRegions(map: SkyMap, levels: number[]): CredibleRegion[]
 	const top = histogram(a, 0, null);
 	let total = 0;
 	for (let b = 0; b < BUCKETS; b++) total += top.mass[b];
-	return levels.map((l) => select(a, l, top, total));
+	const aboves = levels.map((): Above => ({ mass: 0, area: 0, count: 0 }));
+	const buckets = levels.map((l, k) => crossing(top, l * total, aboves[k]));
+	const picked = pickTop(a, buckets, top);
+	return levels.map((l, k) => {
+		const b = buckets[k];
+		// Rounding left the target just out of reach: the region is every pixel with probability.
+		if (b < 0) return finish(l, aboves[k].area, aboves[k].count, lowestPositive(a));
+		return refine(a, l, l * total, aboves[k], picked.get(b)!);
+	});
 }
 
 /**

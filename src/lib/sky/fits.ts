@@ -58,6 +58,13 @@ export interface FitsFile {
 	hdus: Hdu[];
 	/** True when the input was gzip-compressed. */
 	gzipped: boolean;
+	/**
+	 * True when `bytes` belong to the reader (inflated from gzip, or given up by the caller with
+	 * `reuseInput`): a column that fills whole rows is then decoded in place, without a copy.
+	 */
+	owned: boolean;
+	/** HDUs whose data were decoded in place (byte-swapped): they cannot be decoded a second time. */
+	decodedInPlace: Set<number>;
 }
 
 export type ColumnData =
@@ -95,6 +102,11 @@ export interface BinTable {
 export interface ReadFitsOptions {
 	/** Refuse gzip input that inflates past this many bytes. */
 	maxDecompressedBytes?: number;
+	/**
+	 * The caller gives up the input bytes: big-endian columns are swapped in place and returned as
+	 * views into them (no copy of a 100 MB flat map). The bytes are garbage for the caller afterwards.
+	 */
+	reuseInput?: boolean;
 }
 
 function isGzip(bytes: Uint8Array): boolean {
@@ -288,7 +300,7 @@ export function readFits(input: Uint8Array, options: ReadFitsOptions = {}): Fits
 			`file length ${bytes.length} is not a whole number of ${FITS_BLOCK_BYTES}-byte blocks (wrong block size)`
 		);
 	}
-	return { bytes, hdus, gzipped };
+	return { bytes, hdus, gzipped, owned: gzipped || options.reuseInput === true, decodedInPlace: new Set() };
 }
 
 const ELEMENT_BYTES: Record<string, number> = { L: 1, B: 1, I: 2, J: 4, K: 8, E: 4, D: 8, A: 1 };
@@ -468,11 +480,20 @@ export function readBinTable(file: FitsFile, hdu: Hdu, only?: string[]): BinTabl
 	if (offset !== rowBytes) {
 		throw new FitsError(`HDU ${i}: columns add up to ${offset} bytes per row but NAXIS1 = ${rowBytes}`);
 	}
+	if (file.decodedInPlace.has(i)) throw new FitsError(`HDU ${i}: its data were already decoded in place; read the file again`);
 	const columns: Column[] = [];
 	for (const l of layouts) {
 		if (wanted && !wanted.includes(l.name.toUpperCase())) continue;
 		const width = l.repeat * ELEMENT_BYTES[l.code];
-		const raw = gather(file.bytes, hdu.dataOffset, rows, rowBytes, l.offset, width);
+		const element = ELEMENT_BYTES[l.code];
+		// A column that fills whole rows is already contiguous: decode it where it lies when the
+		// bytes are ours and aligned for the typed-array view (data units start on 2880-byte blocks).
+		const inPlace =
+			file.owned && l.code !== 'A' && width === rowBytes && l.offset === 0 && (file.bytes.byteOffset + hdu.dataOffset) % element === 0;
+		if (inPlace) file.decodedInPlace.add(i);
+		const raw = inPlace
+			? file.bytes.subarray(hdu.dataOffset, hdu.dataOffset + rows * width)
+			: gather(file.bytes, hdu.dataOffset, rows, rowBytes, l.offset, width);
 		let data: ColumnData;
 		if (l.code === 'A') {
 			const strings: string[] = new Array(rows);

@@ -1,6 +1,6 @@
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
-import { analyseSkymap, locate, pixelAt, readSkyMap, regionPixels, regionContains, radecToNest, skyRaster } from './index.ts';
+import { analyseSkymap, locate, pixelAt, readBinTable, readFits, readSkyMap, regionPixels, regionContains, radecToNest, skyRaster } from './index.ts';
 import { writeBinTableFits } from './fits-write.ts';
 
 // Expected values: numpy/healpy/scipy in tests/fixtures/sky/make_fixtures.py (versions in VERSIONS.md).
@@ -123,6 +123,43 @@ describe('flat maps written by healpy', () => {
 			expect(pixelAt(s.map, p.ra, p.dec)).toBe(p.ipix);
 			expect(locate(s.map, p.ra, p.dec).credibleLevel).toBeCloseTo(p.credibleLevel, 6);
 		}
+	});
+});
+
+describe('flat float64 map read in place (reuseInput)', () => {
+	// Expected areas: full numpy sort + cumsum in tests/fixtures/sky/make_flat_f64.py (healpy 1.16.1 wrote the map).
+	const e = JSON.parse(readFileSync(new URL('flat_ring_f64.json', dir), 'utf8'));
+
+	it('gives the same map as a copying read, as a view into the given bytes', () => {
+		expect.hasAssertions();
+		const copied = analyseSkymap(file('flat_ring_f64.fits'));
+		const bytes = file('flat_ring_f64.fits');
+		const inPlace = analyseSkymap(bytes, { reuseInput: true });
+		expect(inPlace.map.probDensity.buffer).toBe(bytes.buffer);
+		expect(copied.map.probDensity.buffer).not.toBe(bytes.buffer);
+		expect(Array.from(inPlace.map.probDensity)).toEqual(Array.from(copied.map.probDensity));
+		for (const s of [copied, inPlace]) {
+			expect(s.probabilitySum).toBeCloseTo(e.probabilitySum, 12);
+			expect(s.warnings.join(' ')).toMatch(/total probability was 2\.00000/);
+			for (const [k, v] of [['0.5', s.area50], ['0.9', s.area90], ['0.99', s.area99]] as const) expect(rel(v, e.areasDeg2[k])).toBeLessThan(1e-12);
+			expect(rel(Math.max(...s.map.probDensity), e.maxDensityPerSr)).toBeLessThan(1e-12);
+		}
+	});
+
+	it('leaves the bytes alone without the option', () => {
+		expect.hasAssertions();
+		const bytes = file('flat_ring_f64.fits');
+		const before = bytes.slice();
+		readSkyMap(bytes);
+		expect(Buffer.compare(bytes, before)).toBe(0);
+	});
+
+	it('refuses to decode a table a second time once it was swapped in place', () => {
+		expect.hasAssertions();
+		const fits = readFits(file('flat_ring_f64.fits'), { reuseInput: true });
+		const hdu = fits.hdus[1];
+		readBinTable(fits, hdu);
+		expect(() => readBinTable(fits, hdu)).toThrow(/already decoded in place/);
 	});
 });
 

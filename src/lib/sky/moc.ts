@@ -109,6 +109,33 @@ function clean(density: Float64Array, areaOf: (i: number) => number, warnings: s
 	return sum;
 }
 
+/**
+ * Flat map, probability per pixel → density per sr in place: one pass zeroes NaN, infinite and
+ * negative values and sums the rest; a second scales by 1 / (sum × pixel area). Same outcome as
+ * `clean` after dividing by the pixel area, without a second array.
+ */
+function cleanFlatInPlace(values: Float64Array, perSr: number, warnings: string[]): number {
+	let bad = 0;
+	let sum = 0;
+	const n = values.length;
+	for (let i = 0; i < n; i++) {
+		const v = values[i];
+		if (v >= 0 && v !== Infinity) sum += v;
+		else {
+			values[i] = 0;
+			bad++;
+		}
+	}
+	if (bad > 0) warnings.push(`${bad} pixel(s) had NaN, infinite or negative probability; set to 0`);
+	if (!(sum > 0)) throw new FitsError('the map holds no probability (all pixels zero or invalid)');
+	if (Math.abs(sum - 1) > PROBABILITY_SUM_TOLERANCE) {
+		warnings.push(`total probability was ${sum.toPrecision(6)}, not 1; normalised`);
+	}
+	const k = perSr / sum;
+	for (let i = 0; i < n; i++) values[i] *= k;
+	return sum;
+}
+
 function distanceColumns(table: ReturnType<typeof readBinTable>, size: number, warnings: string[]) {
 	const mu = table.column('DISTMU');
 	const sigma = table.column('DISTSIGMA');
@@ -241,16 +268,24 @@ export function readSkyMap(bytes: Uint8Array, options: ReadSkyMapOptions = {}): 
 	const area = pixelAreaSr(order);
 	const raw = probCol.data;
 	if (Array.isArray(raw)) throw new FitsError(`column ${probCol.name} holds text`);
-	// Probability per pixel → density per sr, fused with the copy to Float64.
-	const density = new Float64Array(size);
-	const inv = 1 / area;
-	if (raw instanceof BigInt64Array || raw instanceof BigUint64Array) {
-		for (let i = 0; i < size; i++) density[i] = Number(raw[i]) * inv;
+	let density: Float64Array;
+	let probabilitySumRaw: number;
+	if (raw instanceof Float64Array) {
+		// The column is the reader's fresh copy or a view into bytes the caller gave up: probability
+		// per pixel becomes density per sr where it lies, in two passes and no 100 MB temporary.
+		density = raw;
+		probabilitySumRaw = cleanFlatInPlace(density, 1 / area, warnings);
 	} else {
-		const r = raw as Float64Array;
-		for (let i = 0; i < size; i++) density[i] = r[i] * inv;
+		density = new Float64Array(size);
+		const inv = 1 / area;
+		if (raw instanceof BigInt64Array || raw instanceof BigUint64Array) {
+			for (let i = 0; i < size; i++) density[i] = Number(raw[i]) * inv;
+		} else {
+			const r = raw as Float32Array;
+			for (let i = 0; i < size; i++) density[i] = r[i] * inv;
+		}
+		probabilitySumRaw = clean(density, () => area, warnings, area);
 	}
-	const probabilitySumRaw = clean(density, () => area, warnings, area);
 	const dist = options.skipDistance
 		? { distMu: null, distSigma: null, distNorm: null }
 		: distanceColumns(table, size, warnings);

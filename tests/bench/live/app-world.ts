@@ -4,6 +4,9 @@
  * made from a fixture notice with a generated sky map (opposite the Sun) uploaded beside it (ingested, analysed and ranked
  * by Strainline's own code, as the upload page would do), and API tokens: one per demo person for
  * the socket.io clients, two people who may claim, and one token per telescope for observations.
+ * With `catalogRows` a synthetic catalogue of that many galaxies (seeds/synthetic-catalog.ts) is
+ * imported through the app's catalogue import before the notice, so the event is ranked against
+ * it and a later update re-ranks it; the demo observer of a third telescope uploads pointings.
  */
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
@@ -31,6 +34,17 @@ export interface AppWorld {
 	telescopes: BenchTelescope[];
 	/** Ranked galaxies of the event, best first. */
 	targets: BenchTarget[];
+	/** What an update notice for the same event needs. */
+	notice: { sourceId: string; ivorn: string; eventTime: string; antiSunRaDeg: number };
+	/** An observer's token and a telescope of their team that the driver never claims with (no claim is completed). */
+	uploader: { token: string; telescope: { id: string; name: string; filter: string } };
+	/** Galaxies in the catalogue the app ranks with (the newest ready one). */
+	catalogGalaxies: number;
+}
+
+export interface WorldOptions {
+	/** Import a synthetic catalogue of this many galaxies before the notice (0: the demo's 20,000 only). */
+	catalogRows?: number;
 }
 
 /** Observer of both teams whose telescopes the bench uses (seeds/scenario.ts). */
@@ -38,8 +52,10 @@ const CLAIMERS = ['observer3@strainline.demo', 'coordinator@strainline.demo'];
 /** Two narrow-field demo telescopes (galaxy targeting) of two teams, both with an r filter. */
 const TELESCOPES = ['Saguaro 0.8 m', 'Tenaz 2.0 m'];
 const SOURCE_ID = 'SX30099060';
+/** The demo observer of the Altiplano team and its telescope, for the pointing upload. */
+const UPLOADER = { email: 'observer@strainline.demo', telescope: 'Pardo 0.6 m', filter: 'r' };
 
-export async function prepareAppWorld(root: string, dbFile: string, storageDir: string): Promise<AppWorld> {
+export async function prepareAppWorld(root: string, dbFile: string, storageDir: string, options: WorldOptions = {}): Promise<AppWorld> {
 	const { connect, useDatabase } = await import('../../../src/lib/server/platform/db/index.ts');
 	const { seedDemo } = await import('../../../seeds/demo.ts');
 	const { issueToken } = await import('../../../src/lib/server/people/tokens.ts');
@@ -55,6 +71,18 @@ export async function prepareAppWorld(root: string, dbFile: string, storageDir: 
 	const stopTargets = installTargets();
 	try {
 		await seedDemo(database);
+		if (options.catalogRows) {
+			const { importCatalog } = await import('../../../src/lib/server/targeting/catalogs.ts');
+			const { generateSyntheticCatalog, syntheticCatalogCsv } = await import('../../../seeds/synthetic-catalog.ts');
+			const o = { rows: options.catalogRows, maxDistanceMpc: 400, seed: 7 };
+			const out = await importCatalog(
+				{ userId: null, label: 'bench' },
+				{ name: `Synthetic bench galaxies (${o.rows.toLocaleString('en')}, invented)`, sourceNote: 'seeds/synthetic-catalog.ts --seed 7', synthetic: true },
+				syntheticCatalogCsv(generateSyntheticCatalog(o), o),
+				{ progressEveryMs: null }
+			);
+			if (out.state !== 'ready' || out.rowCount !== o.rows) throw new Error(`bench catalogue import: ${out.state} ${out.error ?? ''}`);
+		}
 		// The event happened an hour ago, so that pointings reported "now" are plausible.
 		const eventTime = new Date(Date.now() - 3600_000).toISOString();
 		const xml = readFileSync(join(root, 'tests/fixtures/notices/bns-initial.xml'), 'utf8')
@@ -104,7 +132,28 @@ export async function prepareAppWorld(root: string, dbFile: string, storageDir: 
 			if (!t || !t.filters.includes('r')) throw new Error(`demo telescope ${name} missing or without an r filter`);
 			return { id: t.id, name: t.name, token: issueToken(actor, { name: 'live bench telescope', telescopeId: t.id }).secret };
 		});
-		return { eventId, listenerTokens, claimerTokens, telescopes, targets };
+		const uploaderPerson = people.find((p) => p.email === UPLOADER.email);
+		const uploaderScope = database.select().from(table.telescope).where(eq(table.telescope.name, UPLOADER.telescope)).get();
+		if (!uploaderPerson || !uploaderScope?.filters.includes(UPLOADER.filter)) throw new Error(`demo observer ${UPLOADER.email} or ${UPLOADER.telescope} missing`);
+		const uploader = {
+			token: issueToken(actor, { name: 'live bench uploader', userId: uploaderPerson.id }).secret,
+			telescope: { id: uploaderScope.id, name: uploaderScope.name, filter: UPLOADER.filter }
+		};
+		const ivorn = /ivorn="([^"]+)"/.exec(xml)?.[1];
+		if (!ivorn) throw new Error('bench notice has no IVORN');
+		const { catalogInUse } = await import('../../../src/lib/server/alerts/events.ts');
+		const { galaxyCount } = await import('../../../src/lib/server/targeting/catalogs.ts');
+		const inUse = catalogInUse();
+		return {
+			eventId,
+			listenerTokens,
+			claimerTokens,
+			telescopes,
+			targets,
+			notice: { sourceId: SOURCE_ID, ivorn, eventTime, antiSunRaDeg },
+			uploader,
+			catalogGalaxies: inUse ? galaxyCount(inUse) : 0
+		};
 	} finally {
 		stopTargets();
 		useStorageRoot(null);

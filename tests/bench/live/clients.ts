@@ -48,7 +48,7 @@ async function open(origin: string, room: string, token: string, timeoutMs: numb
 		if (m.room !== room) return;
 		client.ats.push(nowMs());
 		client.seqs.push(m.seq);
-		client.keyIds.push(intern(keyOf(m.type, m.payload)));
+		client.keyIds.push(intern(keyOf(m.type, m.payload, m.seq)));
 	});
 	socket.on('presence', () => presenceMessages++);
 	socket.on('disconnect', () => client.disconnects++);
@@ -70,6 +70,9 @@ function report(expected: ExpectedMessage[]): ClientReport {
 	let unexpected = 0;
 	let seqMismatch = 0;
 	let deliveries = 0;
+	const groups: Record<string, { latenciesMs: number[]; lost: number; expected: number }> = {};
+	const groupOf = (e: ExpectedMessage) => (groups[e.group ?? 'all'] ??= { latenciesMs: [], lost: 0, expected: 0 });
+	for (const e of expected) groupOf(e).expected += clients.length;
 	for (const c of clients) {
 		deliveries += c.seqs.length;
 		const seen = new Set<string>();
@@ -87,15 +90,21 @@ function report(expected: ExpectedMessage[]): ClientReport {
 			}
 			seen.add(e.key);
 			if (c.seqs[k] !== e.seq) seqMismatch++;
-			if (e.sentAtMs !== null) latencies.push(Math.round((c.ats[k] - e.sentAtMs) * 100) / 100);
+			if (e.sentAtMs !== null) {
+				const ms = Math.round((c.ats[k] - e.sentAtMs) * 100) / 100;
+				latencies.push(ms);
+				groupOf(e).latenciesMs.push(ms);
+			}
 		}
 		lost += expected.length - seen.size;
+		for (const e of expected) if (!seen.has(e.key)) groupOf(e).lost++;
 	}
 	return {
 		clients: clients.length,
 		deliveries,
 		latenciesMs: latencies,
 		lost,
+		groups,
 		duplicated,
 		outOfOrder,
 		unexpected,

@@ -19,12 +19,16 @@ export interface DriveRequest {
  * What identifies a live message independently of its seq: its type and the id its payload
  * names — the claim for `claim.*`, the observation for `observation.*`, the driver's action
  * number for the reference hub's `bench.*`. The same ids come back in the HTTP responses, which
- * is how a delivery is traced to the request that caused it. Null: a message the bench cannot trace.
+ * is how a delivery is traced to the request that caused it. Any other message (what the server
+ * logs while it processes a notice: `skymap.analysed`, `targets.ranked`, …) is named by its type
+ * and seq, which the event log also holds. Null: a message the bench cannot trace.
  */
-export function keyOf(type: string, payload: Record<string, unknown> | null | undefined): string | null {
+export function keyOf(type: string, payload: Record<string, unknown> | null | undefined, seq?: number): string | null {
 	const p = payload ?? {};
 	const id = type.startsWith('observation.') ? p.observationId : type.startsWith('claim.') ? p.claimId : type.startsWith('bench.') ? p.k : undefined;
-	return typeof id === 'string' || typeof id === 'number' ? `${type}|${id}` : null;
+	if (typeof id === 'string' || typeof id === 'number') return `${type}|${id}`;
+	if (seq !== undefined && !/^(observation|claim|bench)\./.test(type)) return `${type}|#${seq}`;
+	return null;
 }
 
 /** A message every client should receive exactly once: its key, the seq the server logged, and the send time of its request. */
@@ -33,6 +37,15 @@ export interface ExpectedMessage {
 	seq: number;
 	/** Null: the server logged it but no request of the driver names it (counted, not timed). */
 	sentAtMs: number | null;
+	/** Which part of the run it belongs to (latencies and losses are also reported per group). */
+	group?: string;
+}
+
+/** Per group of expected messages: traced latencies and losses, summed over a process's clients. */
+export interface GroupReport {
+	latenciesMs: number[];
+	lost: number;
+	expected: number;
 }
 
 /** Parent → client process. */
@@ -48,6 +61,8 @@ export interface ClientReport {
 	latenciesMs: number[];
 	/** Expected messages a client never received, summed over clients. */
 	lost: number;
+	/** The same by the group the parent gave each expected message (`ExpectedMessage.group`). */
+	groups: Record<string, GroupReport>;
 	/** Second and later receipts of one expected message by one client. */
 	duplicated: number;
 	/** Deliveries whose seq is lower than the previous one on the same client. */
