@@ -42,6 +42,8 @@ export default defineConfig({
 			DATABASE_URL: 'tests/e2e/.artifacts/e2e.sqlite',
 			FAKE_SMTP_PORT: '0',
 			FAKE_WEBHOOK_PORT: '0',
+			FAKE_PHONE_PORT: '0',
+			PHONE_ACCOUNT_SID: '',
 			SMTP_URL: ''
 		}
 	}

@@ -8,7 +8,17 @@ import { attachSocketIO } from './src/lib/server/platform/socket-host.js';
 // may carry a sky map of up to SKYMAP_MAX_MB (64 MiB by default) in base64: about 86 MiB in all.
 process.env.BODY_SIZE_LIMIT ??= '96M';
 const { handler } = await import('./build/handler.js');
-const server = http.createServer(handler);
+
+// The messaging service posts its inbound webhook form-encoded and without an Origin header, which
+// SvelteKit refuses as a cross-site form post before any hook runs. That one path takes no cookies
+// and checks the service's signature instead, so it is given our own origin here.
+const INBOUND_HOOK = '/api/v1/phone/inbound';
+const ownOrigin = (process.env.ORIGIN || process.env.PUBLIC_URL || '').replace(/\/$/, '');
+function withHookOrigin(req, res) {
+	if (ownOrigin && req.method === 'POST' && !req.headers.origin && req.url?.split('?')[0] === INBOUND_HOOK) req.headers.origin = ownOrigin;
+	return handler(req, res);
+}
+const server = http.createServer(withHookOrigin);
 attachSocketIO(server);
 
 const port = Number(process.env.PORT ?? 3000);

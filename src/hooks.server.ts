@@ -5,6 +5,7 @@ import * as auth from '$lib/server/people/auth';
 import { apiError } from '$lib/server/platform/api';
 import '$lib/field-messages';
 import { startMail } from '$lib/server/platform/mail';
+import { startPhone } from '$lib/server/platform/phone';
 import { installRealtime } from '$lib/server/platform/realtime';
 import { liveAccess } from '$lib/server/people/live-access';
 import { installDuty } from '$lib/server/duty/paging';
@@ -34,6 +35,7 @@ export const init: ServerInit = async () => {
 	installWebhooks();
 	await startMail();
 	await startFakeReceiver();
+	await startPhone();
 	// Last: the broker listener may start processing notices at once.
 	await startAlerts();
 };

@@ -48,6 +48,7 @@ const PHRASES: { readonly [A in LiveAction]: string } = {
 	'duty.nobody-on-shift': 'Nobody on shift: every duty scientist paged',
 	'duty.nobody-to-page': 'Nobody could be paged',
 	'duty.mail-failed': 'A page e-mail could not be sent',
+	'duty.page-delivery': 'Page delivery tried',
 	'event.acknowledged': 'Event acknowledged',
 	'shift.added': 'Shift added to the roster',
 	'shift.removed': 'Shift removed from the roster',
@@ -70,4 +71,4 @@ export function describeAction(action: string): string {
 }
 
 /** Actions logged for live clients only (progress ticks), left out of the activity list. */
-export const QUIET_ACTIONS: readonly LiveAction[] = ['catalog.progress'];
+export const QUIET_ACTIONS: readonly LiveAction[] = ['catalog.progress', 'duty.page-delivery'];

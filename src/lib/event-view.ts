@@ -73,6 +73,8 @@ export interface PageRow {
 	acknowledgedAt: string | null;
 	acknowledgedBy: string | null;
 	latencyS: number | null;
+	/** Each channel the page went by (e-mail, text, voice): its state and tries. */
+	deliveries: { channel: 'email' | 'sms' | 'voice'; status: 'queued' | 'sent' | 'failed'; attempts: number; lastError: string | null }[];
 }
 
 export interface AckView {

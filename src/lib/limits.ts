@@ -96,3 +96,22 @@ export const SKY_FOOTPRINTS_MAX = 300;
 
 /** Pointings per page on an event's "Our claims and pointings" page. */
 export const WORK_POINTINGS_PAGE_SIZE = 100;
+
+/** Page deliveries (e-mail, text, voice): sending tries at most this many times, waiting `PAGE_RETRY_BASE_S` × 2^(attempt−1) between tries. */
+export const PAGE_SEND_MAX_ATTEMPTS = 5;
+export const PAGE_RETRY_BASE_S = 15;
+
+/** A text message body we send or accept, characters (10 SMS segments of 160 GSM characters would be 1,600). */
+export const PHONE_TEXT_MAX_CHARS = 1600;
+
+/** Phone verification: the code sent by text is valid this long and may be tried this many times. */
+export const PHONE_CODE_LIFETIME_MIN = 15;
+export const PHONE_CODE_MAX_TRIES = 5;
+/** A new code may be asked for this many seconds after the last one. */
+export const PHONE_CODE_RESEND_S = 60;
+
+/** An acknowledgement link (and its reply code) works this long after the page is sent. */
+export const ACK_LINK_LIFETIME_H = 24;
+
+/** Largest inbound-hook body read, bytes. */
+export const PHONE_INBOUND_MAX_BYTES = 16 * 1024;

@@ -82,6 +82,8 @@ export interface LivePayloads {
 	'duty.nobody-on-shift': EventNotice & { paged: string[] };
 	'duty.nobody-to-page': EventNotice;
 	'duty.mail-failed': { eventId: string; userId: string; error: string };
+	/** One try of one page by one channel: sent, failed and to be retried, or failed for good. */
+	'duty.page-delivery': { eventId: string; pageId: string | null; userId: string; name: string; channel: 'email' | 'sms' | 'voice'; status: 'sent' | 'retrying' | 'failed'; attempts: number; error: string | null };
 	'event.acknowledged': { eventId: string; by: string; latencyS: number; pages: number };
 	'shift.added': { shiftId: string; userId: string; name: string; startsAt: string; endsAt: string; rank: number };
 	'shift.removed': { shiftId: string; userId: string };
@@ -223,6 +225,7 @@ export const ACTION_TOPIC: { readonly [A in LiveAction]: LiveTopic } = {
 	'duty.nobody-on-shift': 'duty',
 	'duty.nobody-to-page': 'duty',
 	'duty.mail-failed': 'duty',
+	'duty.page-delivery': 'duty',
 	'event.acknowledged': 'duty',
 	'shift.added': 'roster',
 	'shift.removed': 'roster',

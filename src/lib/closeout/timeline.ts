@@ -69,6 +69,7 @@ export const ACTION_KIND: { readonly [A in LiveAction]: TimelineKind | null } & 
 	'duty.nobody-on-shift': 'page',
 	'duty.nobody-to-page': 'page',
 	'duty.mail-failed': 'page',
+	'duty.page-delivery': 'page',
 	'event.acknowledged': 'acknowledgement',
 	'shift.added': null,
 	'shift.removed': null,

@@ -36,6 +36,14 @@ const MATRIX: { path: string; allowed: RoleName[] | 'all'; ok?: boolean; allowed
 	// e-mail), so an unsubscribe link works from a mail without signing in. A token that does not
 	// verify is refused (400) whoever sends it, signed in or not, and nothing changes.
 	{ path: '/unsubscribe/bm90LWEtdmFsaWQtdG9rZW4tYXQtYWxsLWJ1dC1sb25nLWVub3VnaA', allowed: 'all', public: true },
+	// Pages by phone: an empty form is refused (no number, no code, no channel chosen); nothing is texted or saved.
+	{ path: '/account?/phone', allowed: 'all' },
+	{ path: '/account?/verifyPhone', allowed: 'all' },
+	{ path: '/account?/channels', allowed: 'all' },
+	// Public by design, like unsubscribe links: the signed single-use token is the permission. A token that does not verify is refused (400) for everyone.
+	{ path: '/ack/bm90LWEtdmFsaWQtdG9rZW4tYXQtYWxsLWJ1dC1sb25nLWVub3VnaA', allowed: 'all', public: true },
+	// The development phone log's "reply as a phone": administrators only; an empty form is refused.
+	{ path: '/phone-log?/reply', allowed: ['admin'] },
 	{ path: '/?/acknowledge', allowed: ['duty', 'coordinator'] },
 	{ path: '/roster?/add', allowed: ['admin', 'coordinator'] },
 	{ path: '/roster?/remove', allowed: ['admin', 'coordinator'] },

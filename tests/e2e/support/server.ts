@@ -7,8 +7,9 @@ import { startE2eBroker } from './broker';
 
 const file = process.env.DATABASE_URL ?? 'tests/e2e/.artifacts/e2e.sqlite';
 for (const suffix of ['', '-wal', '-shm']) rmSync(file + suffix, { force: true });
-// The mail catcher's files of earlier runs (see support/mail.ts).
+// The mail catcher's and the fake phone service's files of earlier runs (see support/mail.ts, support/phone.ts).
 rmSync(`${process.env.STORAGE_DIR ?? 'tests/e2e/.artifacts/storage'}/mail`, { recursive: true, force: true });
+rmSync(`${process.env.STORAGE_DIR ?? 'tests/e2e/.artifacts/storage'}/phone`, { recursive: true, force: true });
 await seedDemo(openDatabase(file));
 
 if (!existsSync('build/handler.js')) {

@@ -68,7 +68,8 @@ function pageRow(p: PageView): PageRow {
 		escalatedAt: iso(p.escalatedAt),
 		acknowledgedAt: iso(p.acknowledgedAt),
 		acknowledgedBy: p.acknowledgedBy,
-		latencyS: p.latencyS
+		latencyS: p.latencyS,
+		deliveries: p.deliveries.map((d) => ({ channel: d.channel, status: d.status, attempts: d.attempts, lastError: d.lastError }))
 	};
 }
 

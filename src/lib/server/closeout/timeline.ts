@@ -232,6 +232,8 @@ function allEntries(eventId: string): { entries: TimelineEntry[]; event: { sourc
 				else if (r.action === 'duty.escalated') detail = `level ${num(p, 'level')}: from ${list(p, 'from').join(', ')} to ${list(p, 'to').join(', ')}`;
 				else if (r.action === 'duty.escalation-exhausted') detail = `unanswered by ${list(p, 'unanswered').join(', ')}`;
 				else if (r.action === 'duty.mail-failed') detail = str(p, 'error') ?? '';
+				else if (r.action === 'duty.page-delivery')
+					detail = `${str(p, 'channel')} to ${str(p, 'name')}: ${str(p, 'status')} (try ${num(p, 'attempts')})${str(p, 'error') ? ` — ${str(p, 'error')}` : ''}`;
 				href = `${eventPage}#pages-heading`;
 				linkText = 'Duty pages';
 				break;

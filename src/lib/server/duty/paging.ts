@@ -9,8 +9,8 @@ import * as table from '../platform/db/schema';
 import { config } from '../platform/config';
 import { loadSessionUser, randomId, type SessionUser } from '../people/auth';
 import type { OutgoingMail } from '../platform/mail';
-import { eventClassOf, notify } from '../people/notifications';
-import type { NotificationKind } from '../../notifications.ts';
+import { issueAck, type IssuedAck } from './ack-tokens';
+import { deliveriesOf, PAGE_DELIVERY_CHECK_MS, queueLetters, retryEvery, sendDue, type DeliveryView, type PageLetter } from './page-delivery';
 import { every } from '../platform/periodic';
 import { restartService } from '../platform/services';
 import { onRecorded, record, SYSTEM, type Actor, type LivePayloads } from '../platform/realtime';
@@ -234,7 +234,7 @@ export function eventLink(eventId: string): string {
  */
 export function composePage(
 	ctx: PageContext,
-	o: { recipient: Person; level: number; afterMin: number; escalatedFrom?: string[]; fallback?: boolean }
+	o: { recipient: Person; level: number; afterMin: number; escalatedFrom?: string[]; fallback?: boolean; ack?: IssuedAck }
 ): OutgoingMail {
 	const { event, notice, summary } = ctx;
 	const farHz = notice.farHz ?? event.farHz;
@@ -274,6 +274,8 @@ export function composePage(
 		event.triage ? `Triage:           ${event.triage.verdict}${event.triage.reasons.length ? ` — ${event.triage.reasons.join('; ')}` : ''}` : null,
 		'',
 		`Acknowledge on the event page: ${link}`,
+		o.ack ? `Or without signing in (this link works once, for you, until ${formatUtc(o.ack.expiresAt)}): ${o.ack.link}` : null,
+		o.ack ? `Or reply ${o.ack.code} to the text message of this page.` : null,
 		`Unacknowledged after ${o.afterMin} min, the page goes to the next person on the roster.`,
 		'',
 		'Alerts can be retracted. Preliminary notices are produced automatically and may be retracted or revised.'
@@ -281,31 +283,52 @@ export function composePage(
 	return { to: o.recipient.email, subject, text: lines.join('\n') };
 }
 
-interface DutyMail {
-	mail: OutgoingMail;
-	eventId: string;
-	userId: string;
-	name: string;
-	kind: Extract<NotificationKind, 'duty.page' | 'duty.stand-down'>;
+/** The text message of a page: what the subject says, and how to acknowledge from the phone. */
+export function composeShortPage(ctx: PageContext, o: { level: number; ack: IssuedAck }): string {
+	const { event, notice, summary } = ctx;
+	const kind = (KIND_LABELS[notice.kind] ?? notice.kind).toLowerCase();
+	const cls = notice.classification ?? event.classification;
+	return [
+		`Strainline${o.level > 0 ? ' ESCALATED' : ''}: ${event.sourceEventId} ${kind}, FAR ${formatFar(notice.farHz ?? event.farHz)}, BNS ${formatPercent(cls?.BNS)}, 90% ${formatArea(summary?.area90)}.`,
+		`Acknowledge: ${o.ack.link} or reply ${o.ack.code}.`,
+		'Alerts can be retracted.'
+	].join(' ');
 }
 
-/** Pages go through the notification door like every mail, which always lets them through at once. */
-async function deliver(mails: DutyMail[]): Promise<void> {
-	await Promise.all(
-		mails.map(async ({ mail, eventId, userId, name, kind }) => {
-			try {
-				await notify({ userId, name, email: mail.to }, kind, eventClassOfEvent(eventId), mail);
-			} catch (e) {
-				console.error(`duty page to ${mail.to} failed`, e);
-				record(SYSTEM, 'duty.mail-failed', 'board', { eventId, userId, error: (e as Error).message });
-			}
-		})
-	);
+/** What the voice call says: short, spelled so a speech engine reads it clearly. */
+export function composeSpokenPage(ctx: PageContext, o: { level: number; ack: IssuedAck }): string {
+	const { event, notice } = ctx;
+	const kind = (KIND_LABELS[notice.kind] ?? notice.kind).toLowerCase();
+	return [
+		`This is Strainline${o.level > 0 ? ', with an escalated page' : ''}.`,
+		`A significant gravitational-wave notice needs the duty scientist: event ${event.sourceEventId.split('').join(' ')}, ${kind} notice.`,
+		`To acknowledge, open the link in the text message, or reply with the code ${o.ack.code.split('').join(' ')}.`
+	].join(' ');
 }
 
-function eventClassOfEvent(eventId: string) {
-	const ev = db.select({ classification: table.gwEvent.classification }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
-	return eventClassOf(ev?.classification);
+/** Letters for one page: the e-mail, the text and the spoken message, with the page's one-time acknowledgement. */
+function pageLetter(ctx: PageContext, page: { id: string; level: number }, p: Person, o: { afterMin: number; escalatedFrom?: string[]; fallback?: boolean }, now: Date): PageLetter {
+	const ack = issueAck(page.id, p.userId, now);
+	return {
+		eventId: ctx.event.id,
+		pageId: page.id,
+		userId: p.userId,
+		name: p.name,
+		email: p.email,
+		kind: 'duty.page',
+		mail: composePage(ctx, { recipient: p, level: page.level, ack, ...o }),
+		short: composeShortPage(ctx, { level: page.level, ack }),
+		spoken: composeSpokenPage(ctx, { level: page.level, ack })
+	};
+}
+
+/**
+ * Pages go into the outbox (one row per channel of each person) and the first try is made at
+ * once; failed tries are retried by the outbox's timer. Resolves after the first tries.
+ */
+async function deliver(letters: PageLetter[], now: Date): Promise<void> {
+	if (letters.length === 0) return;
+	await sendDue(now, queueLetters(letters, now));
 }
 
 /**
@@ -334,7 +357,8 @@ export async function pageForNotice(eventId: string, noticeId: string, now = new
 	if (fallback) record(SYSTEM, 'duty.nobody-on-shift', 'board', { eventId, noticeId, paged: names });
 	const afterMin = escalateAfterMin();
 	await deliver(
-		people.map((p) => ({ mail: composePage(ctx, { recipient: p, level: 0, afterMin, fallback }), eventId, userId: p.userId, name: p.name, kind: 'duty.page' as const }))
+		people.map((p, i) => pageLetter(ctx, rows[i], p, { afterMin, fallback }, now)),
+		now
 	);
 	return db.select().from(table.dutyPage).where(inArray(table.dutyPage.id, rows.map((r) => r.id))).all();
 }
@@ -366,7 +390,7 @@ export async function escalate(now = new Date()): Promise<number> {
 	const byEvent = new Map<string, { page: table.DutyPage; name: string }[]>();
 	for (const o of overdue) byEvent.set(o.page.eventId, [...(byEvent.get(o.page.eventId) ?? []), o]);
 
-	const outgoing: DutyMail[] = [];
+	const outgoing: PageLetter[] = [];
 	for (const [eventId, group] of byEvent) {
 		const pages = group.map((g) => g.page);
 		const newest = pages[pages.length - 1];
@@ -398,11 +422,9 @@ export async function escalate(now = new Date()): Promise<number> {
 		announce(SYSTEM, 'duty.escalated', eventId, { eventId, noticeId: newest.noticeId, level, from, to: people.map((p) => p.name), fallback });
 		const ctx = pageContext(eventId, newest.noticeId);
 		if (!ctx) continue;
-		for (const p of people) {
-			outgoing.push({ mail: composePage(ctx, { recipient: p, level, afterMin, escalatedFrom: from, fallback }), eventId, userId: p.userId, name: p.name, kind: 'duty.page' });
-		}
+		people.forEach((p, i) => outgoing.push(pageLetter(ctx, rows[i], p, { afterMin, escalatedFrom: from, fallback }, now)));
 	}
-	await deliver(outgoing);
+	await deliver(outgoing, now);
 	return byEvent.size;
 }
 
@@ -441,6 +463,8 @@ export interface PageView {
 	acknowledgedAt: Date | null;
 	acknowledgedBy: string | null;
 	latencyS: number | null;
+	/** Each channel the page went by: status and tries. */
+	deliveries: DeliveryView[];
 }
 
 /** Pages of some events, oldest first, with the names of who was paged and who acknowledged. */
@@ -462,6 +486,7 @@ export function pagesFor(eventIds: string[]): Map<string, PageView[]> {
 			.all()
 			.map((u) => [u.id, u.name])
 	);
+	const deliveries = deliveriesOf(rows.map((r) => r.page.id));
 	for (const { page, to } of rows) {
 		const list = out.get(page.eventId) ?? [];
 		list.push({
@@ -473,7 +498,8 @@ export function pagesFor(eventIds: string[]): Map<string, PageView[]> {
 			escalatedAt: page.escalatedAt,
 			acknowledgedAt: page.acknowledgedAt,
 			acknowledgedBy: page.acknowledgedBy ? (ackers.get(page.acknowledgedBy) ?? 'a former member') : null,
-			latencyS: page.latencyS
+			latencyS: page.latencyS,
+			deliveries: deliveries.get(page.id) ?? []
 		});
 		out.set(page.eventId, list);
 	}
@@ -524,14 +550,18 @@ export async function standDown(eventId: string): Promise<number> {
 		.innerJoin(table.user, eq(table.user.id, table.dutyPage.userId))
 		.where(eq(table.dutyPage.eventId, eventId))
 		.all();
+	const now = new Date();
 	await deliver(
 		paged.map((p) => ({
 			eventId,
+			pageId: null,
 			userId: p.userId,
 			name: p.name,
+			email: p.email,
 			kind: 'duty.stand-down' as const,
+			short: `Strainline: ${ev.sourceEventId} was RETRACTED by the source. Stand down: stop follow-up and release your targets. ${eventLink(eventId)}`,
+			spoken: `This is Strainline. Event ${ev.sourceEventId.split('').join(' ')} was retracted by the source. Stand down: stop follow-up observations for it.`,
 			mail: {
-				to: p.email,
 				subject: `RETRACTED ${ev.sourceEventId} · stand down`,
 				text: [
 					`${p.name},`,
@@ -541,7 +571,8 @@ export async function standDown(eventId: string): Promise<number> {
 					eventLink(eventId)
 				].join('\n')
 			}
-		}))
+		})),
+		now
 	);
 	return paged.length;
 }
@@ -562,11 +593,14 @@ export function installDuty(o: { escalateEveryMs?: number | null } = {}): () => 
 			if (m.room === 'board' && significant) pageForNotice(eventId, noticeId).catch((e) => console.error(`paging for notice ${noticeId} failed`, e));
 		});
 		const stopEscalation = everyMs === null ? null : every(everyMs, () => escalate(), 'duty escalation');
+		// Failed page deliveries are retried on the same schedule switch as escalation (none in tests that drive both by hand).
+		const stopRetries = retryEvery(everyMs === null ? null : PAGE_DELIVERY_CHECK_MS);
 		return {
 			stop() {
 				offRetracted();
 				offProcessed();
 				stopEscalation?.();
+				stopRetries?.();
 			}
 		};
 	});

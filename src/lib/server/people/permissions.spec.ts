@@ -25,6 +25,7 @@ describe('permissions table', () => {
 			'telescopes.manage': ['admin', 'coordinator'],
 			'tokens.manage': ['admin'],
 			'mailbox.view': ['admin'],
+			'phonelog.view': ['admin'],
 			'notices.submit': ['admin', 'coordinator', 'duty'],
 			'events.acknowledge': ['duty', 'coordinator'],
 			'triage.view': ['admin', 'coordinator', 'duty'],

@@ -23,6 +23,8 @@ export const PERMISSIONS = {
 	'tokens.manage': { roles: ['admin'] },
 	// The development mailbox holds every message the app sent, reset links included: administrators only.
 	'mailbox.view': { roles: ['admin'] },
+	// The development phone log holds every text and call, verification codes and acknowledgement codes included: administrators only.
+	'phonelog.view': { roles: ['admin'] },
 	'notices.submit': { roles: ['admin', 'coordinator', 'duty'] },
 	'events.acknowledge': { roles: ['duty', 'coordinator'] },
 	'triage.view': { roles: ['admin', 'coordinator', 'duty'] },

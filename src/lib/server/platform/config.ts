@@ -24,6 +24,23 @@ export interface Config {
 	webhookHosts: string[];
 	/** The observing site's IANA time zone, named in calendar feeds (times there stay in UTC). */
 	siteTimeZone: string;
+	phone: PhoneConfig;
+}
+
+/**
+ * Text messages and voice calls through the messaging service's SDK (twilio). Without an account
+ * a local fake of the service takes every request on 127.0.0.1 (`fakePort`; 0 = any free port).
+ */
+export interface PhoneConfig {
+	/** PHONE_ACCOUNT_SID; null = the local fake. */
+	accountSid: string | null;
+	/** PHONE_AUTH_TOKEN: authenticates our requests and signs the service's inbound webhook. */
+	authToken: string | null;
+	/** PHONE_FROM: the number texts and calls come from (E.164). */
+	from: string;
+	/** PHONE_API_URL: base URL the SDK talks to instead of the service's own (a proxy, or the fake). */
+	apiUrl: string | null;
+	fakePort: number;
 }
 
 /** Alert ingestion: the broker, the sky-map fetcher and where files go. */
@@ -119,7 +136,14 @@ export function loadConfig(): Config {
 		alerts: loadAlertsConfig(),
 		fakeWebhookPort: process.env.FAKE_WEBHOOK_PORT?.trim().toLowerCase() === 'off' ? null : int('FAKE_WEBHOOK_PORT', 2580),
 		webhookHosts: list('WEBHOOK_HOSTS', []),
-		siteTimeZone: timeZone('SITE_TIME_ZONE', 'UTC')
+		siteTimeZone: timeZone('SITE_TIME_ZONE', 'UTC'),
+		phone: {
+			accountSid: process.env.PHONE_ACCOUNT_SID?.trim() || null,
+			authToken: process.env.PHONE_AUTH_TOKEN?.trim() || null,
+			from: process.env.PHONE_FROM?.trim() || '+15005550006',
+			apiUrl: process.env.PHONE_API_URL?.trim().replace(/\/$/, '') || null,
+			fakePort: int('FAKE_PHONE_PORT', 2590)
+		}
 	};
 }
 

@@ -9,8 +9,8 @@ export type MailPart = { kind: 'text'; text: string } | { kind: 'link'; href: st
 
 export const MASK = '••••••';
 
-// The links people.invitationLink, people.resetLink and unsubscribeLink make: the last path segment is the token.
-const SECRET_PATH = /(\/(?:invitation|reset|unsubscribe)\/)[^/?#]+/g;
+// The links people.invitationLink, people.resetLink, unsubscribeLink and ackLink make: the last path segment is the token.
+const SECRET_PATH = /(\/(?:invitation|reset|unsubscribe|ack)\/)[^/?#]+/g;
 // Anything else that looks like a token: a long query value or path segment of token characters.
 const SECRET_QUERY_VALUE = /([?&][^=&#]+=)[A-Za-z0-9_-]{16,}/g;
 const SECRET_SEGMENT = /\/[A-Za-z0-9_-]{32,}(?=[/?#]|$)/g;

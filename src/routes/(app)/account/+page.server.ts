@@ -7,6 +7,8 @@ import * as auth from '$lib/server/people/auth';
 import * as people from '$lib/server/people/people';
 import { newPasswordField } from '$lib/validation';
 import * as notifications from '$lib/server/people/notifications';
+import * as phone from '$lib/server/people/phone';
+import { CHANNELS, type ChannelChoices } from '$lib/page-channels';
 import {
 	CHOOSABLE_KINDS,
 	DIGEST_PERIODS_MIN,
@@ -27,6 +29,9 @@ export const load: PageServerLoad = ({ locals }) => {
 	return {
 		preferences: notifications.preferencesOf(user.id),
 		waiting: notifications.waitingFor(user.id).length,
+		phone: phone.phoneSettingsOf(user.id),
+		pageKinds: phone.PAGE_KINDS,
+		dutyScientist: user.roles.includes('duty'),
 		sessions: auth
 			.listSessions(user.id)
 			.map((s) => ({ ...s, current: s.id === current, id: s.id.slice(0, 12) }))
@@ -78,7 +83,52 @@ const preferencesSchema = z
 		if (!v.quietAction) ctx.addIssue({ code: 'custom', path: ['quietAction'], message: 'Choose what happens to mail during quiet hours.' });
 	});
 
+const phoneSchema = z.object({
+	phone: z.string({ error: 'Give your phone number.' }).trim().min(1, 'Give your phone number.').max(40, 'A phone number has at most 15 digits: this is far too long.')
+});
+const codeSchema = z.object({
+	code: z.string({ error: 'Type the code from the text message.' }).trim().min(1, 'Type the code from the text message.').max(12, 'The code has six digits.')
+});
+const channelsSchema = z.object(
+	Object.fromEntries(phone.PAGE_KINDS.map((k) => [`channel.${k}`, z.array(z.enum(CHANNELS, { error: 'Choose e-mail, text message or voice call.' })).max(CHANNELS.length)]))
+);
+
 export const actions: Actions = {
+	phone: async ({ request }) => {
+		const user = requireUser('account.manage');
+		const { data, form, failure } = await validateForm(request, phoneSchema);
+		if (failure) return failure;
+		try {
+			const number = await phone.requestVerification(user.id, data.phone);
+			return { done: `A code was texted to ${number}: type it below to verify the number.`, section: 'phone' };
+		} catch (e) {
+			return failFromError(form, e, { field: 'phone' });
+		}
+	},
+	verifyPhone: async ({ request }) => {
+		const user = requireUser('account.manage');
+		const { data, form, failure } = await validateForm(request, codeSchema);
+		if (failure) return failure;
+		try {
+			const number = phone.verifyCode(user.id, data.code);
+			return { done: `${number} is verified: pages can now reach you by text or voice.`, section: 'phone' };
+		} catch (e) {
+			return failFromError(form, e, { field: 'code' });
+		}
+	},
+	channels: async ({ request }) => {
+		const user = requireUser('account.manage');
+		const fields = phone.PAGE_KINDS.map((k) => `channel.${k}`);
+		const { data, form, failure } = await validateForm(request, channelsSchema, fields);
+		if (failure) return failure;
+		const choices: ChannelChoices = Object.fromEntries(phone.PAGE_KINDS.map((k) => [k, (data as Record<string, (typeof CHANNELS)[number][]>)[`channel.${k}`]]));
+		try {
+			phone.saveChannels(user, choices);
+		} catch (e) {
+			return failFromError(form, e);
+		}
+		return { done: 'How pages reach you is saved.', section: 'phone' };
+	},
 	notifications: async ({ request }) => {
 		const user = requireUser('account.manage');
 		const { data, form, failure } = await validateForm(request, preferencesSchema, ['eventClasses']);

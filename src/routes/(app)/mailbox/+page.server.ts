@@ -2,6 +2,7 @@ import { error } from '@sveltejs/kit';
 import type { PageServerLoad } from './$types';
 import { requirePermission } from '$lib/server/people/guard';
 import { usesFakeSmtp } from '$lib/server/platform/mail';
+import { usesFakePhone } from '$lib/server/platform/phone';
 import { receivedMail, fakeSmtpPort, fakeSmtpSpoolDir } from '$lib/server/platform/fake-smtp';
 import { mailParts } from '$lib/server/platform/mail-view';
 import { fakeWebhookPort } from '$lib/server/platform/fake-webhook';
@@ -13,5 +14,5 @@ export const load: PageServerLoad = () => {
 	const messages = receivedMail()
 		.slice(0, 100)
 		.map((m) => ({ id: m.id, subject: m.subject, to: m.to, receivedAt: m.receivedAt, parts: mailParts(m.text) }));
-	return { messages, port: fakeSmtpPort(), spoolDir: fakeSmtpSpoolDir(), webhookCatcher: fakeWebhookPort() !== null };
+	return { messages, port: fakeSmtpPort(), spoolDir: fakeSmtpSpoolDir(), webhookCatcher: fakeWebhookPort() !== null, phoneLog: usesFakePhone() };
 };

@@ -3,6 +3,7 @@ import { ROLES_LIST } from '../../../roles';
 import type { SkymapSummary } from '../../../sky/index';
 import { NOTIFICATION_KINDS, QUIET_ACTIONS, type KindChoice, type NotificationKind, type SourceClass } from '../../../notifications';
 import type { Classification, TriageVerdict } from '../../../event-view';
+import { CHANNELS, type ChannelChoices } from '../../../page-channels';
 import { CLOSE_REASONS } from '../../../event-view';
 import type { KilonovaVerdict, ThresholdChanges } from '../../../candidates/rules';
 import type { CandidateVetting } from '../../../candidates/vetting';
@@ -443,6 +444,85 @@ export const dutyPage = sqliteTable(
 	},
 	(t) => [index('duty_page_event_idx').on(t.eventId), index('duty_page_open_idx').on(t.acknowledgedAt)]
 );
+
+/** A person's phone number for pages (E.164) and how each kind of notification reaches them. */
+export const phoneContact = sqliteTable('phone_contact', {
+	userId: text('user_id')
+		.primaryKey()
+		.references(() => user.id, { onDelete: 'cascade' }),
+	/** The verified number, or null. */
+	number: text('number'),
+	verifiedAt: integer('verified_at', { mode: 'timestamp_ms' }),
+	/** A number waiting for its code, the code's SHA-256 (hex), when it expires and how often it was tried. */
+	pendingNumber: text('pending_number'),
+	codeHash: text('code_hash'),
+	codeExpiresAt: integer('code_expires_at', { mode: 'timestamp_ms' }),
+	codeTries: integer('code_tries').notNull().default(0),
+	/** kind → channels; a kind not listed goes by e-mail only. */
+	channels: text('channels', { mode: 'json' }).$type<ChannelChoices>().notNull(),
+	updatedAt: integer('updated_at', { mode: 'timestamp_ms' }).notNull()
+});
+
+export const PAGE_MESSAGE_STATES = ['queued', 'sent', 'failed'] as const;
+
+/**
+ * One page (or stand-down) to one person by one channel: the outbox the sender drains. A failed
+ * try is retried with back-off until `PAGE_SEND_MAX_ATTEMPTS`; then it stays 'failed', in view.
+ */
+export const pageMessage = sqliteTable(
+	'page_message',
+	{
+		id: text('id').primaryKey(),
+		eventId: text('event_id')
+			.notNull()
+			.references(() => gwEvent.id, { onDelete: 'cascade' }),
+		/** The duty page this message carries; null for a stand-down. */
+		pageId: text('page_id').references(() => dutyPage.id, { onDelete: 'cascade' }),
+		userId: text('user_id')
+			.notNull()
+			.references(() => user.id, { onDelete: 'cascade' }),
+		kind: text('kind', { enum: NOTIFICATION_KINDS }).notNull(),
+		channel: text('channel', { enum: CHANNELS }).notNull(),
+		/** E-mail address or E.164 number, as it was when queued. */
+		address: text('address').notNull(),
+		subject: text('subject').notNull(),
+		body: text('body').notNull(),
+		status: text('status', { enum: PAGE_MESSAGE_STATES }).notNull().default('queued'),
+		attempts: integer('attempts').notNull().default(0),
+		nextAttemptAt: integer('next_attempt_at', { mode: 'timestamp_ms' }),
+		lastError: text('last_error'),
+		/** The messaging service's id of the message or call. */
+		providerRef: text('provider_ref'),
+		createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull(),
+		sentAt: integer('sent_at', { mode: 'timestamp_ms' })
+	},
+	(t) => [index('page_message_due_idx').on(t.status, t.nextAttemptAt), index('page_message_page_idx').on(t.pageId)]
+);
+
+/**
+ * The one-time acknowledgement of one page: the link's single use and the short code a text reply
+ * may carry. The link itself is signed (duty/ack-links.ts); this row makes it single-use.
+ */
+export const pageAck = sqliteTable(
+	'page_ack',
+	{
+		pageId: text('page_id')
+			.primaryKey()
+			.references(() => dutyPage.id, { onDelete: 'cascade' }),
+		userId: text('user_id')
+			.notNull()
+			.references(() => user.id, { onDelete: 'cascade' }),
+		/** Short reply code ("K7Q4M2"), unique among the codes of one person. */
+		code: text('code').notNull(),
+		expiresAt: integer('expires_at', { mode: 'timestamp_ms' }).notNull(),
+		usedAt: integer('used_at', { mode: 'timestamp_ms' })
+	},
+	(t) => [uniqueIndex('page_ack_user_code_idx').on(t.userId, t.code)]
+);
+
+export type PhoneContact = typeof phoneContact.$inferSelect;
+export type PageMessage = typeof pageMessage.$inferSelect;
+export type PageAck = typeof pageAck.$inferSelect;
 
 export type GwEvent = typeof gwEvent.$inferSelect;
 export type Notice = typeof notice.$inferSelect;
