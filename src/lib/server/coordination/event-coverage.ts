@@ -6,13 +6,20 @@
  * observations are re-evaluated on it, so the figure follows the localisation.
  *
  * The union is `coverage()` (src/lib/targeting/coverage.ts, checked against healpy on committed
- * fixtures); this module only gathers the inputs and caches the result per (map, observations).
+ * fixtures); this module gathers the inputs and caches the result per (map, observations).
+ *
+ * Once per upload, incrementally: observations are append-only, so the union's state is kept per
+ * event and map, and when new observations arrive only they are added (`extendCoverage`: the sky
+ * they touch is visited, nothing else). An observation earlier than the latest one already
+ * counted, a new map, or a removed observation makes it start afresh. The computation runs on the
+ * work pool with the map's shared copy (`loadSkyMap`); the event loop only reads rows.
  */
 import { and, eq, sql } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
-import { clearSkyMapCache, skyMapById } from '../alerts/skymap-cache';
-import { coverage, galaxyCoverage, type ObservedFootprint } from '../../targeting/coverage.ts';
+import { clearSkyMapCache, loadSkyMap } from '../alerts/skymap-cache';
+import { runWork } from '../platform/work-pool';
+import type { CoverageState, ExtendMode, ObservedFootprint } from '../../targeting/coverage.ts';
 import type { FootprintShape } from '../../targeting/sky-geometry.ts';
 import { footprintOf } from '../../targeting/telescope.ts';
 import { pointingsWithOptics } from './observations';
@@ -69,12 +76,26 @@ export interface EventCoverage {
 	footprints: ObservedFootprintView[];
 	mergerTime: string | null;
 	computeMs: number;
+	/** How the union was brought up to date: extended by the new observations, or computed afresh. */
+	update: ExtendMode;
 }
 
 let resultCache: { key: string; value: EventCoverage } | null = null;
+/** Computations under way, by key: page loads that arrive together wait for the same one. */
+const pending = new Map<string, Promise<EventCoverage | null>>();
+
+/** Union states kept (the events being followed now); the least recently used dropped first. */
+const KEPT_STATES = 8;
+interface KeptState {
+	skymapId: string;
+	/** Observation ids in the state. */
+	ids: Set<string>;
+	state: CoverageState;
+}
+const unionStates = new Map<string, KeptState>();
 
 /** Coverage of an event's completed observations on its current map; null without a usable map. */
-export function eventCoverage(eventId: string): EventCoverage | null {
+export async function eventCoverage(eventId: string): Promise<EventCoverage | null> {
 	const event = db.select({ skymapId: table.gwEvent.latestSkymapId, eventTime: table.gwEvent.eventTime }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
 	if (!event?.skymapId) return null;
 	const sky = db.select({ id: table.skymap.id, filePath: table.skymap.filePath, error: table.skymap.error }).from(table.skymap).where(eq(table.skymap.id, event.skymapId)).get();
@@ -89,7 +110,18 @@ export function eventCoverage(eventId: string): EventCoverage | null {
 	const rankedCount = count(table.eventGalaxy, eq(table.eventGalaxy.eventId, eventId));
 	const key = [sky.id, count(table.observation, eq(table.observation.eventId, eventId)), count(table.claim, doneGalaxy), rankedCount].join('|');
 	if (resultCache?.key === key) return resultCache.value;
+	const running = pending.get(key);
+	if (running) return running;
+	const work = compute(eventId, key, sky.id, event.eventTime, rankedCount, doneGalaxy);
+	pending.set(key, work);
+	try {
+		return await work;
+	} finally {
+		pending.delete(key);
+	}
+}
 
+async function compute(eventId: string, key: string, skymapId: string, eventTime: Date | null, rankedCount: number, doneGalaxy: ReturnType<typeof and>): Promise<EventCoverage | null> {
 	const rows = pointingsWithOptics(eventId).map(({ o, ...about }) => ({ ...o, ...about }));
 	const doneGalaxyClaims = db
 		.select({ targetId: table.claim.targetId, teamId: table.claim.teamId, teamName: table.team.name })
@@ -99,16 +131,19 @@ export function eventCoverage(eventId: string): EventCoverage | null {
 		.all();
 
 	const t0 = performance.now();
-	const map = skyMapById(sky.id);
+	const map = await loadSkyMap(skymapId);
 	if (!map) return null;
-	const mergerMs = event.eventTime ? event.eventTime.getTime() : null;
+	const mergerMs = eventTime ? eventTime.getTime() : null;
 	const hours = (ms: number) => (mergerMs === null ? ms / 3_600_000 : (ms - mergerMs) / 3_600_000);
-	const footprints: ObservedFootprint[] = rows.map((r) => ({ id: r.id, groupId: r.teamId, timeMs: r.observedAt.getTime(), raDeg: r.raDeg, decDeg: r.decDeg, ...footprintOf(r) }));
-	const union = coverage(map, footprints, { pixelsAcross: PIXELS_ACROSS, mergerTimeMs: mergerMs ?? undefined });
+	const footprintOfRow = (r: (typeof rows)[number]): ObservedFootprint => ({ id: r.id, groupId: r.teamId, timeMs: r.observedAt.getTime(), raDeg: r.raDeg, decDeg: r.decDeg, ...footprintOf(r) });
 
-	let galaxies: EventCoverage['galaxies'] = null;
-	let galaxyCurve: [number, number][] = [];
-	const galaxyByTeam = new Map<string, number>();
+	// The kept state when it is this map's and holds only observations still there.
+	let kept = unionStates.get(eventId) ?? null;
+	const added = kept ? rows.filter((r) => !kept!.ids.has(r.id)) : rows;
+	if (kept && (kept.skymapId !== skymapId || kept.ids.size + added.length !== rows.length)) kept = null;
+	const fresh = kept === null;
+
+	let galaxyInput: { ranked: { id: string; ra: number; dec: number; probability: number }[]; claims: { targetId: string; teamId: string }[]; teamIds: string[] } | null = null;
 	if (rankedCount > 0) {
 		const ranked = db
 			.select({ id: table.eventGalaxy.galaxyId, ra: table.galaxy.raDeg, dec: table.galaxy.decDeg, probability: table.eventGalaxy.probability })
@@ -117,19 +152,31 @@ export function eventCoverage(eventId: string): EventCoverage | null {
 			.where(eq(table.eventGalaxy.eventId, eventId))
 			.all()
 			.map((g) => ({ ...g, id: String(g.id) }));
-		const gc = galaxyCoverage(ranked, { galaxyIds: doneGalaxyClaims.map((c) => c.targetId), footprints });
+		const teamIds = [...new Set([...rows, ...doneGalaxyClaims].map((r) => r.teamId))];
+		galaxyInput = { ranked, claims: doneGalaxyClaims.map((c) => ({ targetId: c.targetId, teamId: c.teamId })), teamIds };
+	}
+	const out = await runWork('eventCoverage', {
+		map,
+		state: fresh ? null : kept!.state,
+		added: (fresh ? rows : added).map(footprintOfRow),
+		options: { pixelsAcross: PIXELS_ACROSS, mergerTimeMs: mergerMs ?? undefined },
+		galaxies: galaxyInput
+	});
+	const union = out.coverage;
+	const ids = fresh ? new Set(rows.map((r) => r.id)) : new Set([...kept!.ids, ...added.map((r) => r.id)]);
+	unionStates.delete(eventId);
+	unionStates.set(eventId, { skymapId, ids, state: out.state });
+	while (unionStates.size > KEPT_STATES) unionStates.delete(unionStates.keys().next().value!);
+
+	let galaxies: EventCoverage['galaxies'] = null;
+	let galaxyCurve: [number, number][] = [];
+	const galaxyByTeam = new Map<string, number>(out.galaxies?.byTeam ?? []);
+	if (out.galaxies) {
+		const gc = out.galaxies.overall;
 		// Stored probabilities are normalised over every candidate of the ranking, so the observed
 		// sum is already the fraction of the whole ranked probability (not just of the stored top).
 		galaxies = { ranked: rankedCount, observedCount: gc.observedCount, probability: gc.observedProbability };
 		galaxyCurve = gc.curve.map((p) => [hours(p.timeMs), p.probability]);
-		// Per team: galaxies inside its own footprints or named by its own completed claims, each once.
-		for (const teamId of new Set([...rows, ...doneGalaxyClaims].map((r) => r.teamId))) {
-			const own = galaxyCoverage(ranked, {
-				galaxyIds: doneGalaxyClaims.filter((c) => c.teamId === teamId).map((c) => c.targetId),
-				footprints: footprints.filter((f) => f.groupId === teamId)
-			});
-			galaxyByTeam.set(teamId, own.observedProbability);
-		}
 	}
 
 	const teamNames = new Map([...rows, ...doneGalaxyClaims].map((r) => [r.teamId, r.teamName]));
@@ -148,7 +195,7 @@ export function eventCoverage(eventId: string): EventCoverage | null {
 
 	const own = new Map(union.footprints.map((f) => [f.id, f.probability]));
 	const value: EventCoverage = {
-		skymapId: sky.id,
+		skymapId,
 		observations: rows.length,
 		union: union.union,
 		errorBound: union.errorBound,
@@ -170,8 +217,9 @@ export function eventCoverage(eventId: string): EventCoverage | null {
 			limitingMag: r.limitingMag,
 			probability: own.get(r.id) ?? 0
 		})),
-		mergerTime: event.eventTime?.toISOString() ?? null,
-		computeMs: performance.now() - t0
+		mergerTime: eventTime?.toISOString() ?? null,
+		computeMs: performance.now() - t0,
+		update: fresh ? 'recomputed' : out.mode
 	};
 	resultCache = { key, value };
 	return value;
@@ -181,4 +229,5 @@ export function eventCoverage(eventId: string): EventCoverage | null {
 export function clearCoverageCache(): void {
 	clearSkyMapCache();
 	resultCache = null;
+	unionStates.clear();
 }

@@ -16,8 +16,21 @@ import { buildCatalogIndex, rankGalaxies, type CatalogIndex, type GalaxyCatalog,
 import { rankFields, tileSky, type FieldOfView, type FieldRankOptions, type FieldRanking, type Tiling } from '../../targeting/fields.ts';
 import { planNetwork } from '../../targeting/plan.ts';
 import type { NetworkPlan, PlanInput } from '../../targeting/plan-types.ts';
-import { coverage, type Coverage, type CoverageOptions, type ObservedFootprint } from '../../targeting/coverage.ts';
+import {
+	coverage,
+	coverageWithState,
+	extendCoverage,
+	galaxyCoverage,
+	type Coverage,
+	type CoverageOptions,
+	type CoverageState,
+	type ExtendMode,
+	type GalaxyCoverage,
+	type GalaxyProbability,
+	type ObservedFootprint
+} from '../../targeting/coverage.ts';
 import { readSpectrum, SpectrumError, summariseSpectrum, type ReadSpectrumOptions, type Spectrum, type SpectrumSummary } from '../../candidates/spectrum.ts';
+import { buildReport, type EventReport, type ReportInputs } from '../../closeout/report.ts';
 import { createHash } from 'node:crypto';
 import { shareArrays } from './work-memory.ts';
 
@@ -80,6 +93,39 @@ export const TASKS = {
 	/** Union coverage of footprints on a map. */
 	coverage(input: { map: SkyMap; observed: ObservedFootprint[]; options: CoverageOptions }): Coverage {
 		return coverage(input.map, input.observed, input.options);
+	},
+
+	/**
+	 * An event's coverage: `added` footprints added to the union of `state` (null: computed afresh
+	 * from `added`), visiting only the sky they touch (`extendCoverage`); and, with `galaxies`,
+	 * the ranked galaxy probability observed, overall and per team (footprints of the team plus
+	 * galaxies its completed claims name). The new state comes back for the next call.
+	 */
+	eventCoverage(input: {
+		map: SkyMap;
+		state: CoverageState | null;
+		added: ObservedFootprint[];
+		options: CoverageOptions;
+		galaxies: { ranked: GalaxyProbability[]; claims: { targetId: string; teamId: string }[]; teamIds: string[] } | null;
+	}): { coverage: Coverage; state: CoverageState; mode: ExtendMode; galaxies: { overall: GalaxyCoverage; byTeam: [string, number][] } | null } {
+		const union = input.state ? extendCoverage(input.map, input.state, input.added, input.options) : { ...coverageWithState(input.map, input.added, input.options), mode: 'recomputed' as const };
+		let galaxies = null;
+		if (input.galaxies) {
+			const { ranked, claims, teamIds } = input.galaxies;
+			const all = union.state.ranked;
+			const overall = galaxyCoverage(ranked, { galaxyIds: claims.map((c) => c.targetId), footprints: all });
+			const byTeam = teamIds.map((teamId): [string, number] => [
+				teamId,
+				galaxyCoverage(ranked, { galaxyIds: claims.filter((c) => c.teamId === teamId).map((c) => c.targetId), footprints: all.filter((f) => f.groupId === teamId) }).observedProbability
+			]);
+			galaxies = { overall, byTeam };
+		}
+		return { ...union, galaxies };
+	},
+
+	/** The event's report from its rows (its union coverage by team and by filter is most of the work). */
+	buildReport(input: ReportInputs): EventReport {
+		return buildReport(input);
 	},
 
 	/** Read a spectrum file (ASCII, FITS table or 1-D image) and summarise it; the bytes come back for storing. */
