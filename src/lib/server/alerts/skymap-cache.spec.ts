@@ -22,6 +22,10 @@ vi.mock('../platform/storage', async (importOriginal) => {
 		readStoredFile: (path: string) => {
 			reads.push(path);
 			return real.readStoredFile(path);
+		},
+		readStoredFileAsync: (path: string) => {
+			reads.push(path);
+			return real.readStoredFileAsync(path);
 		}
 	};
 });
@@ -71,7 +75,7 @@ describe('the sky-map loader', () => {
 		const current = currentSkyMap(eventId!)!;
 		// The ranking job ran on that map.
 		expect(db.select().from(table.eventTargetsMeta).where(eq(table.eventTargetsMeta.eventId, eventId!)).get()?.skymapId).toBe(current.skymapId);
-		expect(eventCoverage(eventId!)).toMatchObject({ skymapId: current.skymapId, observations: 0 });
+		expect(await eventCoverage(eventId!)).toMatchObject({ skymapId: current.skymapId, observations: 0 });
 		expect(skyMapById(current.skymapId)).toBe(current.map);
 		// The only file read is ingestion's read of the upload; the stored copy is never parsed again.
 		expect(reads).toEqual([upload]);
@@ -86,7 +90,7 @@ describe('the sky-map loader', () => {
 
 		const last = `m${CACHED_SKY_MAPS}`;
 		expect(currentSkyMap('ev-1')?.skymapId).toBe(last);
-		expect(eventCoverage('ev-1')?.skymapId).toBe(last);
+		expect((await eventCoverage('ev-1'))?.skymapId).toBe(last);
 		expect(currentSkyMap('ev-1')?.map).toBe(skyMapById(last));
 		expect(reads).toHaveLength(2);
 

@@ -77,10 +77,10 @@ function crowdedEvent(pointings: number): { coordinator: SessionUser; observer: 
 }
 
 describe('the event page of a crowded event', () => {
-	it(`sends aggregates, not every one of ${POINTINGS.toLocaleString('en-GB')} pointings: under 300 kB`, () => {
+	it(`sends aggregates, not every one of ${POINTINGS.toLocaleString('en-GB')} pointings: under 300 kB`, async () => {
 		expect.hasAssertions();
 		const { coordinator } = crowdedEvent(POINTINGS);
-		const first = eventPage('ev-crowd', coordinator)!;
+		const first = (await eventPage('ev-crowd', coordinator))!;
 		// Every pointing counts in the figures…
 		expect(first.coverage!.observations).toBe(POINTINGS);
 		expect(first.sky.footprintCount.pointings).toBe(POINTINGS);
@@ -96,7 +96,7 @@ describe('the event page of a crowded event', () => {
 
 		// A warm load (coverage cached, as it is between pointings): the size and time a crowd sees.
 		const t0 = performance.now();
-		const warm = eventPage('ev-crowd', coordinator)!;
+		const warm = (await eventPage('ev-crowd', coordinator))!;
 		const ms = performance.now() - t0;
 		const bytes = Buffer.byteLength(JSON.stringify(warm));
 		expect(bytes).toBeLessThan(300_000);

@@ -20,12 +20,12 @@ import { thinStepCurve } from '../../sky-view/step-curve.ts';
 import { COVERAGE_CURVE_POINTS_MAX } from '../../limits.ts';
 
 /** The event page's data for `user`; null when there is no such event. */
-export function eventPage(eventId: string, user: SessionUser | null) {
+export async function eventPage(eventId: string, user: SessionUser | null) {
 	const event = eventDetail(eventId);
 	if (!event) return null;
 	const usable = event.skymaps.filter((m) => !m.error);
 	const current = usable.findLast((m) => m.noticeId === event.skymap?.noticeId) ?? usable.at(-1);
-	const covered = eventCoverage(event.id);
+	const covered = await eventCoverage(event.id);
 	// Telescopes the viewer may claim with: their teams' (coordinators: every one).
 	const scopes = user ? telescopesFor(user) : [];
 	const telescopes = user && can({ user, telescopeId: null }, 'claims.create') ? scopes.map((t) => ({ id: t.id, name: t.name, teamName: t.teamName, wide: isWideField(t) })) : [];

@@ -18,7 +18,7 @@ export type ReportMailOutcome = { sent: true; to: string; bytes: { markdown: num
 export async function sendReportToList(eventId: string, now = new Date()): Promise<ReportMailOutcome> {
 	const { address } = mailingList();
 	if (!address) return { sent: false, reason: 'no-address' };
-	const report = eventReport(eventId, now);
+	const report = await eventReport(eventId, now);
 	const markdown = reportMarkdown(report);
 	const pdf = await reportPdf(report, recordSky(eventId));
 	const id = report.event.sourceEventId;

@@ -33,7 +33,7 @@ type Doc = InstanceType<typeof PDFDocument>;
 
 /** An event's report as a PDF file: its name and bytes. */
 export async function recordPdf(eventId: string, now = new Date()): Promise<{ fileName: string; bytes: Buffer }> {
-	const report = eventReport(eventId, now);
+	const report = await eventReport(eventId, now);
 	return { fileName: reportFileName(report.event.sourceEventId, 'pdf'), bytes: await reportPdf(report, recordSky(eventId)) };
 }
 

@@ -120,9 +120,9 @@ afterAll(async () => {
 });
 
 describe('the event report gathered from the rows', () => {
-	it('covers what healpy finds on the same map and footprints, per team too', () => {
+	it('covers what healpy finds on the same map and footprints, per team too', async () => {
 		expect.assertions(4 + 2 * 3);
-		const r = eventReport(w.eventId, new Date('2026-03-05T00:00:00Z'));
+		const r = await eventReport(w.eventId, new Date('2026-03-05T00:00:00Z'));
 		const bound = r.coverage.errorBound!;
 		// The stated worst case holds, and the actual difference is far smaller (miscounts along an edge cancel).
 		expect(Math.abs(r.coverage.sky! - ref.expected.sky)).toBeLessThan(2e-3);
@@ -136,10 +136,10 @@ describe('the event report gathered from the rows', () => {
 		}
 	});
 
-	it('takes its times and counts from the stored rows', () => {
+	it('takes its times and counts from the stored rows', async () => {
 		expect.assertions(8);
 		classifyCandidate(w.spectroA, w.candidateId, { label: 'kilonova', confidence: 'medium' }, new Date('2026-03-02T00:00:00Z'));
-		const r = eventReport(w.eventId, new Date('2026-03-05T00:00:00Z'));
+		const r = await eventReport(w.eventId, new Date('2026-03-05T00:00:00Z'));
 		const count = (t: typeof table.notice | typeof table.observation | typeof table.candidate, col: typeof table.notice.eventId | typeof table.observation.eventId | typeof table.candidate.eventId) =>
 			db.select({ n: sql<number>`count(*)` }).from(t).where(eq(col, w.eventId)).get()!.n;
 		expect(r.counts).toEqual({
@@ -157,20 +157,20 @@ describe('the event report gathered from the rows', () => {
 		expect(r.participants.people.find((p) => p.name === w.duty.name)?.deeds).toEqual(['acknowledged']);
 	});
 
-	it('refuses an unknown event', () => {
+	it('refuses an unknown event', async () => {
 		expect.assertions(1);
-		expect(() => eventReport('no-such-event')).toThrow(EventNotFound);
+		await expect(eventReport('no-such-event')).rejects.toThrow(EventNotFound);
 	});
 });
 
 describe('the coordinator’s note', () => {
-	it('is saved, replaced, shown in the report and removed when blank', () => {
+	it('is saved, replaced, shown in the report and removed when blank', async () => {
 		expect.assertions(5);
 		saveRecordNote(w.coordinator, w.eventId, '  First draft.  ');
 		saveRecordNote(w.coordinator, w.eventId, 'Clouds at two sites on the second night.');
 		expect(recordNote(w.eventId)?.text).toBe('Clouds at two sites on the second night.');
 		expect(recordNote(w.eventId)?.updatedBy).toBe(w.coordinator.name);
-		expect(eventReport(w.eventId).annotation?.text).toBe('Clouds at two sites on the second night.');
+		expect((await eventReport(w.eventId)).annotation?.text).toBe('Clouds at two sites on the second night.');
 		saveRecordNote(w.coordinator, w.eventId, '   ');
 		expect(recordNote(w.eventId)).toBeNull();
 		expect(() => saveRecordNote(w.coordinator, w.eventId, 'x'.repeat(5000))).toThrow(InputError);
@@ -184,7 +184,7 @@ describe('the PDF and the mail to the list', () => {
 	it('makes a PDF with the curve and the sky drawn', async () => {
 		expect.assertions(5);
 		saveRecordNote(w.coordinator, w.eventId, 'Clouds at two sites.');
-		const pdf = await reportPdf(eventReport(w.eventId), recordSky(w.eventId));
+		const pdf = await reportPdf(await eventReport(w.eventId), recordSky(w.eventId));
 		expect(pdf.subarray(0, 5).toString('latin1')).toBe('%PDF-');
 		const pages = pageCount(pdf);
 		expect(pages).toBeGreaterThanOrEqual(2);
@@ -207,7 +207,7 @@ describe('the PDF and the mail to the list', () => {
 		expect(mail.subject).toContain(w.sourceEventId);
 		const md = mail.attachments.find((a) => a.filename.endsWith('.md'))!;
 		const pdf = mail.attachments.find((a) => a.filename.endsWith('.pdf'))!;
-		expect(md.content.toString('utf8')).toContain(`**${(eventReport(w.eventId).coverage.sky! * 100).toFixed(1)}%**`);
+		expect(md.content.toString('utf8')).toContain(`**${((await eventReport(w.eventId)).coverage.sky! * 100).toFixed(1)}%**`);
 		expect(pdf.content.subarray(0, 5).toString('latin1')).toBe('%PDF-');
 		expect(pdf.contentType).toBe('application/pdf');
 	});

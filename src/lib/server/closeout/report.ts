@@ -12,10 +12,11 @@ import * as table from '../platform/db/schema';
 import { InputError, DomainError } from '../platform/errors';
 import type { SessionUser } from '../people/auth';
 import { getEvent, skymapDisplay } from '../alerts/events';
-import { skyMapById } from '../alerts/skymap-cache';
+import { loadSkyMap } from '../alerts/skymap-cache';
+import { runWork } from '../platform/work-pool';
 import { listCandidates } from '../candidates/candidates';
 import { getCandidateDetailById } from '../candidates/detail';
-import { buildReport, type EventReport, type ReportCandidate, type ReportDeedInput, type ReportAnnotation } from '../../closeout/report.ts';
+import { type EventReport, type ReportCandidate, type ReportDeedInput, type ReportAnnotation } from '../../closeout/report.ts';
 import { footprintOf } from '../../targeting/telescope.ts';
 import { pointingsWithOptics } from '../coordination/observations';
 import { reportMarkdown } from '../../closeout/markdown.ts';
@@ -36,13 +37,16 @@ export function reportFileName(sourceEventId: string, ext: 'md' | 'pdf'): string
 }
 
 /** The report as a Markdown file: its name and text. */
-export function recordMarkdown(eventId: string, now = new Date()): { fileName: string; text: string } {
-	const report = eventReport(eventId, now);
+export async function recordMarkdown(eventId: string, now = new Date()): Promise<{ fileName: string; text: string }> {
+	const report = await eventReport(eventId, now);
 	return { fileName: reportFileName(report.event.sourceEventId, 'md'), text: reportMarkdown(report) };
 }
 
-/** The report of one event, made now from its rows; throws EventNotFound for an unknown id. */
-export function eventReport(eventId: string, now = new Date()): EventReport {
+/**
+ * The report of one event, made now from its rows; throws EventNotFound for an unknown id. The
+ * map is read and the report (its coverage figures) computed on the work pool.
+ */
+export async function eventReport(eventId: string, now = new Date()): Promise<EventReport> {
 	const event = getEvent(eventId);
 	if (!event) throw new EventNotFound(eventId);
 
@@ -52,7 +56,7 @@ export function eventReport(eventId: string, now = new Date()): EventReport {
 		.where(eq(table.dutyPage.eventId, eventId))
 		.get()?.at;
 
-	const map = event.skymap ? skyMapById(event.skymap.skymapId) : null;
+	const map = event.skymap ? await loadSkyMap(event.skymap.skymapId) : null;
 
 	const observations = pointingsWithOptics(eventId);
 
@@ -111,7 +115,7 @@ export function eventReport(eventId: string, now = new Date()): EventReport {
 		? (db.select({ n: sql<number>`count(*)` }).from(table.candidateClassification).where(inArray(table.candidateClassification.candidateId, candidateIds)).get()?.n ?? 0)
 		: 0;
 
-	return buildReport({
+	return runWork('buildReport', {
 		event: {
 			eventId: event.eventId,
 			sourceEventId: event.sourceEventId,

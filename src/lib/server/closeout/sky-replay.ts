@@ -10,9 +10,10 @@ import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { InputError } from '../platform/errors';
 import type { SessionUser } from '../people/auth';
-import { skyMapById } from '../alerts/skymap-cache';
+import { loadSkyMap } from '../alerts/skymap-cache';
+import { runWork } from '../platform/work-pool';
 import { eventSky, footprintsForSky, type SkyViewData } from '../targeting/event-sky';
-import { coverage, type ObservedFootprint } from '../../targeting/coverage.ts';
+import type { Coverage, ObservedFootprint } from '../../targeting/coverage.ts';
 import { footprintOf } from '../../targeting/telescope.ts';
 import { pointingsWithOptics } from '../coordination/observations';
 import { formatProbability } from '../../alerts/display.ts';
@@ -143,14 +144,14 @@ function reportTimes(eventId: string): number[] {
 }
 
 /** Coverage results by (map, number of pointings recorded): a replay drags over the same few steps. */
-const coverageCache = new Map<string, ReturnType<typeof coverage>>();
+const coverageCache = new Map<string, Coverage>();
 const COVERAGE_CACHE_SIZE = 64;
 
 /**
  * The sky view at `at` for one viewer. Refuses a moment outside the event's replay range. Null:
- * no such event.
+ * no such event. The map is read, and the coverage computed, on the work pool.
  */
-export function skyAt(eventId: string, at: Date, viewer: SessionUser | null, now = new Date()): SkyAt | null {
+export async function skyAt(eventId: string, at: Date, viewer: SessionUser | null, now = new Date()): Promise<SkyAt | null> {
 	const t0 = performance.now();
 	const h = history(eventId);
 	if (!h) return null;
@@ -166,14 +167,14 @@ export function skyAt(eventId: string, at: Date, viewer: SessionUser | null, now
 	const base = eventSky(eventId, current?.id ?? null, viewer, null, at, { asOf: true });
 	const rankingIsLater = h.rankingSkymapId !== null && h.rankingSkymapId !== current?.id;
 
-	let cov: ReturnType<typeof coverage> | null = null;
-	const map = current ? skyMapById(current.id) : null;
+	let cov: Coverage | null = null;
+	const map = current ? await loadSkyMap(current.id) : null;
 	if (map && current) {
 		const key = `${current.id}|${recorded.length}|${recorded.at(-1)?.id ?? ''}`;
 		cov = coverageCache.get(key) ?? null;
 		if (!cov) {
 			const footprints: ObservedFootprint[] = recorded.map((o) => ({ id: o.id, groupId: o.teamId, timeMs: o.observedAt.getTime(), raDeg: o.raDeg, decDeg: o.decDeg, ...footprintOf(o.fov) }));
-			cov = coverage(map, footprints, { pixelsAcross: PIXELS_ACROSS });
+			cov = await runWork('coverage', { map, observed: footprints, options: { pixelsAcross: PIXELS_ACROSS } });
 			if (coverageCache.size >= COVERAGE_CACHE_SIZE) coverageCache.delete(coverageCache.keys().next().value!);
 			coverageCache.set(key, cov);
 		}

@@ -194,20 +194,20 @@ describe('eventTimeline', () => {
 });
 
 describe('skyAt', () => {
-	it('shows fewer footprints and claims and less coverage earlier, and switches maps at the update’s receipt', () => {
+	it('shows fewer footprints and claims and less coverage earlier, and switches maps at the update’s receipt', async () => {
 		expect.hasAssertions();
 		const s = scenario();
 		const viewer = s.ann;
-		const early = skyAt('ev-1', at(3), viewer)!;
+		const early = (await skyAt('ev-1', at(3), viewer))!;
 		expect(early.skymap?.skymapId).toBe('map-1');
 		expect(early.counts).toMatchObject({ footprints: 0, openClaims: 0, candidates: 0 });
 		expect(early.coverage?.union).toBe(0);
 
-		const mid = skyAt('ev-1', at(26), viewer)!;
+		const mid = (await skyAt('ev-1', at(26), viewer))!;
 		expect(mid.counts.footprints).toBe(2);
 		expect(mid.counts.openClaims).toBe(2);
 		expect(mid.sky.footprints).toHaveLength(2);
-		const later = skyAt('ev-1', at(56), viewer)!;
+		const later = (await skyAt('ev-1', at(56), viewer))!;
 		expect(later.counts.footprints).toBe(3);
 		// Team b released its claim at +30 min.
 		expect(later.counts.openClaims).toBe(1);
@@ -216,27 +216,27 @@ describe('skyAt', () => {
 		expect(mid.coverage!.union).toBeGreaterThan(0);
 
 		// The update was authored at +60 min but reached us at +61 min.
-		expect(skyAt('ev-1', at(60.5), viewer)!.skymap?.skymapId).toBe('map-1');
-		const updated = skyAt('ev-1', at(61), viewer)!;
+		expect((await skyAt('ev-1', at(60.5), viewer))!.skymap?.skymapId).toBe('map-1');
+		const updated = (await skyAt('ev-1', at(61), viewer))!;
 		expect(updated.skymap).toMatchObject({ skymapId: 'map-2', noticeKind: 'update' });
 
 		// At the end, the replay agrees with the event's own coverage figure (same map, same footprints).
-		const end = skyAt('ev-1', new Date(), viewer)!;
-		expect(end.coverage!.union).toBeCloseTo(eventCoverage('ev-1')!.union, 12);
+		const end = (await skyAt('ev-1', new Date(), viewer))!;
+		expect(end.coverage!.union).toBeCloseTo((await eventCoverage('ev-1'))!.union, 12);
 
-		expect(() => skyAt('ev-1', at(-30), viewer)).toThrow(/Choose a moment between/);
+		await expect(skyAt('ev-1', at(-30), viewer)).rejects.toThrow(/Choose a moment between/);
 		const bounds = replayBounds('ev-1')!;
 		expect(bounds.startMs).toBe(at(2).getTime());
 		expect(bounds.moments).toContain(at(61).getTime());
 		expect(bounds.moments).toContain(at(30).getTime());
-		expect(skyAt('nope', at(3), viewer)).toBeNull();
+		expect(await skyAt('nope', at(3), viewer)).toBeNull();
 	});
 
-	it('takes well under a second per step on a cold cache', () => {
+	it('takes well under a second per step on a cold cache', async () => {
 		expect.hasAssertions();
 		const s = scenario();
 		const t0 = performance.now();
-		const step = skyAt('ev-1', at(56), s.ann)!;
+		const step = (await skyAt('ev-1', at(56), s.ann))!;
 		const ms = performance.now() - t0;
 		console.log(`skyAt one step: ${ms.toFixed(1)} ms (reported computeMs ${step.computeMs.toFixed(1)} ms)`);
 		expect(ms).toBeLessThan(1000);

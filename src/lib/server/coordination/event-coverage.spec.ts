@@ -78,11 +78,11 @@ function observe(f: (typeof ref.footprints)[number]) {
 }
 
 describe('eventCoverage', () => {
-	it('is the union of the reported pointings’ footprints on the current map, per team and in time, as healpy computes it', () => {
+	it('is the union of the reported pointings’ footprints on the current map, per team and in time, as healpy computes it', async () => {
 		world();
-		expect(eventCoverage('ev-1')).toMatchObject({ observations: 0, union: 0, teams: [] });
+		expect(await eventCoverage('ev-1')).toMatchObject({ observations: 0, union: 0, teams: [] });
 		for (const f of ref.footprints) observe(f);
-		const c = eventCoverage('ev-1')!;
+		const c = (await eventCoverage('ev-1'))!;
 		expect(c.observations).toBe(10);
 		// Bound: the module's own pixelisation bound, and 1% of healpy's union in practice.
 		expect(Math.abs(c.union - healpy.union)).toBeLessThanOrEqual(c.errorBound);
@@ -101,25 +101,25 @@ describe('eventCoverage', () => {
 		expect(c.footprints[0]).toMatchObject({ id: expect.any(String), teamId: 'team-a', telescopeName: 'Scope o1', shape: { shape: 'rectangle', widthDeg: 3, heightDeg: 2 } });
 	});
 
-	it('recomputes when an observation arrives or a new map replaces the old one', () => {
+	it('recomputes when an observation arrives or a new map replaces the old one', async () => {
 		world();
 		observe(ref.footprints[0]);
-		const one = eventCoverage('ev-1')!;
-		expect(eventCoverage('ev-1')).toBe(one); // cached
+		const one = (await eventCoverage('ev-1'))!;
+		expect(await eventCoverage('ev-1')).toBe(one); // cached
 		observe(ref.footprints[1]);
-		const two = eventCoverage('ev-1')!;
+		const two = (await eventCoverage('ev-1'))!;
 		expect(two.union).toBeGreaterThan(one.union);
 		expect(Math.abs(two.union - healpy.curve[1].union)).toBeLessThan(0.01 * healpy.curve[1].union);
 		// A map with no probability near the pointings (all of it in the other hemisphere's flat map).
 		const flat = saveFile('skymaps', 'flat.fits', new Uint8Array(readFileSync(FIX + 'sky/flat_ring_map.fits')));
 		db.insert(table.skymap).values({ id: 'map-2', eventId: 'ev-1', noticeId: 'n-1', filePath: flat.path }).run();
 		db.update(table.gwEvent).set({ latestSkymapId: 'map-2' }).run();
-		const moved = eventCoverage('ev-1')!;
+		const moved = (await eventCoverage('ev-1'))!;
 		expect(moved.skymapId).toBe('map-2');
 		expect(moved.union).not.toBe(two.union);
 	});
 
-	it('gives the ranked galaxy probability observed: inside footprints or named by a completed claim, each galaxy once', () => {
+	it('gives the ranked galaxy probability observed: inside footprints or named by a completed claim, each galaxy once', async () => {
 		world();
 		db.insert(table.catalog).values({ id: 'cat', name: 'cat', synthetic: true, columns: {}, state: 'ready' }).run();
 		const gal = (raDeg: number, decDeg: number) =>
@@ -131,11 +131,40 @@ describe('eventCoverage', () => {
 		db.insert(table.claim).values({ id: 'c-1', eventId: 'ev-1', targetKind: 'galaxy', targetId: String(ids[2]), telescopeId: 'tel-o2', teamId: 'team-b', state: 'done', claimedAt: NOW, doneAt: NOW }).run();
 		observe(ref.footprints[0]);
 		observe(ref.footprints[8]);
-		const c = eventCoverage('ev-1')!;
+		const c = (await eventCoverage('ev-1'))!;
 		expect(c.galaxies).toMatchObject({ ranked: 3, observedCount: 2 });
 		expect(c.galaxies!.probability).toBeCloseTo(0.4, 12);
 		expect(c.teams.find((t) => t.teamId === 'team-a')!.galaxyProbability).toBeCloseTo(0.3, 12);
 		expect(c.teams.find((t) => t.teamId === 'team-b')).toMatchObject({ observations: 0, union: 0 });
 		expect(c.teams.find((t) => t.teamId === 'team-b')!.galaxyProbability).toBeCloseTo(0.1, 12);
+	});
+	it('adds new observations to the kept union instead of starting again; an earlier observation starts afresh', async () => {
+		world();
+		const [first, ...rest] = ref.footprints;
+		observe(first);
+		expect((await eventCoverage('ev-1'))!.update).toBe('recomputed');
+		// Two uploads: each page load after it extends the union by that upload's pointings only.
+		for (const batch of [rest.slice(0, 4), rest.slice(4)]) {
+			for (const f of batch) observe(f);
+			expect((await eventCoverage('ev-1'))!.update).toBe('extended');
+		}
+		const extended = (await eventCoverage('ev-1'))!;
+		expect(extended.observations).toBe(10);
+		clearCoverageCache();
+		const fresh = (await eventCoverage('ev-1'))!;
+		expect(fresh.update).toBe('recomputed');
+		// Within the two pixelisation bounds of a fresh computation, and of healpy's union.
+		expect(Math.abs(extended.union - fresh.union)).toBeLessThanOrEqual(extended.errorBound + fresh.errorBound);
+		expect(Math.abs(extended.union - healpy.union)).toBeLessThanOrEqual(extended.errorBound);
+		extended.curve.forEach(([h, p], i) => {
+			expect(h).toBe(fresh.curve[i][0]);
+			expect(Math.abs(p - fresh.curve[i][1])).toBeLessThanOrEqual(extended.errorBound + fresh.errorBound);
+		});
+		expect(extended.teams.map((t) => [t.teamId, t.observations])).toEqual(fresh.teams.map((t) => [t.teamId, t.observations]));
+		// A pointing observed before the latest one counted changes the curve after it: computed afresh.
+		observe({ ...first, minutesAfterMerger: first.minutesAfterMerger + 1 });
+		const again = (await eventCoverage('ev-1'))!;
+		expect(again.update).toBe('recomputed');
+		expect(again.observations).toBe(11);
 	});
 });

@@ -103,7 +103,7 @@ function figures(c: EventCoverage) {
 }
 
 describe('a 9,000-row pointing upload', () => {
-	it('is stored with one live message and one event-log row, and its coverage is computed once and equals a fresh computation', () => {
+	it('is stored with one live message and one event-log row, and its coverage is computed once and equals a fresh computation', async () => {
 		expect.hasAssertions();
 		const { observer, claimId } = world();
 		const text = pointingsCsv();
@@ -134,19 +134,19 @@ describe('a 9,000-row pointing upload', () => {
 		expect(payload.firstObservedAt).toBe('2026-12-02T01:00:00.000Z');
 
 		// Coverage: computed at the first page load after the upload, then served from the cache.
-		const first = eventCoverage('ev-1')!;
+		const first = (await eventCoverage('ev-1'))!;
 		expect(first.observations).toBe(ROWS);
-		expect(eventCoverage('ev-1')).toBe(first);
+		expect(await eventCoverage('ev-1')).toBe(first);
 		expect(first.union).toBeGreaterThan(0);
 		// From scratch (cache dropped, map read again): the same numbers.
 		clearCoverageCache();
-		const fresh = eventCoverage('ev-1')!;
+		const fresh = (await eventCoverage('ev-1'))!;
 		expect(fresh).not.toBe(first);
 		expect(figures(fresh)).toEqual(figures(first));
 		console.log(`9,000-row upload: parse + store ${storeMs.toFixed(0)} ms; coverage of 9,000 footprints ${first.computeMs.toFixed(0)} ms`);
 	}, 120_000);
 
-	it('gives the same pointings, claims and coverage as the same rows reported one by one', () => {
+	it('gives the same pointings, claims and coverage as the same rows reported one by one', async () => {
 		expect.hasAssertions();
 		const text = pointingsCsv().split('\n').slice(0, 1 + 600).join('\n');
 		const parsed = parseObservationCsv(text);
@@ -155,14 +155,14 @@ describe('a 9,000-row pointing upload', () => {
 
 		const one = world();
 		for (const r of rows) report({ user: one.observer }, r, 'csv', NOW);
-		const byRow = figures(eventCoverage('ev-1')!);
+		const byRow = figures((await eventCoverage('ev-1'))!);
 		const byRowClaim = claims.getClaim(one.claimId);
 		const byRowLog = db.select().from(table.eventLog).all().filter((m) => m.action.startsWith('observation.')).length;
 
 		clearCoverageCache();
 		const many = world();
 		reportMany({ user: many.observer }, rows, 'csv', { lines: parsed.lines, now: NOW });
-		const batched = figures(eventCoverage('ev-1')!);
+		const batched = figures((await eventCoverage('ev-1'))!);
 		expect(batched).toEqual(byRow);
 		expect(claims.getClaim(many.claimId)?.state).toBe(byRowClaim?.state);
 		expect(byRowLog).toBe(600);

@@ -456,11 +456,13 @@ export interface PointingView extends table.Observation {
 /**
  * An event's pointings with their team, telescope (name and field of view) and reporting person, in
  * the order they were taken (simultaneous ones in the order they were reported). The one query behind
- * coverage, the record and the replay.
+ * coverage, the record and the replay. `afterRowId`: only those stored after that row (`rowId`), for
+ * a caller that keeps the earlier ones.
  */
-export function pointingsWithOptics(eventId: string) {
+export function pointingsWithOptics(eventId: string, afterRowId?: number) {
 	return db
 		.select({
+			rowId: sql<number>`observation.rowid`,
 			o: table.observation,
 			teamName: table.team.name,
 			telescopeName: table.telescope.name,
@@ -473,7 +475,7 @@ export function pointingsWithOptics(eventId: string) {
 		.innerJoin(table.telescope, eq(table.telescope.id, table.observation.telescopeId))
 		.innerJoin(table.team, eq(table.team.id, table.observation.teamId))
 		.leftJoin(table.user, eq(table.user.id, table.observation.reportedByUserId))
-		.where(eq(table.observation.eventId, eventId))
+		.where(afterRowId === undefined ? eq(table.observation.eventId, eventId) : and(eq(table.observation.eventId, eventId), sql`observation.rowid > ${afterRowId}`))
 		.orderBy(asc(table.observation.observedAt), sql`observation.rowid`)
 		.all();
 }

@@ -16,10 +16,98 @@ import { buildCatalogIndex, rankGalaxies, type CatalogIndex, type GalaxyCatalog,
 import { rankFields, tileSky, type FieldOfView, type FieldRankOptions, type FieldRanking, type Tiling } from '../../targeting/fields.ts';
 import { planNetwork } from '../../targeting/plan.ts';
 import type { NetworkPlan, PlanInput } from '../../targeting/plan-types.ts';
-import { coverage, type Coverage, type CoverageOptions, type ObservedFootprint } from '../../targeting/coverage.ts';
+import {
+	coverage,
+	coverageWithState,
+	extendCoverage,
+	galaxyCoverage,
+	type Coverage,
+	type CoverageOptions,
+	type CoverageState,
+	type ExtendMode,
+	type GalaxyProbability,
+	type ObservedFootprint
+} from '../../targeting/coverage.ts';
 import { readSpectrum, SpectrumError, summariseSpectrum, type ReadSpectrumOptions, type Spectrum, type SpectrumSummary } from '../../candidates/spectrum.ts';
+import { buildReport, type EventReport, type ReportInputs } from '../../closeout/report.ts';
 import { createHash } from 'node:crypto';
 import { shareArrays } from './work-memory.ts';
+
+/** Footprints as typed arrays: group by index into `groupIds`; shape 0 rectangle (width × height), 1 circle (diameter = width). */
+export interface PackedFootprints {
+	raDeg: Float64Array;
+	decDeg: Float64Array;
+	timeMs: Float64Array;
+	width: Float64Array;
+	height: Float64Array;
+	circle: Uint8Array;
+	group: Int32Array;
+	groupIds: string[];
+}
+
+export function packFootprints(fps: ObservedFootprint[]): PackedFootprints {
+	const groupIds: string[] = [];
+	const index = new Map<string, number>();
+	const group = Int32Array.from(fps, (f) => {
+		let g = index.get(f.groupId);
+		if (g === undefined) {
+			g = groupIds.length;
+			groupIds.push(f.groupId);
+			index.set(f.groupId, g);
+		}
+		return g;
+	});
+	return {
+		raDeg: Float64Array.from(fps, (f) => f.raDeg),
+		decDeg: Float64Array.from(fps, (f) => f.decDeg),
+		timeMs: Float64Array.from(fps, (f) => f.timeMs),
+		width: Float64Array.from(fps, (f) => (f.shape === 'circle' ? f.diameterDeg : f.widthDeg)),
+		height: Float64Array.from(fps, (f) => (f.shape === 'circle' ? f.diameterDeg : f.heightDeg)),
+		circle: Uint8Array.from(fps, (f) => (f.shape === 'circle' ? 1 : 0)),
+		group,
+		groupIds
+	};
+}
+
+/** Footprints back as objects; ids are their positions from `firstId` on (the server knows the real ones by position). */
+export function unpackFootprints(p: PackedFootprints, firstId = 0): ObservedFootprint[] {
+	return Array.from(p.raDeg, (raDeg, k) => {
+		const base = { id: String(firstId + k), groupId: p.groupIds[p.group[k]], timeMs: p.timeMs[k], raDeg, decDeg: p.decDeg[k] };
+		return p.circle[k] ? { ...base, shape: 'circle' as const, diameterDeg: p.width[k] } : { ...base, shape: 'rectangle' as const, widthDeg: p.width[k], heightDeg: p.height[k] };
+	});
+}
+
+/** `CoverageState` with its footprints packed (ids are input positions). */
+export type PackedCoverageState = Omit<CoverageState, 'ranked'> & { footprints: PackedFootprints };
+
+function packState(state: CoverageState): PackedCoverageState {
+	const { ranked, ...rest } = state;
+	return { ...rest, footprints: packFootprints(ranked) };
+}
+
+function unpackState(p: PackedCoverageState): CoverageState {
+	const { footprints, ...rest } = p;
+	const ranked = unpackFootprints(footprints);
+	// Ids are input positions: rank r is input inputOf[r].
+	ranked.forEach((f, r) => (f.id = String(p.inputOf[r])));
+	return { ...rest, ranked };
+}
+
+/** What the event's coverage needs back, per input position, in typed arrays. */
+export interface EventCoverageFigures {
+	mode: ExtendMode;
+	state: PackedCoverageState;
+	union: number;
+	errorBound: number;
+	sumOfFootprints: number;
+	groups: Omit<Coverage['groups'][number], 'curve'>[];
+	ownByInput: Float64Array;
+	/** Union after each input's observation (inputs are in time order for the event's rows). */
+	curveByInput: Float64Array;
+	/** The input's group's union after it. */
+	groupCurveByInput: Float64Array;
+	galaxies: { observedCount: number; observedProbability: number; curve: [number, number][]; byTeam: [string, number][] } | null;
+}
 
 /** A catalogue as the index task takes it: the names stay on the server's thread (a million strings would be copied). */
 export type CatalogColumns = Omit<GalaxyCatalog, 'id'>;
@@ -80,6 +168,63 @@ export const TASKS = {
 	/** Union coverage of footprints on a map. */
 	coverage(input: { map: SkyMap; observed: ObservedFootprint[]; options: CoverageOptions }): Coverage {
 		return coverage(input.map, input.observed, input.options);
+	},
+
+	/**
+	 * An event's coverage: `added` footprints added to the union of `state` (null: computed afresh
+	 * from `added`), visiting only the sky they touch (`extendCoverage`); and, with `galaxies`,
+	 * the ranked galaxy probability observed, overall and per team (footprints of the team plus
+	 * galaxies its completed claims name). Footprints and state cross as typed arrays (posting
+	 * thousands of small objects costs the server's thread more than the extension itself); the
+	 * figures come back per input position (inputs: the state's, then `added`).
+	 */
+	eventCoverage(input: {
+		map: SkyMap;
+		state: PackedCoverageState | null;
+		added: PackedFootprints;
+		options: CoverageOptions;
+		galaxies: { ranked: GalaxyProbability[]; claims: { targetId: string; teamId: string }[]; teamIds: string[] } | null;
+	}): EventCoverageFigures {
+		const added = unpackFootprints(input.added, input.state?.footprints.timeMs.length ?? 0);
+		const union = input.state
+			? extendCoverage(input.map, unpackState(input.state), added, input.options)
+			: { ...coverageWithState(input.map, added, input.options), mode: 'recomputed' as const };
+		const c = union.coverage;
+		const n = c.footprints.length;
+		const curveByInput = new Float64Array(n);
+		const groupCurveByInput = new Float64Array(n);
+		const inputOf = union.state.inputOf;
+		c.curve.forEach((p, r) => (curveByInput[inputOf[r]] = p.union));
+		const rankOfId = new Map(union.state.ranked.map((f, r) => [f.id, r]));
+		for (const g of c.groups) for (const p of g.curve) groupCurveByInput[inputOf[rankOfId.get(p.id)!]] = p.union;
+		let galaxies = null;
+		if (input.galaxies) {
+			const { ranked, claims, teamIds } = input.galaxies;
+			const all = union.state.ranked;
+			const overall = galaxyCoverage(ranked, { galaxyIds: claims.map((k) => k.targetId), footprints: all });
+			const byTeam = teamIds.map((teamId): [string, number] => [
+				teamId,
+				galaxyCoverage(ranked, { galaxyIds: claims.filter((k) => k.teamId === teamId).map((k) => k.targetId), footprints: all.filter((f) => f.groupId === teamId) }).observedProbability
+			]);
+			galaxies = { observedCount: overall.observedCount, observedProbability: overall.observedProbability, curve: overall.curve.map((p) => [p.timeMs, p.probability] as [number, number]), byTeam };
+		}
+		return {
+			mode: union.mode,
+			state: packState(union.state),
+			union: c.union,
+			errorBound: c.errorBound,
+			sumOfFootprints: c.sumOfFootprints,
+			groups: c.groups.map(({ curve: _curve, ...g }) => g),
+			ownByInput: Float64Array.from(c.footprints, (f) => f.probability),
+			curveByInput,
+			groupCurveByInput,
+			galaxies
+		};
+	},
+
+	/** The event's report from its rows (its union coverage by team and by filter is most of the work). */
+	buildReport(input: ReportInputs): EventReport {
+		return buildReport(input);
 	},
 
 	/** Read a spectrum file (ASCII, FITS table or 1-D image) and summarise it; the bytes come back for storing. */

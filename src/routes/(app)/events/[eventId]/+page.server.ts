@@ -7,10 +7,10 @@ import * as duty from '$lib/server/duty/paging';
 import { eventPage } from '$lib/server/closeout/event-page';
 import { closeEvent, closeInput, reopenEvent, reopenInput } from '$lib/server/closeout/close';
 
-export const load: PageServerLoad = ({ params, locals, depends }) => {
+export const load: PageServerLoad = async ({ params, locals, depends }) => {
 	requirePermission('events.view');
 	depends('app:event');
-	const page = eventPage(params.eventId, locals.user);
+	const page = await eventPage(params.eventId, locals.user);
 	if (!page) error(404, 'No such event.');
 	return page;
 };

@@ -10,11 +10,11 @@ import { mailingList } from '$lib/server/closeout/mailing-list';
 import { sendReportToList } from '$lib/server/closeout/report-mail';
 import { RECORD_NOTE_MAX_CHARS } from '$lib/limits';
 
-export const load: PageServerLoad = ({ params, locals }) => {
+export const load: PageServerLoad = async ({ params, locals }) => {
 	requirePermission('events.view');
 	let report;
 	try {
-		report = eventReport(params.eventId);
+		report = await eventReport(params.eventId);
 	} catch (e) {
 		if (e instanceof DomainError) error(e.status, e.message);
 		throw e;

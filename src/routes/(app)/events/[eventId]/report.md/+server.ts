@@ -5,10 +5,10 @@ import { recordMarkdown } from '$lib/server/closeout/report';
 import { DomainError } from '$lib/server/platform/errors';
 
 /** The event's report as a Markdown download. */
-export const GET: RequestHandler = ({ params }) => {
+export const GET: RequestHandler = async ({ params }) => {
 	requirePermission('events.view');
 	try {
-		const { fileName, text } = recordMarkdown(params.eventId);
+		const { fileName, text } = await recordMarkdown(params.eventId);
 		return new Response(text, {
 			headers: { 'content-type': 'text/markdown; charset=utf-8', 'content-disposition': `attachment; filename="${fileName}"`, 'cache-control': 'no-store' }
 		});

@@ -8,7 +8,7 @@ import { eventReport } from '$lib/server/closeout/report';
  * coverage: { sky, galaxies, byTeam, byFilter, curve, … }, counts, kilonova, telescopes,
  * candidates, participants, annotation }`; probabilities are fractions 0–1, times ISO 8601 UTC.
  */
-export const GET = apiRoute(({ params }) => {
+export const GET = apiRoute(async ({ params }) => {
 	requirePermission('events.view');
-	return json(eventReport(params.eventId ?? ''));
+	return json(await eventReport(params.eventId ?? ''));
 });

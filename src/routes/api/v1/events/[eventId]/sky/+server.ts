@@ -8,13 +8,13 @@ import { skyAt } from '$lib/server/closeout/sky-replay';
  * rankingIsLater, sky, counts: { footprints, openClaims, candidates }, coverage: { union, errorBound } | null, computeMs }`.
  * 400 when `at` is missing, not a time, or outside the event's range (first notice to close or now).
  */
-export const GET = apiRoute(({ params, url, locals }) => {
+export const GET = apiRoute(async ({ params, url, locals }) => {
 	requirePermission('events.view');
 	const eventId = params.eventId ?? '';
 	const raw = url.searchParams.get('at');
 	const at = raw ? new Date(raw) : null;
 	if (!raw || !at || Number.isNaN(at.getTime())) return apiError(400, 'bad_request', 'Give the moment as at=YYYY-MM-DDTHH:MM:SSZ.');
-	const found = skyAt(eventId, at, locals.user ?? null);
+	const found = await skyAt(eventId, at, locals.user ?? null);
 	if (!found) return apiError(404, 'not_found', `No event ${eventId}.`);
 	return json(found);
 });
