@@ -52,18 +52,29 @@ function remember(skymapId: string, entry: Entry): void {
 }
 
 /**
- * The parsed sky map of row `skymapId`; null when there is no such row or it holds no usable map
- * (its download or analysis failed).
+ * The cached map of row `skymapId` when the cache holds it for the stored content; otherwise the
+ * row and its content key to read it with; null when the row holds no usable map.
  */
-export function skyMapById(skymapId: string): SkyMap | null {
+function lookUp(skymapId: string): { map: SkyMap } | { row: StoredRow & { filePath: string }; content: string } | null {
 	const row = storedRow(skymapId);
 	if (!row || row.error || !row.filePath) return null;
 	const content = contentKey(row);
 	const hit = cache.get(skymapId);
 	if (hit && hit.content === content) {
 		remember(skymapId, hit);
-		return hit.map;
+		return { map: hit.map };
 	}
+	return { row: { ...row, filePath: row.filePath }, content };
+}
+
+/**
+ * The parsed sky map of row `skymapId`; null when there is no such row or it holds no usable map
+ * (its download or analysis failed).
+ */
+export function skyMapById(skymapId: string): SkyMap | null {
+	const look = lookUp(skymapId);
+	if (!look || 'map' in look) return look?.map ?? null;
+	const { row, content } = look;
 	const bytes = readStoredFile(row.filePath);
 	const map = readSkyMap(new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength));
 	remember(skymapId, { content, map });
@@ -76,14 +87,9 @@ export function skyMapById(skymapId: string): SkyMap | null {
  * cover it post it to their threads without a copy. Prefer this wherever the caller can wait.
  */
 export async function loadSkyMap(skymapId: string): Promise<SkyMap | null> {
-	const row = storedRow(skymapId);
-	if (!row || row.error || !row.filePath) return null;
-	const content = contentKey(row);
-	const hit = cache.get(skymapId);
-	if (hit && hit.content === content) {
-		remember(skymapId, hit);
-		return hit.map;
-	}
+	const look = lookUp(skymapId);
+	if (!look || 'map' in look) return look?.map ?? null;
+	const { row, content } = look;
 	const bytes = ownedBytes(await readStoredFileAsync(row.filePath));
 	const map = await runWork('readSkyMap', { bytes }, { transfer: [bytes.buffer] });
 	// Another caller may have read it meanwhile: keep one copy.

@@ -11,12 +11,12 @@ import { and, eq } from 'drizzle-orm';
 import { hmac } from '@oslojs/crypto/hmac';
 import { SHA256 } from '@oslojs/crypto/sha2';
 import { constantTimeEqual } from '@oslojs/crypto/subtle';
-import { decodeBase64urlIgnorePadding, encodeBase64urlNoPadding } from '@oslojs/encoding';
 import { randomInt } from 'node:crypto';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { config } from '../platform/config';
 import { serverSecret } from '../platform/secrets';
+import { openToken, sealToken } from '../platform/signed-token';
 import { ACK_LINK_LIFETIME_H } from '../../limits.ts';
 
 const SECRET_NAME = 'page-ack';
@@ -31,29 +31,18 @@ function mac(payload: Uint8Array, userId: string): Uint8Array {
 }
 
 export function ackToken(pageId: string, userId: string, expiresAt: Date): string {
-	const payload = new TextEncoder().encode(`1:${pageId}:${Math.floor(expiresAt.getTime() / 1000).toString(36)}`);
-	const out = new Uint8Array(payload.length + MAC_BYTES);
-	out.set(payload);
-	out.set(mac(payload, userId), payload.length);
-	return encodeBase64urlNoPadding(out);
+	return sealToken(`1:${pageId}:${Math.floor(expiresAt.getTime() / 1000).toString(36)}`, (payload) => mac(payload, userId));
 }
 
 /** The page a token names and when it expires, once its MAC checks against that page's person; null otherwise. */
 export function readAckToken(token: string): { pageId: string; userId: string; expiresAt: Date } | null {
-	if (!token || token.length > 200 || !/^[A-Za-z0-9_-]+$/.test(token)) return null;
-	let raw: Uint8Array;
-	try {
-		raw = decodeBase64urlIgnorePadding(token);
-	} catch {
-		return null;
-	}
-	if (raw.length <= MAC_BYTES) return null;
-	const payload = raw.slice(0, raw.length - MAC_BYTES);
-	const m = /^1:([a-z0-9]{1,64}):([0-9a-z]{1,12})$/.exec(new TextDecoder().decode(payload));
+	const opened = openToken(token, 200, MAC_BYTES);
+	if (!opened) return null;
+	const m = /^1:([a-z0-9]{1,64}):([0-9a-z]{1,12})$/.exec(opened.text);
 	if (!m) return null;
 	const page = db.select({ userId: table.dutyPage.userId }).from(table.dutyPage).where(eq(table.dutyPage.id, m[1])).get();
 	if (!page) return null;
-	if (!constantTimeEqual(raw.slice(raw.length - MAC_BYTES), mac(payload, page.userId))) return null;
+	if (!constantTimeEqual(opened.mac, mac(opened.payload, page.userId))) return null;
 	return { pageId: m[1], userId: page.userId, expiresAt: new Date(parseInt(m[2], 36) * 1000) };
 }
 

@@ -9,11 +9,11 @@ import { eq } from 'drizzle-orm';
 import { hmac } from '@oslojs/crypto/hmac';
 import { SHA256 } from '@oslojs/crypto/sha2';
 import { constantTimeEqual } from '@oslojs/crypto/subtle';
-import { decodeBase64urlIgnorePadding, encodeBase64urlNoPadding } from '@oslojs/encoding';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { config } from '../platform/config';
 import { serverSecret } from '../platform/secrets';
+import { openToken, sealToken } from '../platform/signed-token';
 import { DomainError } from '../platform/errors';
 import { KIND_INFO, NOTIFICATION_KINDS, type NotificationKind } from '../../notifications.ts';
 
@@ -29,11 +29,7 @@ function mac(payload: Uint8Array): Uint8Array {
 }
 
 export function unsubscribeToken(userId: string, scope: UnsubscribeScope): string {
-	const payload = new TextEncoder().encode(`${VERSION}:${scope}:${userId}`);
-	const out = new Uint8Array(payload.length + MAC_BYTES);
-	out.set(payload);
-	out.set(mac(payload), payload.length);
-	return encodeBase64urlNoPadding(out);
+	return sealToken(`${VERSION}:${scope}:${userId}`, mac);
 }
 
 export function unsubscribeLink(userId: string, scope: UnsubscribeScope): string {
@@ -42,17 +38,9 @@ export function unsubscribeLink(userId: string, scope: UnsubscribeScope): string
 
 /** The person and scope a token names, or null when it is malformed or its signature does not match. */
 export function readUnsubscribeToken(token: string): { userId: string; scope: UnsubscribeScope } | null {
-	if (!token || token.length > 400 || !/^[A-Za-z0-9_-]+$/.test(token)) return null;
-	let raw: Uint8Array;
-	try {
-		raw = decodeBase64urlIgnorePadding(token);
-	} catch {
-		return null;
-	}
-	if (raw.length <= MAC_BYTES) return null;
-	const payload = raw.slice(0, raw.length - MAC_BYTES);
-	if (!constantTimeEqual(raw.slice(raw.length - MAC_BYTES), mac(payload))) return null;
-	const m = /^1:([a-z.-]+):(.+)$/.exec(new TextDecoder().decode(payload));
+	const opened = openToken(token, 400, MAC_BYTES);
+	if (!opened || !constantTimeEqual(opened.mac, mac(opened.payload))) return null;
+	const m = /^1:([a-z.-]+):(.+)$/.exec(opened.text);
 	if (!m) return null;
 	const scope = m[1];
 	if (scope !== 'digest' && !(NOTIFICATION_KINDS as readonly string[]).includes(scope)) return null;

@@ -11,9 +11,9 @@
  */
 import { createServer, type IncomingMessage, type Server, type ServerResponse } from 'node:http';
 import { createHmac, randomBytes, timingSafeEqual } from 'node:crypto';
-import type { AddressInfo } from 'node:net';
 import { mkdirSync, readdirSync, unlinkSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
+import { listenOnLoopback } from './loopback';
 
 export interface PhoneRecord {
 	id: number;
@@ -179,21 +179,7 @@ export async function startFakePhone(port: number, spoolDir: string | null = nul
 			if (!res.headersSent) refuse(res, 500, 20500, 'Internal Server Error');
 		});
 	});
-	const listen = (p: number) =>
-		new Promise<number>((resolve, reject) => {
-			server.once('error', reject);
-			server.listen(p, '127.0.0.1', () => {
-				server.removeListener('error', reject);
-				resolve((server.address() as AddressInfo).port);
-			});
-		});
-	let bound: number;
-	try {
-		bound = await listen(port);
-	} catch (e) {
-		if ((e as NodeJS.ErrnoException).code !== 'EADDRINUSE') throw e;
-		bound = await listen(0);
-	}
+	const bound = await listenOnLoopback(server, port, () => server.address());
 	server.unref();
 	f.server = server;
 	f.port = bound;

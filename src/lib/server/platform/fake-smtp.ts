@@ -1,8 +1,8 @@
 import { SMTPServer } from 'smtp-server';
 import { simpleParser } from 'mailparser';
-import type { AddressInfo } from 'node:net';
 import { mkdirSync, readdirSync, unlinkSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
+import { listenOnLoopback } from './loopback';
 
 /** A message the local fake SMTP server received, as parsed from the wire. */
 export interface ReceivedMail {
@@ -99,21 +99,7 @@ export async function startFakeSmtp(port: number, spoolDir: string | null = null
 				.catch((err: Error) => callback(err));
 		}
 	});
-	const listen = (p: number) =>
-		new Promise<number>((resolve, reject) => {
-			server.once('error', reject);
-			server.listen(p, '127.0.0.1', () => {
-				server.removeListener('error', reject);
-				resolve((server.server.address() as AddressInfo).port);
-			});
-		});
-	let bound: number;
-	try {
-		bound = await listen(port);
-	} catch (e) {
-		if ((e as NodeJS.ErrnoException).code !== 'EADDRINUSE') throw e;
-		bound = await listen(0);
-	}
+	const bound = await listenOnLoopback(server, port, () => server.server.address());
 	box.server = server;
 	box.port = bound;
 	return bound;

@@ -1,6 +1,6 @@
 import { createServer, type Server } from 'node:http';
-import type { AddressInfo } from 'node:net';
 import { FAKE_WEBHOOK_BODY_MAX_BYTES } from '../../limits';
+import { listenOnLoopback } from './loopback';
 
 /** A message the local fake webhook receiver took (or refused, when told to fail). */
 export interface CaughtWebhook {
@@ -87,21 +87,7 @@ export async function startFakeWebhook(port: number): Promise<number> {
 			res.writeHead(status, { 'content-type': 'text/plain' }).end(status === 200 ? 'ok\n' : `refused (${status})\n`);
 		});
 	});
-	const listen = (p: number) =>
-		new Promise<number>((resolve, reject) => {
-			server.once('error', reject);
-			server.listen(p, '127.0.0.1', () => {
-				server.removeListener('error', reject);
-				resolve((server.address() as AddressInfo).port);
-			});
-		});
-	let bound: number;
-	try {
-		bound = await listen(port);
-	} catch (e) {
-		if ((e as NodeJS.ErrnoException).code !== 'EADDRINUSE') throw e;
-		bound = await listen(0);
-	}
+	const bound = await listenOnLoopback(server, port, () => server.address());
 	r.server = server;
 	r.port = bound;
 	return bound;
