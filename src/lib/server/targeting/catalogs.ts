@@ -32,10 +32,14 @@ export type ProxyField = (typeof PROXY_FIELDS)[number];
 
 /** Rejected rows listed in a report (all are counted). */
 export const REPORTED_REJECTS = 50;
-/** Rows per multi-row INSERT (11 columns each, well under SQLite's bound-parameter limit). */
-const INSERT_BATCH = 200;
-/** Galaxies per transaction when storing; the event loop gets a turn between two (≈ 5–10 ms each). */
-const STORE_CHUNK = 1_000;
+/** Rows per multi-row INSERT (10 columns each, well under SQLite's bound-parameter limit). */
+const INSERT_BATCH = 50;
+/**
+ * Storing runs in slices: one transaction of INSERT_BATCH-row statements until this much time has
+ * passed, then a turn of the event loop (a page load in flight waits one slice per await of its own;
+ * ≈ 11 µs of CPU per galaxy here, so a slice is a few hundred rows).
+ */
+const STORE_SLICE_MS = 4;
 /** Galaxy rows deleted per statement when a failed import is cleaned up (a turn of the event loop between two). */
 const DISCARD_CHUNK = 5_000;
 /** How long a part waits for the work pool when it is busy before the import gives up. */
@@ -290,14 +294,15 @@ const GALAXY_PARAMS = 10;
 
 /**
  * Stores a catalogue's kept rows part after part: prepared multi-row INSERTs of INSERT_BATCH
- * rows, STORE_CHUNK rows per transaction, a turn of the event loop between two transactions.
+ * rows, one transaction per slice of STORE_SLICE_MS, a turn of the event loop between two slices.
  * `row` numbers the kept galaxies from 0 in file order (the CatalogIndex row).
  */
 class GalaxyStore {
 	rows = 0;
 	private readonly full = db.$client.prepare(`INSERT INTO galaxy ${GALAXY_COLUMNS} VALUES ${Array(INSERT_BATCH).fill(GALAXY_VALUES).join(', ')}`);
 	private readonly args: unknown[] = new Array(INSERT_BATCH * GALAXY_PARAMS);
-	private readonly insertRange = db.$client.transaction((part: ReadPart, kept: number[], from: number, to: number) => {
+	/** Inserts kept[from…] until the slice's time is up or the part is stored; answers where it stopped. */
+	private readonly insertSlice = db.$client.transaction((part: ReadPart, kept: number[], from: number): number => {
 		const { rows, pixel, bAbsMag } = part;
 		const put = (args: unknown[], at: number, i: number) => {
 			const b = bAbsMag[i];
@@ -312,23 +317,27 @@ class GalaxyStore {
 			args[at + 8] = Number.isNaN(b) ? null : b;
 			args[at + 9] = pixel[i];
 		};
+		const until = performance.now() + STORE_SLICE_MS;
 		let k = from;
-		for (; k + INSERT_BATCH <= to; k += INSERT_BATCH) {
+		while (k + INSERT_BATCH <= kept.length) {
 			for (let j = 0; j < INSERT_BATCH; j++) put(this.args, j * GALAXY_PARAMS, kept[k + j]);
 			this.full.run(this.args);
+			k += INSERT_BATCH;
+			if (performance.now() >= until) return k;
 		}
-		if (k < to) {
-			const args: unknown[] = new Array((to - k) * GALAXY_PARAMS);
-			for (let j = 0; k + j < to; j++) put(args, j * GALAXY_PARAMS, kept[k + j]);
-			db.$client.prepare(`INSERT INTO galaxy ${GALAXY_COLUMNS} VALUES ${Array(to - k).fill(GALAXY_VALUES).join(', ')}`).run(args);
+		if (k < kept.length) {
+			const args: unknown[] = new Array((kept.length - k) * GALAXY_PARAMS);
+			for (let j = 0; k + j < kept.length; j++) put(args, j * GALAXY_PARAMS, kept[k + j]);
+			db.$client.prepare(`INSERT INTO galaxy ${GALAXY_COLUMNS} VALUES ${Array(kept.length - k).fill(GALAXY_VALUES).join(', ')}`).run(args);
 		}
+		return kept.length;
 	});
 
 	constructor(private readonly catalogId: string) {}
 
 	async add(part: ReadPart, kept: number[]): Promise<void> {
-		for (let from = 0; from < kept.length; from += STORE_CHUNK) {
-			this.insertRange(part, kept, from, Math.min(kept.length, from + STORE_CHUNK));
+		for (let from = 0; from < kept.length; ) {
+			from = this.insertSlice(part, kept, from);
 			await new Promise((resolve) => setImmediate(resolve));
 		}
 	}
