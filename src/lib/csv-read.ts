@@ -113,11 +113,11 @@ export function readCsvPart(bytes: Uint8Array, final: boolean): { records: CsvRe
 	const options = optionsWith(state);
 	const onRecord = options.on_record as (record: unknown, info: { lines: number; bytes: number }) => CsvRecord | null;
 	let end = 0;
-	options.on_record = (record: unknown, info: { lines: number; bytes: number }) => {
+	options.on_record = ((record: unknown, info: { lines: number; bytes: number }) => {
 		const out = onRecord(record, info);
 		if (out) end = info.bytes;
 		return out;
-	};
+	}) as unknown as Options['on_record'];
 	const view = Buffer.from(bytes.buffer, bytes.byteOffset, cut);
 	const records = parseSync(view, options) as unknown as CsvRecord[];
 	if (!final && state.error?.kind === 'unclosed-quote') return { records, consumed: end, error: null };

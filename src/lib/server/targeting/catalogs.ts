@@ -219,7 +219,7 @@ export async function importCatalog(actor: Actor, input: ImportInput, source: Ch
 		}
 	};
 	let storing: Promise<void> = Promise.resolve();
-	let storeError: Error | null = null;
+	let storeError = null as Error | null;
 	// Rows are stored only while the outcome can still be `ready`.
 	const keepStoring = () => !state.fatal && !storeError && (skipInvalid || checker.rejectedCount === 0);
 	let poolError: Error | null = null;
