@@ -245,6 +245,8 @@ export async function importCatalog(actor: Actor, input: ImportInput, source: Ch
 			record(actor, 'catalog.progress', 'board', { catalogId, bytes, rows: state.lineBase });
 		}
 	}
+	// Reading stopped before the end of the source (a fatal problem): let the source go.
+	if (!next.done) await parts.return(undefined).catch(() => undefined);
 	// The end of the file: what is left in the state (a last line without a line break) is read.
 	if (!poolError && !tooLarge && !interrupted && !state.stopped) {
 		try {
