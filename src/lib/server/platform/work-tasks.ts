@@ -227,6 +227,9 @@ export const TASKS = {
 	/** The event's report from its rows (its union coverage by team and by filter is most of the work). */
 	buildReport(input: ReportInputs): EventReport {
 		return buildReport(input);
+	},
+
+	/**
 	 * Read one part of a catalogue file (its bytes moved here) after the reading state of the
 	 * part before: rows checked except for duplicate ids, with each galaxy's NESTED pixel at
 	 * `pixelOrder` and its M_B (NaN without one) for storing.
