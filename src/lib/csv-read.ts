@@ -98,6 +98,33 @@ function optionsWith(state: { error: CsvReadError | null }): Options {
 }
 
 /**
+ * The complete records at the start of `bytes` (UTF-8), one part of a larger file: records come
+ * with lines counted from the part's first line (1), `consumed` is how many bytes they span (the
+ * rest — the record still being read — goes in front of the next part). With `final`, the part
+ * is the end of the file and everything is read. A quote left open is only an error at the end
+ * of the file: before it, the record is simply not complete yet. `bytes` must begin at the start
+ * of a record.
+ */
+export function readCsvPart(bytes: Uint8Array, final: boolean): { records: CsvRecord[]; consumed: number; error: CsvReadError | null } {
+	// Only whole lines: a line break is never inside a UTF-8 sequence, so every cell decodes whole.
+	const cut = final ? bytes.length : bytes.lastIndexOf(0x0a) + 1;
+	if (cut === 0) return { records: [], consumed: 0, error: null };
+	const state: { error: CsvReadError | null } = { error: null };
+	const options = optionsWith(state);
+	const onRecord = options.on_record as (record: unknown, info: { lines: number; bytes: number }) => CsvRecord | null;
+	let end = 0;
+	options.on_record = ((record: unknown, info: { lines: number; bytes: number }) => {
+		const out = onRecord(record, info);
+		if (out) end = info.bytes;
+		return out;
+	}) as unknown as Options['on_record'];
+	const view = Buffer.from(bytes.buffer, bytes.byteOffset, cut);
+	const records = parseSync(view, options) as unknown as CsvRecord[];
+	if (!final && state.error?.kind === 'unclosed-quote') return { records, consumed: end, error: null };
+	return { records, consumed: final || state.error ? bytes.length : cut, error: state.error };
+}
+
+/**
  * Every record of a whole CSV text, or the first record that could not be read (with the records
  * before it). For uploads small enough to hold whole (pointings, photometry).
  */

@@ -25,6 +25,12 @@ export const FORM_OBSERVATION_CSV_MAX_BYTES = 2_000_000;
 /** Largest galaxy catalogue upload, bytes; the file is streamed, never held whole (server.js sets the node server's own body limit). */
 export const CATALOG_MAX_BYTES = 200 * 1024 * 1024;
 
+/** Longest single record (one galaxy's line) a catalogue may have: beyond it, a quote was surely left open. */
+export const CATALOG_RECORD_MAX_BYTES = 1024 * 1024;
+
+/** Bytes of a catalogue file read in one work-pool task (≈ 14,000 galaxy rows); the file is read part by part. */
+export const CATALOG_PART_BYTES = 1024 * 1024;
+
 /**
  * A re-ranking (new sky map or catalogue) e-mails a team about a target it holds an open claim on
  * when the target moved at least this many places, its probability changed by at least this

@@ -47,15 +47,16 @@ function newestSourceMs(): number {
 	return newest;
 }
 
-function ensureBuilt(): void {
+/** Build the app when build/ is older than the sources (also used by uploads.bench.ts). */
+export function ensureBuilt(): void {
 	const worker = join(ROOT, 'build/work-worker.js');
 	if (existsSync(worker) && statSync(worker).mtimeMs > newestSourceMs()) return;
-	process.stderr.write('event-loop bench: building the app (vite build)…\n');
+	process.stderr.write('bench: building the app (vite build)…\n');
 	const r = spawnSync('npx', ['vite', 'build', '--logLevel', 'warn'], { cwd: ROOT, stdio: ['ignore', 'inherit', 'inherit'], timeout: 300_000 });
 	if (r.status !== 0) throw new Error('vite build failed');
 }
 
-function waitForLine(child: ChildProcess, text: string, ms: number): Promise<void> {
+export function waitForLine(child: ChildProcess, text: string, ms: number): Promise<void> {
 	return new Promise((resolve, reject) => {
 		const timer = setTimeout(() => reject(new Error(`app not ready after ${ms} ms`)), ms);
 		let buffer = '';

@@ -7,28 +7,36 @@
  *     (Debian's /usr/bin/python3, timed inside Python, so no start-up is counted): what reading the
  *     rows alone costs. Also, once, the same rows reported one by one (`report` per row: a
  *     transaction, an event-log row and a broadcast each), which is how uploads were stored before.
- *  2. A 10^6-row synthetic catalogue imported (`importCatalog`, streamed in 1 MB chunks), and the
- *     latency of a small signed-in page while it runs against the same page when idle. The page is
- *     an HTTP server in this process doing what a signed-in page load does on the server (session
- *     cookie validated against the database, one list query, JSON out); a child process requests
- *     it every 50 ms, so its clock is not held up by this process's event loop.
+ *  2. A 10^6-row synthetic catalogue (72 MB) uploaded to the BUILT app (`node server.js` on a
+ *     temporary database with the demo world, tests/bench/live/app-world.ts) through its real
+ *     route, `POST /catalogs/upload` (streamed body, the coordinator's API token), and the latency
+ *     of a signed-in page, `GET /catalogs` (the catalogue list, server-rendered), while it runs,
+ *     against the same page idle in the same run. A child process requests the page every 50 ms,
+ *     so its clock is not held up by this process. The app's peak memory is its VmHWM
+ *     (/proc/PID/status), read before and after the import.
+ *
+ * `UPLOADS_BENCH_PART=catalogue` runs part 2 alone.
  *
  * Every figure is printed with the load average (the machine is shared; compare figures within a run).
  */
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { createReadStream, createWriteStream, mkdtempSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
+import { Readable } from 'node:stream';
+import { fileURLToPath } from 'node:url';
 import { loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { spawn, spawnSync } from 'node:child_process';
-import http from 'node:http';
-import type { AddressInfo } from 'node:net';
+import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import { connect, useDatabase, db } from '../../src/lib/server/platform/db/index.ts';
 import * as table from '../../src/lib/server/platform/db/schema.ts';
-import { createSession, generateSessionToken, loadSessionUser, validateSessionToken } from '../../src/lib/server/people/auth.ts';
+import { loadSessionUser } from '../../src/lib/server/people/auth.ts';
 import { parseObservationCsv, report, reportMany } from '../../src/lib/server/coordination/observations.ts';
-import { importCatalog, listCatalogs } from '../../src/lib/server/targeting/catalogs.ts';
 import { SYSTEM } from '../../src/lib/server/platform/realtime.ts';
 import { generateSyntheticCatalog, syntheticCatalogCsv } from '../../seeds/synthetic-catalog.ts';
 import { median, type BenchResult } from './run.ts';
+import { ensureBuilt, waitForLine } from './event-loop.bench.ts';
+import { prepareAppWorld } from './live/app-world.ts';
+import { freePort } from './live/protocol.ts';
+
+const ROOT = fileURLToPath(new URL('../../', import.meta.url));
 
 const ROWS = 9_000;
 const CATALOG_ROWS = 1_000_000;
@@ -86,23 +94,24 @@ print(statistics.median(ts))
 }
 
 /** A child process that GETs `url` every 50 ms for `ms` (or until told to stop) and prints the latencies. */
-function pageClient(url: string, cookie: string, ms: number): { done: Promise<number[]>; stop: () => void } {
+function pageClient(url: string, headers: Record<string, string>, ms: number): { done: Promise<number[]>; stop: () => void } {
 	const code = `
-const url = process.argv[1], cookie = process.argv[2], until = Date.now() + Number(process.argv[3]);
+const url = process.argv[1], headers = JSON.parse(process.argv[2]), until = Date.now() + Number(process.argv[3]);
 const out = []; let stop = false;
 process.on('message', () => { stop = true; });
 (async () => {
   while (!stop && Date.now() < until && out.length < 2000) {
     const t = performance.now();
-    const r = await fetch(url, { headers: { cookie } });
+    const r = await fetch(url, { headers, redirect: 'manual' });
     await r.text();
+    if (r.status !== 200) { console.error('page answered ' + r.status); process.exit(1); }
     out.push(performance.now() - t);
     await new Promise((s) => setTimeout(s, 50));
   }
   process.send(out, () => process.exit(0));
 })();
 `;
-	const child = spawn(process.execPath, ['-e', code, url, cookie, String(ms)], { stdio: ['ignore', 'inherit', 'inherit', 'ipc'] });
+	const child = spawn(process.execPath, ['-e', code, url, JSON.stringify(headers), String(ms)], { stdio: ['ignore', 'inherit', 'inherit', 'ipc'] });
 	const done = new Promise<number[]>((resolve, reject) => {
 		child.once('message', (m) => resolve(m as number[]));
 		child.once('error', reject);
@@ -119,6 +128,7 @@ export async function run(): Promise<BenchResult[]> {
 	const dir = mkdtempSync(join(tmpdir(), 'strainline-uploads-bench-'));
 	const results: BenchResult[] = [];
 	try {
+		if (process.env.UPLOADS_BENCH_PART === 'catalogue') return await catalogueDuringPages(dir);
 		useDatabase(connect(join(dir, 'bench.sqlite')));
 		const { userId } = setUp();
 		const user = loadSessionUser(userId)!;
@@ -167,70 +177,85 @@ export async function run(): Promise<BenchResult[]> {
 			note: `one run; CPU ${cpuMs(c).toFixed(0)} ms; ${ROWS} transactions, log rows and broadcasts; load ${load()}`
 		});
 
-		// 2. A catalogue of 10^6 rows, and a page while it is imported.
-		const token = generateSessionToken();
-		createSession(token, userId);
-		const server = http.createServer((req, res) => {
-			const cookie = /session=([^;]+)/.exec(req.headers.cookie ?? '')?.[1] ?? '';
-			const { user: who } = validateSessionToken(cookie);
-			if (!who) {
-				res.writeHead(401).end();
-				return;
-			}
-			const body = JSON.stringify({ user: who.name, catalogs: listCatalogs().map((cat) => ({ id: cat.id, name: cat.name, state: cat.state, rows: cat.rowCount })) });
-			res.writeHead(200, { 'content-type': 'application/json' }).end(body);
-		});
-		await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', resolve));
-		const url = `http://127.0.0.1:${(server.address() as AddressInfo).port}/`;
-		try {
-			const idleLoad = load();
-			const idle = await pageClient(url, `session=${token}`, 4000).done;
-
-			const options = { rows: CATALOG_ROWS, maxDistanceMpc: 400, seed: 11 };
-			const cat = generateSyntheticCatalog(options);
-			async function* chunks(): AsyncGenerator<string> {
-				let buffer = '';
-				for (const piece of syntheticCatalogCsv(cat, options, 5000)) {
-					buffer += piece;
-					if (buffer.length >= 1 << 20) {
-						yield buffer;
-						buffer = '';
-					}
-				}
-				if (buffer) yield buffer;
-			}
-			let peakRssMb = 0;
-			const sampler = setInterval(() => (peakRssMb = Math.max(peakRssMb, process.memoryUsage().rss / 1e6)), 100);
-			const client = pageClient(url, `session=${token}`, 600_000);
-			const c2 = process.cpuUsage();
-			const t2 = performance.now();
-			const out = await importCatalog(SYSTEM, { name: 'bench 1e6', synthetic: true, maxBytes: 500 * 1024 * 1024 }, chunks(), { progressEveryMs: null });
-			const importMs = performance.now() - t2;
-			const importCpu = cpuMs(c2);
-			client.stop();
-			const during = await client.done;
-			clearInterval(sampler);
-			if (out.state !== 'ready' || out.rowCount !== CATALOG_ROWS) throw new Error(`bench import failed: ${out.error}`);
-			results.push({
-				suite: 'uploads',
-				name: `catalogue import ${CATALOG_ROWS} rows (${(out.report.bytes / 1e6).toFixed(0)} MB)`,
-				strainlineMs: importMs,
-				note: `one run; CPU ${importCpu.toFixed(0)} ms; peak RSS ${peakRssMb.toFixed(0)} MB; load ${load()}`
-			});
-			results.push({
-				suite: 'uploads',
-				name: `signed-in page during the import (median; p95 ${percentile(during, 0.95).toFixed(1)} ms, max ${Math.max(...during).toFixed(0)} ms, n=${during.length})`,
-				strainlineMs: median(during),
-				referenceMs: median(idle),
-				reference: `the same page idle (p95 ${percentile(idle, 0.95).toFixed(1)} ms, n=${idle.length}, load ${idleLoad})`,
-				note: `during/idle median ${(median(during) / median(idle)).toFixed(2)}×; load ${load()}`
-			});
-		} finally {
-			server.close();
-		}
-	} finally {
 		db.$client.close();
+		results.push(...(await catalogueDuringPages(dir)));
+	} finally {
 		rmSync(dir, { recursive: true, force: true });
+	}
+	return results;
+}
+
+/** VmHWM (peak resident memory) and VmRSS of a process, MB. */
+function memoryOf(pid: number): { peakMb: number; rssMb: number } {
+	const status = readFileSync(`/proc/${pid}/status`, 'utf8');
+	const kb = (key: string) => Number(new RegExp(`${key}:\\s+(\\d+)`).exec(status)?.[1] ?? NaN);
+	return { peakMb: kb('VmHWM') / 1024, rssMb: kb('VmRSS') / 1024 };
+}
+
+/** Part 2: the 10^6-row catalogue through the built app's upload route, and a signed-in page meanwhile. */
+async function catalogueDuringPages(dir: string): Promise<BenchResult[]> {
+	ensureBuilt();
+	const results: BenchResult[] = [];
+	const dbFile = join(dir, 'app.sqlite');
+	const storageDir = join(dir, 'storage');
+	const world = await prepareAppWorld(ROOT, dbFile, storageDir);
+	db.$client.close();
+	const csvFile = join(dir, 'catalogue.csv');
+	const options = { rows: CATALOG_ROWS, maxDistanceMpc: 400, seed: 11 };
+	const cat = generateSyntheticCatalog(options);
+	const out = createWriteStream(csvFile);
+	for (const piece of syntheticCatalogCsv(cat, options, 5000)) if (!out.write(piece)) await new Promise<void>((r) => out.once('drain', () => r()));
+	await new Promise<void>((r) => out.end(r));
+	const csvBytes = statSync(csvFile).size;
+
+	const port = await freePort();
+	const origin = `http://127.0.0.1:${port}`;
+	let app: ChildProcess | null = null;
+	try {
+		app = spawn(process.execPath, ['server.js'], {
+			cwd: ROOT,
+			stdio: ['ignore', 'pipe', 'inherit'],
+			env: { ...process.env, PORT: String(port), HOST: '127.0.0.1', ORIGIN: origin, DATABASE_URL: dbFile, STORAGE_DIR: storageDir, VTP_BROKER: '', VTP_ARCHIVE_URL: '', FAKE_SMTP_PORT: '0', SMTP_URL: '' }
+		});
+		await waitForLine(app, 'Strainline listening on', 60_000);
+		const headers = { authorization: `Bearer ${world.claimerTokens[1]}` }; // the coordinator: may import catalogues
+		const page = `${origin}/catalogs`;
+		await pageClient(page, headers, 1500).done; // warm: the first requests load the route modules
+		const idleLoad = load();
+		const idle = await pageClient(page, headers, 5000).done;
+		const before = memoryOf(app.pid!);
+
+		const client = pageClient(page, headers, 600_000);
+		const t = performance.now();
+		const res = await fetch(`${origin}/catalogs/upload?name=${encodeURIComponent('bench 1e6')}&synthetic=1`, {
+			method: 'POST',
+			headers: { ...headers, 'content-type': 'text/csv' },
+			body: Readable.toWeb(createReadStream(csvFile, { highWaterMark: 64 * 1024 })) as ReadableStream<Uint8Array>,
+			duplex: 'half'
+		} as RequestInit);
+		const body = (await res.json()) as { state?: string; rowCount?: number; error?: string };
+		const importMs = performance.now() - t;
+		client.stop();
+		const during = await client.done;
+		const after = memoryOf(app.pid!);
+		if (res.status !== 201 || body.rowCount !== CATALOG_ROWS) throw new Error(`bench import answered ${res.status}: ${JSON.stringify(body).slice(0, 300)}`);
+		results.push({
+			suite: 'uploads',
+			name: `catalogue import ${CATALOG_ROWS} rows (${(csvBytes / 1e6).toFixed(0)} MB), built app, POST /catalogs/upload`,
+			strainlineMs: importMs,
+			note: `one run; app peak RSS ${after.peakMb.toFixed(0)} MB (before the import: RSS ${before.rssMb.toFixed(0)} MB, peak ${before.peakMb.toFixed(0)} MB); load ${load()}`
+		});
+		results.push({
+			suite: 'uploads',
+			name: `signed-in page GET /catalogs during the import (median; p95 ${percentile(during, 0.95).toFixed(1)} ms, max ${Math.max(...during).toFixed(0)} ms, n=${during.length})`,
+			strainlineMs: median(during),
+			referenceMs: median(idle),
+			reference: `the same page idle (p95 ${percentile(idle, 0.95).toFixed(1)} ms, max ${Math.max(...idle).toFixed(0)} ms, n=${idle.length}, load ${idleLoad})`,
+			note: `during/idle median ${(median(during) / median(idle)).toFixed(2)}×; load ${load()}`
+		});
+		app.kill('SIGTERM');
+	} finally {
+		if (app && app.exitCode === null) app.kill('SIGKILL');
 	}
 	return results;
 }

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { CatalogCsvParser, parseCatalogCsv, parseCatalogCsvStream, parseColumnMapping, SUN_ABS_MAG_B, SUN_ABS_MAG_K } from './catalog-csv.ts';
+import { CatalogCsvParser, catalogPartState, readCatalogPart, parseCatalogCsv, parseCatalogCsvStream, parseColumnMapping, SUN_ABS_MAG_B, SUN_ABS_MAG_K } from './catalog-csv.ts';
 
 const GOOD = [
 	'# a comment before the header',
@@ -153,5 +153,39 @@ describe('parseCatalogCsvStream (csv-parse stream)', () => {
 			throw new Error('connection reset');
 		})();
 		expect((await parseCatalogCsvStream(broken)).fatal).toBe('the upload was interrupted: connection reset');
+	});
+});
+
+describe('readCatalogPart (a file read part by part)', () => {
+	it('gives the same result as the whole text for parts cut anywhere: BOM, comments, CRLF, quoted line breaks, multi-byte names', () => {
+		expect.hasAssertions();
+		const text =
+			'\ufeff# made for a test, "quoted\r\n\r\n' +
+			['id,ra,dec,distance,b_abs', '"NGC ""x"", a",1,2,3,-20', '"two', 'lines",4,5,6,-19', 'bad,7,95,8,-18', 'Galaxie é 🌌,9,9,9,-21', '"two', 'lines",1,1,1,-20'].join('\r\n') +
+			'\r\n';
+		const options = { skipInvalid: true };
+		const whole = parseCatalogCsv(text, options);
+		expect(whole.catalog!.id).toEqual(['NGC "x", a', 'two\r\nlines', 'Galaxie é 🌌']);
+		expect(whole.rejected.rows.map((r) => r.line)).toEqual([7, 9]);
+		expect(whole.rejected.rows[1].reason).toBe('duplicate id "two\r\nlines" (first on line 5)');
+		const bytes = new TextEncoder().encode(text);
+		for (const size of [1, 2, 3, 5, 8, 17, 64]) {
+			const reader = new CatalogCsvParser(options);
+			for (let i = 0; i < bytes.length; i += size) reader.push(bytes.slice(i, i + size));
+			expect(reader.finish(), `parts of ${size} bytes`).toEqual(whole);
+		}
+	});
+
+	it('stops at a record longer than the bound (a quote left open early in a big file), naming its line', () => {
+		expect.hasAssertions();
+		let st = catalogPartState({ maxRecordBytes: 64 });
+		const enc = new TextEncoder();
+		let part = readCatalogPart(st, enc.encode('id,ra,dec,distance\nA,1,1,10\n"B,2,2,20\n'), false);
+		st = part.state;
+		expect(part.rows.id).toEqual(['A']);
+		expect(st.carry.length).toBeGreaterThan(0);
+		part = readCatalogPart(st, enc.encode('C,3,3,30\n'.repeat(10)), false);
+		expect(part.state.fatal).toBe('line 3: a record longer than 0 kB (a quote left open?); the rows after it were not read');
+		expect(part.state.stopped).toBe(true);
 	});
 });

@@ -18,7 +18,8 @@
  * Apparent → absolute: M = m − 5 log10(d / 10 pc) = m − 5 log10(d_Mpc) − 25 (standard distance modulus).
  */
 import type { GalaxyCatalog, WeightSource } from './galaxies.ts';
-import { readCsv, streamCsv, type CsvReadError } from '../csv-read.ts';
+import { readCsvPart } from '../csv-read.ts';
+import { CATALOG_RECORD_MAX_BYTES } from '../limits.ts';
 
 /** Catalogue fields a CSV column can be mapped to. */
 export const CATALOG_FIELDS = ['id', 'ra', 'dec', 'distance', 'distance_err', 'weight', 'b_abs', 'b_app', 'k_abs', 'k_app', 'mass'] as const;
@@ -77,224 +78,455 @@ class GrowableF64 {
 	}
 }
 
-/**
- * Sets aside what comes before the header: a byte-order mark, blank lines and `#` comment lines,
- * counting them so that line numbers stay those of the file. Everything from the header on passes
- * through unchanged.
- */
-class Prelude {
-	/** Lines set aside. */
-	skipped = 0;
-	private done = false;
-	private started = false;
-	private buffer = '';
-
-	push(chunk: string): string {
-		if (this.done) return chunk;
-		this.buffer += chunk;
-		if (!this.started && this.buffer.length > 0) {
-			if (this.buffer.charCodeAt(0) === 0xfeff) this.buffer = this.buffer.slice(1);
-			this.started = true;
-		}
-		for (;;) {
-			const nl = this.buffer.indexOf('\n');
-			const line = nl < 0 ? this.buffer : this.buffer.slice(0, nl);
-			const blank = line.trim() === '';
-			if (nl < 0 && (blank || line.startsWith('#'))) return '';
-			if (!blank && !line.startsWith('#')) {
-				this.done = true;
-				const rest = this.buffer;
-				this.buffer = '';
-				return rest;
-			}
-			this.skipped++;
-			this.buffer = this.buffer.slice(nl + 1);
-		}
-	}
-
-	/** The end of the file: anything held back (a last comment line without a line break) is dropped. */
-	finish(): string {
-		this.done = true;
-		this.buffer = '';
-		return '';
-	}
-}
-
 function parseNumber(s: string): number {
 	const t = s.trim();
 	return t === '' ? NaN : Number(t);
 }
 
 /**
- * Streaming catalogue parser: `push(chunk)` any number of times, then `finish()`.
- * Chunks may split lines, CRLF pairs and quoted fields anywhere.
+ * Where reading a catalogue stands between two parts of its file: plain data (and one small byte
+ * array), so that each part can be read by any thread of the work pool. Made by
+ * `catalogPartState`, replaced by every `readCatalogPart`.
+ */
+export interface CatalogPartState {
+	columns: Partial<Record<CatalogField, string>>;
+	/** The mapping is the whole mapping: header columns named like a field but not mapped are ignored. */
+	onlyMapped: boolean;
+	maxDistanceMpc: number;
+	maxRows: number;
+	maxRecordBytes: number;
+	/** The byte-order mark was looked for. */
+	bomChecked: boolean;
+	/** The lines before the header (blank, `#` comments) are behind. */
+	preludeDone: boolean;
+	/** Physical lines before `carry`. */
+	lineBase: number;
+	/** The start of a record not complete yet, read again in front of the next part. */
+	carry: Uint8Array;
+	header: string[] | null;
+	fieldIndex: Partial<Record<CatalogField, number>>;
+	weightSource: WeightSource;
+	mapping: Partial<Record<CatalogField, string>>;
+	fatal: string | null;
+	rowsSeen: number;
+	/** Nothing more is read: the end of the file, a fatal problem or quoting that cannot be read past. */
+	stopped: boolean;
+}
+
+/** A row's fate in a part: kept (unless its id is a duplicate), refused before its id was known, or refused for a value. */
+export const ROW_OK = 0;
+export const ROW_REFUSED = 1;
+export const ROW_BAD_VALUE = 2;
+
+/**
+ * The rows of one part, in file order, before the duplicate-id check (which needs every id seen
+ * so far; `CatalogRowChecker` makes it on the thread that keeps them). Columns are NaN for
+ * refused rows; `reason` holds one entry per row that is not ROW_OK, in order.
+ */
+export interface CatalogPartRows {
+	size: number;
+	kind: Uint8Array;
+	line: Float64Array;
+	/** '' for ROW_REFUSED rows. */
+	id: string[];
+	reason: string[];
+	raDeg: Float64Array;
+	decDeg: Float64Array;
+	distanceMpc: Float64Array;
+	distanceErrMpc: Float64Array;
+	weight: Float64Array;
+	/** B luminosity in 10^10 L_B,⊙; NaN when the row has no B magnitude. */
+	luminosityB10: Float64Array;
+}
+
+/** The reading state before the first part of a file. */
+export function catalogPartState(options: CatalogCsvOptions & { onlyMapped?: boolean; maxRecordBytes?: number } = {}): CatalogPartState {
+	const columns = options.columns ?? {};
+	for (const k of Object.keys(columns)) {
+		if (!(CATALOG_FIELDS as readonly string[]).includes(k)) throw new RangeError(`unknown catalogue field "${k}" (known: ${CATALOG_FIELDS.join(', ')})`);
+	}
+	return {
+		columns,
+		onlyMapped: options.onlyMapped ?? false,
+		maxDistanceMpc: options.maxDistanceMpc ?? 2000,
+		maxRows: options.maxRows ?? 5_000_000,
+		maxRecordBytes: options.maxRecordBytes ?? CATALOG_RECORD_MAX_BYTES,
+		bomChecked: false,
+		preludeDone: false,
+		lineBase: 0,
+		carry: new Uint8Array(0),
+		header: null,
+		fieldIndex: {},
+		weightSource: 'none',
+		mapping: {},
+		fatal: null,
+		rowsSeen: 0,
+		stopped: false
+	};
+}
+
+function setHeader(st: CatalogPartState, names: string[], line: number): void {
+	const lower = names.map((n) => n.toLowerCase());
+	for (const field of CATALOG_FIELDS) {
+		const wanted = st.columns[field];
+		if (wanted === undefined && st.onlyMapped) continue;
+		const j = lower.indexOf((wanted ?? field).toLowerCase());
+		if (j >= 0) {
+			st.fieldIndex[field] = j;
+			st.mapping[field] = names[j];
+		} else if (wanted !== undefined) {
+			st.fatal = `line ${line}: column "${wanted}" (mapped to ${field}) is not in the header`;
+			return;
+		}
+	}
+	const missing = (['ra', 'dec', 'distance'] as const).filter((k) => st.fieldIndex[k] === undefined);
+	if (missing.length) {
+		st.fatal = `line ${line}: header lacks ${missing.join(', ')} (found: ${names.join(', ')}); map them with columns`;
+		return;
+	}
+	const ix = st.fieldIndex;
+	// The most direct proxy present wins.
+	st.weightSource =
+		ix.weight !== undefined ? 'weight' : ix.b_abs !== undefined || ix.b_app !== undefined ? 'b' : ix.k_abs !== undefined || ix.k_app !== undefined ? 'k' : ix.mass !== undefined ? 'mass' : 'none';
+	st.header = names;
+}
+
+/** A row's values, or why they are refused (the checks after the duplicate-id one). */
+function rowValues(st: CatalogPartState, f: string[]): { ra: number; dec: number; d: number; err: number; w: number; lumB: number } | string {
+	const ix = st.fieldIndex;
+	let ra = parseNumber(f[ix.ra!]);
+	const dec = parseNumber(f[ix.dec!]);
+	const d = parseNumber(f[ix.distance!]);
+	if (!Number.isFinite(ra) || ra < 0 || ra > 360) return `ra "${f[ix.ra!]}" is not a number in [0, 360]`;
+	if (ra === 360) ra = 0;
+	if (!Number.isFinite(dec) || dec < -90 || dec > 90) return `dec "${f[ix.dec!]}" is not a number in [-90, 90]`;
+	if (!Number.isFinite(d) || d <= 0 || d > st.maxDistanceMpc) return `distance "${f[ix.distance!]}" is not a number in (0, ${st.maxDistanceMpc}] Mpc`;
+	let err = 0;
+	if (ix.distance_err !== undefined && f[ix.distance_err].trim() !== '') {
+		err = parseNumber(f[ix.distance_err]);
+		if (!Number.isFinite(err) || err < 0) return `distance_err "${f[ix.distance_err]}" is not a non-negative number`;
+	}
+	const magAt = (k: CatalogField): number | null => {
+		const j = ix[k];
+		if (j === undefined) return null;
+		const v = parseNumber(f[j]);
+		return Number.isFinite(v) ? v : NaN;
+	};
+	// Absolute B magnitude, from the column or from the apparent one and the distance.
+	let mB = magAt('b_abs');
+	if (mB === null) {
+		const app = magAt('b_app');
+		if (app !== null) mB = app - 5 * Math.log10(d) - 25;
+	}
+	if (mB !== null && !Number.isFinite(mB) && st.weightSource === 'b') return 'B magnitude is not a number';
+	const lumB = mB !== null && Number.isFinite(mB) ? 10 ** (-0.4 * (mB - SUN_ABS_MAG_B)) / 1e10 : NaN;
+	let w: number;
+	switch (st.weightSource) {
+		case 'weight': {
+			w = parseNumber(f[ix.weight!]);
+			if (!Number.isFinite(w) || w < 0) return `weight "${f[ix.weight!]}" is not a non-negative number`;
+			break;
+		}
+		case 'b':
+			w = lumB;
+			break;
+		case 'k': {
+			let mK = magAt('k_abs');
+			if (mK === null) mK = magAt('k_app')! - 5 * Math.log10(d) - 25;
+			if (!Number.isFinite(mK)) return 'K magnitude is not a number';
+			w = 10 ** (-0.4 * (mK - SUN_ABS_MAG_K)) / 1e10;
+			break;
+		}
+		case 'mass': {
+			const m = parseNumber(f[ix.mass!]);
+			if (!Number.isFinite(m) || m < 0) return `mass "${f[ix.mass!]}" is not a non-negative number`;
+			w = m / 1e10;
+			break;
+		}
+		default:
+			w = 1;
+	}
+	return { ra, dec, d, err, w, lumB };
+}
+
+function newlinesIn(bytes: Uint8Array): number {
+	let n = 0;
+	for (let i = bytes.indexOf(0x0a); i >= 0; i = bytes.indexOf(0x0a, i + 1)) n++;
+	return n;
+}
+
+const utf8 = new TextDecoder('utf-8');
+
+/**
+ * Read one part of a catalogue file (UTF-8 bytes, cut anywhere) after `state`: the lines before
+ * the header, the header, then every complete record, checked except for duplicate ids. With
+ * `final` the part ends the file. The part's bytes are not kept; the returned state carries the
+ * record still incomplete. Pure, and cheap to post between threads (the work pool's
+ * `readCatalogPart` task runs it).
+ */
+export function readCatalogPart(state: CatalogPartState, bytes: Uint8Array, final: boolean): { state: CatalogPartState; rows: CatalogPartRows } {
+	const st: CatalogPartState = { ...state, fieldIndex: { ...state.fieldIndex }, mapping: { ...state.mapping } };
+	let buf = bytes;
+	if (st.carry.length) {
+		buf = new Uint8Array(st.carry.length + bytes.length);
+		buf.set(st.carry);
+		buf.set(bytes, st.carry.length);
+	}
+	st.carry = new Uint8Array(0);
+	const out = { kind: [] as number[], line: [] as number[], id: [] as string[], reason: [] as string[], values: [] as number[] };
+	const done = () => ({ state: st, rows: partRows(out) });
+	if (st.stopped || st.fatal) {
+		st.stopped = true;
+		return done();
+	}
+	let at = 0;
+	if (!st.bomChecked) {
+		if (buf.length < 3 && !final) {
+			st.carry = buf.slice();
+			return done();
+		}
+		if (buf[0] === 0xef && buf[1] === 0xbb && buf[2] === 0xbf) at = 3;
+		st.bomChecked = true;
+	}
+	// Lines before the header: blank ones and `#` comments, set aside before csv-parse sees the text
+	// (so a quote in a comment is harmless), counted so that line numbers stay those of the file.
+	while (!st.preludeDone) {
+		const nl = buf.indexOf(0x0a, at);
+		const line = utf8.decode(buf.subarray(at, nl < 0 ? buf.length : nl));
+		const aside = line.trim() === '' || line.startsWith('#');
+		if (nl < 0) {
+			if (!final) {
+				st.carry = buf.slice(at);
+				return done();
+			}
+			if (aside) at = buf.length;
+			st.preludeDone = true;
+			break;
+		}
+		if (!aside) {
+			st.preludeDone = true;
+			break;
+		}
+		st.lineBase++;
+		at = nl + 1;
+	}
+	const text = buf.subarray(at);
+	const { records, consumed, error } = readCsvPart(text, final);
+	const base = st.lineBase;
+	const refuse = (line: number, reason: string) => {
+		out.kind.push(ROW_REFUSED);
+		out.line.push(line);
+		out.id.push('');
+		out.reason.push(reason);
+		out.values.push(NaN, NaN, NaN, NaN, NaN, NaN);
+	};
+	for (const r of records) {
+		if (st.fatal) break;
+		const f = r.cells;
+		const line = r.line + base;
+		if (st.header === null) {
+			setHeader(st, f, line);
+			continue;
+		}
+		if (f.length === 1 && f[0] === '') continue;
+		st.rowsSeen++;
+		if (st.rowsSeen > st.maxRows) {
+			st.fatal = `more than ${st.maxRows} rows`;
+			break;
+		}
+		if (f.length !== st.header.length) {
+			refuse(line, `expected ${st.header.length} fields, found ${f.length}`);
+			continue;
+		}
+		const id = st.fieldIndex.id === undefined ? String(st.rowsSeen) : f[st.fieldIndex.id].trim();
+		if (id === '') {
+			refuse(line, 'empty id');
+			continue;
+		}
+		const v = rowValues(st, f);
+		out.line.push(line);
+		out.id.push(id);
+		if (typeof v === 'string') {
+			out.kind.push(ROW_BAD_VALUE);
+			out.reason.push(v);
+			out.values.push(NaN, NaN, NaN, NaN, NaN, NaN);
+		} else {
+			out.kind.push(ROW_OK);
+			out.values.push(v.ra, v.dec, v.d, v.err, v.w, v.lumB);
+		}
+	}
+	if (!st.fatal && error) {
+		const line = error.line + base;
+		if (st.header === null) st.fatal = `line ${line}: malformed header (unbalanced quotes)`;
+		else if (error.kind === 'unclosed-quote') refuse(line, 'unterminated quoted field');
+		else st.fatal = `line ${line}: malformed quoting (a quoted field has text after its closing quote); the rows after it were not read`;
+		st.stopped = true;
+	}
+	st.lineBase += newlinesIn(text.subarray(0, consumed));
+	if (!st.stopped && !st.fatal && consumed < text.length) {
+		st.carry = text.slice(consumed);
+		if (st.carry.length > st.maxRecordBytes) {
+			st.fatal = `line ${st.lineBase + 1}: a record longer than ${Math.round(st.maxRecordBytes / 1024)} kB (a quote left open?); the rows after it were not read`;
+			st.carry = new Uint8Array(0);
+		}
+	}
+	if (final || st.fatal) st.stopped = true;
+	return done();
+}
+
+function partRows(out: { kind: number[]; line: number[]; id: string[]; reason: string[]; values: number[] }): CatalogPartRows {
+	const n = out.kind.length;
+	const col = (k: number) => {
+		const a = new Float64Array(n);
+		for (let i = 0; i < n; i++) a[i] = out.values[i * 6 + k];
+		return a;
+	};
+	return {
+		size: n,
+		kind: Uint8Array.from(out.kind),
+		line: Float64Array.from(out.line),
+		id: out.id,
+		reason: out.reason,
+		raDeg: col(0),
+		decDeg: col(1),
+		distanceMpc: col(2),
+		distanceErrMpc: col(3),
+		weight: col(4),
+		luminosityB10: col(5)
+	};
+}
+
+/**
+ * The duplicate-id check and the report of refused rows, part after part, on the thread that
+ * keeps every id seen so far. `take` answers the rows of a part to keep (indexes into it).
+ * The checks run in the order a row is read: field count, empty id, duplicate id, values.
+ */
+export class CatalogRowChecker {
+	private readonly seen = new Map<string, number>();
+	rejectedCount = 0;
+	readonly rejectedRows: RejectedRow[] = [];
+	constructor(private readonly maxReported: number) {}
+
+	reject(line: number, reason: string): void {
+		this.rejectedCount++;
+		if (this.rejectedRows.length < this.maxReported) this.rejectedRows.push({ line, reason });
+	}
+
+	take(rows: CatalogPartRows): number[] {
+		const kept: number[] = [];
+		let r = 0;
+		for (let i = 0; i < rows.size; i++) {
+			const kind = rows.kind[i];
+			const line = rows.line[i];
+			if (kind === ROW_REFUSED) {
+				this.reject(line, rows.reason[r++]);
+				continue;
+			}
+			const id = rows.id[i];
+			const prior = this.seen.get(id);
+			const why = kind === ROW_BAD_VALUE ? rows.reason[r++] : null;
+			if (prior !== undefined) this.reject(line, `duplicate id "${id}" (first on line ${prior})`);
+			else if (why !== null) this.reject(line, why);
+			else {
+				this.seen.set(id, line);
+				kept.push(i);
+			}
+		}
+		return kept;
+	}
+}
+
+/** M_B of a B luminosity in 10^10 L_B,⊙ (the inverse of the parser's conversion); null without one. */
+export function absoluteMagB(luminosityB10: number): number | null {
+	return luminosityB10 > 0 ? SUN_ABS_MAG_B - 2.5 * Math.log10(luminosityB10 * 1e10) : null;
+}
+
+/** UTF-8 bytes of text chunks, a surrogate pair never cut between two of them. */
+export class Utf8Chunks {
+	private held = '';
+	private readonly encoder = new TextEncoder();
+	push(chunk: string): Uint8Array {
+		let text = this.held + chunk;
+		this.held = '';
+		const last = text.charCodeAt(text.length - 1);
+		if (last >= 0xd800 && last <= 0xdbff) {
+			this.held = text.slice(-1);
+			text = text.slice(0, -1);
+		}
+		return this.encoder.encode(text);
+	}
+	finish(): Uint8Array {
+		const rest = this.held;
+		this.held = '';
+		return this.encoder.encode(rest);
+	}
+}
+
+/**
+ * Whole-file reading on the calling thread: `push` the file's parts (text or UTF-8 bytes), then
+ * `finish()`. Chunks may split lines, CRLF pairs and quoted fields anywhere. (The server reads
+ * parts on the work pool instead, with the same `readCatalogPart` and `CatalogRowChecker`.)
  */
 export class CatalogCsvParser {
-	private readonly options: Required<Omit<CatalogCsvOptions, 'columns'>> & { columns: Partial<Record<CatalogField, string>> };
-	private header: string[] | null = null;
-	private fieldIndex: Partial<Record<CatalogField, number>> = {};
-	private fatal: string | null = null;
-	private rowsSeen = 0;
-	private rejectedCount = 0;
-	private rejectedRows: RejectedRow[] = [];
+	private state: CatalogPartState;
+	private readonly skipInvalid: boolean;
+	private readonly checker: CatalogRowChecker;
+	private readonly encoder = new Utf8Chunks();
 	private readonly ids: string[] = [];
-	private readonly seenIds = new Map<string, number>();
 	private readonly ra = new GrowableF64();
 	private readonly dec = new GrowableF64();
 	private readonly dist = new GrowableF64();
 	private readonly distErr = new GrowableF64();
 	private readonly weight = new GrowableF64();
 	private readonly lumB = new GrowableF64();
-	private weightSource: WeightSource = 'none';
-	private mapping: Partial<Record<CatalogField, string>> = {};
 
 	constructor(options: CatalogCsvOptions = {}) {
-		this.options = {
-			columns: options.columns ?? {},
-			maxDistanceMpc: options.maxDistanceMpc ?? 2000,
-			skipInvalid: options.skipInvalid ?? false,
-			maxReported: options.maxReported ?? 100,
-			maxRows: options.maxRows ?? 5_000_000
-		};
-		for (const k of Object.keys(this.options.columns)) {
-			if (!(CATALOG_FIELDS as readonly string[]).includes(k)) throw new RangeError(`unknown catalogue field "${k}" (known: ${CATALOG_FIELDS.join(', ')})`);
-		}
+		this.state = catalogPartState(options);
+		this.skipInvalid = options.skipInvalid ?? false;
+		this.checker = new CatalogRowChecker(options.maxReported ?? 100);
 	}
 
-	/** csv-parse could not read the record starting on `line`: it stops reading there. */
-	unreadable(e: CsvReadError): void {
-		if (this.fatal) return;
-		if (this.header === null) this.fatal = `line ${e.line}: malformed header (unbalanced quotes)`;
-		else if (e.kind === 'unclosed-quote') this.reject(e.line, 'unterminated quoted field');
-		else this.fatal = `line ${e.line}: malformed quoting (a quoted field has text after its closing quote); the rows after it were not read`;
+	/** Lines read so far. */
+	get lines(): number {
+		return this.state.lineBase;
+	}
+
+	push(chunk: string | Uint8Array, final = false): void {
+		const bytes = typeof chunk === 'string' ? this.encoder.push(chunk) : chunk;
+		if (final) {
+			const rest = this.encoder.finish();
+			this.read(rest.length ? concatBytes([bytes, rest]) : bytes, true);
+		} else this.read(bytes, false);
+	}
+
+	private read(bytes: Uint8Array, final: boolean): void {
+		const { state, rows } = readCatalogPart(this.state, bytes, final);
+		this.state = state;
+		for (const i of this.checker.take(rows)) {
+			this.ids.push(rows.id[i]);
+			this.ra.push(rows.raDeg[i]);
+			this.dec.push(rows.decDeg[i]);
+			this.dist.push(rows.distanceMpc[i]);
+			this.distErr.push(rows.distanceErrMpc[i]);
+			this.weight.push(rows.weight[i]);
+			this.lumB.push(rows.luminosityB10[i]);
+		}
 	}
 
 	/** The end of the upload, cut short with this reason (too large, interrupted). */
 	abort(reason: string): void {
-		this.fatal ??= reason;
+		this.state = { ...this.state, fatal: this.state.fatal ?? reason, stopped: true };
 	}
 
-	private reject(line: number, reason: string): void {
-		this.rejectedCount++;
-		if (this.rejectedRows.length < this.options.maxReported) this.rejectedRows.push({ line, reason });
-	}
-
-	/** One record (cells as csv-parse read them, trimmed outside quotes) and the line it starts on. */
-	record(f: string[], line: number): void {
-		if (this.fatal) return;
-		if (this.header === null) {
-			this.setHeader(f, line);
-			return;
-		}
-		if (f.length === 1 && f[0] === '') return;
-		this.rowsSeen++;
-		if (this.rowsSeen > this.options.maxRows) {
-			this.fatal = `more than ${this.options.maxRows} rows`;
-			return;
-		}
-		if (f.length !== this.header.length) return this.reject(line, `expected ${this.header.length} fields, found ${f.length}`);
-		const ix = this.fieldIndex;
-		const id = ix.id === undefined ? String(this.rowsSeen) : f[ix.id].trim();
-		if (id === '') return this.reject(line, 'empty id');
-		const prior = this.seenIds.get(id);
-		if (prior !== undefined) return this.reject(line, `duplicate id "${id}" (first on line ${prior})`);
-		let ra = parseNumber(f[ix.ra!]);
-		const dec = parseNumber(f[ix.dec!]);
-		const d = parseNumber(f[ix.distance!]);
-		if (!Number.isFinite(ra) || ra < 0 || ra > 360) return this.reject(line, `ra "${f[ix.ra!]}" is not a number in [0, 360]`);
-		if (ra === 360) ra = 0;
-		if (!Number.isFinite(dec) || dec < -90 || dec > 90) return this.reject(line, `dec "${f[ix.dec!]}" is not a number in [-90, 90]`);
-		if (!Number.isFinite(d) || d <= 0 || d > this.options.maxDistanceMpc) {
-			return this.reject(line, `distance "${f[ix.distance!]}" is not a number in (0, ${this.options.maxDistanceMpc}] Mpc`);
-		}
-		let err = 0;
-		if (ix.distance_err !== undefined && f[ix.distance_err].trim() !== '') {
-			err = parseNumber(f[ix.distance_err]);
-			if (!Number.isFinite(err) || err < 0) return this.reject(line, `distance_err "${f[ix.distance_err]}" is not a non-negative number`);
-		}
-		const magAt = (k: CatalogField): number | null => {
-			const j = ix[k];
-			if (j === undefined) return null;
-			const v = parseNumber(f[j]);
-			return Number.isFinite(v) ? v : NaN;
-		};
-		// Absolute B magnitude, from the column or from the apparent one and the distance.
-		let mB = magAt('b_abs');
-		if (mB === null) {
-			const app = magAt('b_app');
-			if (app !== null) mB = app - 5 * Math.log10(d) - 25;
-		}
-		if (mB !== null && !Number.isFinite(mB) && this.weightSource === 'b') return this.reject(line, 'B magnitude is not a number');
-		const lumB = mB !== null && Number.isFinite(mB) ? 10 ** (-0.4 * (mB - SUN_ABS_MAG_B)) / 1e10 : NaN;
-		let w: number;
-		switch (this.weightSource) {
-			case 'weight': {
-				w = parseNumber(f[ix.weight!]);
-				if (!Number.isFinite(w) || w < 0) return this.reject(line, `weight "${f[ix.weight!]}" is not a non-negative number`);
-				break;
-			}
-			case 'b':
-				w = lumB;
-				break;
-			case 'k': {
-				let mK = magAt('k_abs');
-				if (mK === null) mK = magAt('k_app')! - 5 * Math.log10(d) - 25;
-				if (!Number.isFinite(mK)) return this.reject(line, 'K magnitude is not a number');
-				w = 10 ** (-0.4 * (mK - SUN_ABS_MAG_K)) / 1e10;
-				break;
-			}
-			case 'mass': {
-				const m = parseNumber(f[ix.mass!]);
-				if (!Number.isFinite(m) || m < 0) return this.reject(line, `mass "${f[ix.mass!]}" is not a non-negative number`);
-				w = m / 1e10;
-				break;
-			}
-			default:
-				w = 1;
-		}
-		this.seenIds.set(id, line);
-		this.ids.push(id);
-		this.ra.push(ra);
-		this.dec.push(dec);
-		this.dist.push(d);
-		this.distErr.push(err);
-		this.weight.push(w);
-		this.lumB.push(lumB);
-	}
-
-	private setHeader(names: string[], line: number): void {
-		const lower = names.map((n) => n.toLowerCase());
-		const cols = this.options.columns;
-		for (const field of CATALOG_FIELDS) {
-			const wanted = cols[field];
-			const j = lower.indexOf((wanted ?? field).toLowerCase());
-			if (j >= 0) {
-				this.fieldIndex[field] = j;
-				this.mapping[field] = names[j];
-			} else if (wanted !== undefined) {
-				this.fatal = `line ${line}: column "${wanted}" (mapped to ${field}) is not in the header`;
-				return;
-			}
-		}
-		const missing = (['ra', 'dec', 'distance'] as const).filter((k) => this.fieldIndex[k] === undefined);
-		if (missing.length) {
-			this.fatal = `line ${line}: header lacks ${missing.join(', ')} (found: ${names.join(', ')}); map them with columns`;
-			return;
-		}
-		const ix = this.fieldIndex;
-		// The most direct proxy present wins.
-		this.weightSource =
-			ix.weight !== undefined ? 'weight' : ix.b_abs !== undefined || ix.b_app !== undefined ? 'b' : ix.k_abs !== undefined || ix.k_app !== undefined ? 'k' : ix.mass !== undefined ? 'mass' : 'none';
-		this.header = names;
-	}
-
-	/** The outcome, once every record was handed over. */
+	/** The outcome, once every part was handed over. */
 	finish(): CatalogCsvResult {
-		if (!this.fatal && this.header === null) this.fatal = 'no header line';
-		const rejected = { count: this.rejectedCount, rows: this.rejectedRows };
-		const base = { fatal: this.fatal, rowsSeen: this.rowsSeen, rejected, mapping: this.mapping };
-		if (this.fatal) return { ...base, ok: false, catalog: null };
-		if (this.rejectedCount > 0 && !this.options.skipInvalid) return { ...base, ok: false, catalog: null };
+		if (!this.state.stopped) this.push(new Uint8Array(0), true);
+		const st = this.state;
+		const fatal = st.fatal ?? (st.header === null ? 'no header line' : null);
+		const rejected = { count: this.checker.rejectedCount, rows: this.checker.rejectedRows };
+		const base = { fatal, rowsSeen: st.rowsSeen, rejected, mapping: st.mapping };
+		if (fatal) return { ...base, ok: false, catalog: null };
+		if (rejected.count > 0 && !this.skipInvalid) return { ...base, ok: false, catalog: null };
 		const lumB = this.lumB.toArray();
 		const anyB = lumB.some((v) => !Number.isNaN(v));
 		return {
@@ -309,20 +541,29 @@ export class CatalogCsvParser {
 				distanceErrMpc: this.distErr.toArray(),
 				weight: this.weight.toArray(),
 				luminosityB10: anyB ? lumB : null,
-				weightSource: this.weightSource
+				weightSource: st.weightSource
 			}
 		};
 	}
 }
 
+/** One array of the given pieces. */
+export function concatBytes(pieces: Uint8Array[]): Uint8Array<ArrayBuffer> {
+	let n = 0;
+	for (const p of pieces) n += p.length;
+	const out = new Uint8Array(n);
+	let at = 0;
+	for (const p of pieces) {
+		out.set(p, at);
+		at += p.length;
+	}
+	return out;
+}
+
 /** Parse a whole catalogue held in memory, given as one string or as pieces of it. */
 export function parseCatalogCsv(input: string | Iterable<string>, options: CatalogCsvOptions = {}): CatalogCsvResult {
 	const reader = new CatalogCsvParser(options);
-	const prelude = new Prelude();
-	const text = prelude.push(typeof input === 'string' ? input : [...input].join(''));
-	const { records, error } = readCsv(text);
-	for (const r of records) reader.record(r.cells, r.line + prelude.skipped);
-	if (error) reader.unreadable({ ...error, line: error.line + prelude.skipped });
+	reader.push(typeof input === 'string' ? input : [...input].join(''), true);
 	return reader.finish();
 }
 
@@ -332,10 +573,14 @@ export interface CatalogStreamProgress {
 	chars: number;
 }
 
+/** Bytes read at once by `parseCatalogCsvStream` before the event loop gets a turn. */
+const STREAM_PART_BYTES = 256 * 1024;
+
 /**
- * Parse a catalogue arriving in chunks of text, streamed through csv-parse: memory holds the chunk
- * in hand and the columnar arrays, not the file, and the event loop gets a turn between chunks.
- * A source that throws ends the parse with `fatal` "the upload was interrupted: …".
+ * Parse a catalogue arriving in chunks of text on the calling thread: memory holds a part of the
+ * file (≈ 256 kB) and the columnar arrays, not the file, and the event loop gets a turn between
+ * parts. A source that throws ends the parse with `fatal` "the upload was interrupted: …".
+ * (For the CLI, scripts and tests; the server reads uploads on the work pool, `catalogs.ts`.)
  */
 export async function parseCatalogCsvStream(
 	chunks: AsyncIterable<string> | Iterable<string>,
@@ -343,21 +588,28 @@ export async function parseCatalogCsvStream(
 ): Promise<CatalogCsvResult> {
 	const { onChunk, ...parserOptions } = options;
 	const reader = new CatalogCsvParser(parserOptions);
-	const prelude = new Prelude();
 	let chars = 0;
-	async function* text(): AsyncGenerator<string> {
+	let pending: string[] = [];
+	let pendingChars = 0;
+	const flush = () => {
+		reader.push(pending.join(''));
+		pending = [];
+		pendingChars = 0;
+	};
+	try {
 		for await (const chunk of chunks) {
 			chars += chunk.length;
-			const out = prelude.push(chunk);
-			if (out) yield out;
+			pending.push(chunk);
+			pendingChars += chunk.length;
+			if (pendingChars >= STREAM_PART_BYTES) {
+				flush();
+				await new Promise<void>((resolve) => setImmediate(resolve));
+			}
 			onChunk?.({ chars });
 		}
-		prelude.finish();
-	}
-	try {
-		const error = await streamCsv(text(), (r) => reader.record(r.cells, r.line + prelude.skipped));
-		if (error) reader.unreadable({ ...error, line: error.line + prelude.skipped });
+		reader.push(pending.join(''), true);
 	} catch (e) {
+		flush();
 		reader.abort(`the upload was interrupted: ${(e as Error).message}`);
 	}
 	return reader.finish();

@@ -30,6 +30,8 @@ import {
 } from '../../targeting/coverage.ts';
 import { readSpectrum, SpectrumError, summariseSpectrum, type ReadSpectrumOptions, type Spectrum, type SpectrumSummary } from '../../candidates/spectrum.ts';
 import { buildReport, type EventReport, type ReportInputs } from '../../closeout/report.ts';
+import { absoluteMagB, readCatalogPart, type CatalogPartRows, type CatalogPartState } from '../../targeting/catalog-csv.ts';
+import { radecToNest } from '../../sky/index.ts';
 import { createHash } from 'node:crypto';
 import { shareArrays } from './work-memory.ts';
 
@@ -225,6 +227,28 @@ export const TASKS = {
 	/** The event's report from its rows (its union coverage by team and by filter is most of the work). */
 	buildReport(input: ReportInputs): EventReport {
 		return buildReport(input);
+	},
+
+	/**
+	 * Read one part of a catalogue file (its bytes moved here) after the reading state of the
+	 * part before: rows checked except for duplicate ids, with each galaxy's NESTED pixel at
+	 * `pixelOrder` and its M_B (NaN without one) for storing.
+	 */
+	readCatalogPart(input: { state: CatalogPartState; bytes: Uint8Array; final: boolean; pixelOrder: number }): {
+		state: CatalogPartState;
+		rows: CatalogPartRows;
+		pixel: Int32Array;
+		bAbsMag: Float64Array;
+	} {
+		const { state, rows } = readCatalogPart(input.state, input.bytes, input.final);
+		const pixel = new Int32Array(rows.size);
+		const bAbsMag = new Float64Array(rows.size);
+		for (let i = 0; i < rows.size; i++) {
+			if (Number.isNaN(rows.raDeg[i])) continue;
+			pixel[i] = radecToNest(input.pixelOrder, rows.raDeg[i], rows.decDeg[i]);
+			bAbsMag[i] = absoluteMagB(rows.luminosityB10[i]) ?? NaN;
+		}
+		return { state, rows, pixel, bAbsMag };
 	},
 
 	/** Read a spectrum file (ASCII, FITS table or 1-D image) and summarise it; the bytes come back for storing. */

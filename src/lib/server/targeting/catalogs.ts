@@ -1,24 +1,29 @@
 /**
- * Galaxy catalogues: import a CSV file streamed chunk by chunk through the catalogue parser
- * (`lib/targeting/catalog-csv.ts`), then store every galaxy with its HEALPix NESTED pixel at the
- * targeting index order in ONE transaction, or nothing at all.
+ * Galaxy catalogues: import a CSV file streamed part by part. Each part (CATALOG_PART_BYTES) is
+ * read on the work pool (`readCatalogPart` in `lib/targeting/catalog-csv.ts`: csv-parse, the
+ * header, every value checked, each galaxy's HEALPix NESTED pixel at the targeting index order);
+ * this thread keeps only the ids seen so far (the duplicate check, `CatalogRowChecker`) and stores
+ * the rows of one part while the pool reads the next, in small transactions with a turn of the
+ * event loop between them, so that pages stay quick during a million-row import.
  *
- * All or nothing: the rows are inserted only after the whole file was read and validated; a
- * fatal problem (no header, a missing column, too large) or any rejected row (unless the
- * importer asked to keep the valid rows) leaves the catalogue `failed` with its report and no
- * galaxy rows. The insert itself runs in one SQLite transaction, so a crash half-way leaves
- * nothing either.
+ * All or nothing: until the last row is stored the catalogue is `importing`, which nothing ranks
+ * against. A fatal problem (no header, a missing column, too large) or any rejected row (unless
+ * the importer asked to keep the valid rows) stops the storing, deletes what was stored and leaves
+ * the catalogue `failed` with its report; an import cut short by a stop of the server is cleaned
+ * up at the next start (`abandonUnfinishedImports`).
  */
 import { desc, eq, sql } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { randomId } from '../people/auth';
 import { record, type Actor } from '../platform/realtime';
-import { CATALOG_FIELDS, parseCatalogCsvStream, SUN_ABS_MAG_B, type CatalogCsvResult, type CatalogField } from '../../targeting/catalog-csv.ts';
+import { CATALOG_FIELDS, catalogPartState, CatalogRowChecker, concatBytes, Utf8Chunks, type CatalogField, type CatalogPartState } from '../../targeting/catalog-csv.ts';
 import { INDEX_ORDER } from '../../targeting/galaxies.ts';
-import { radecToNest } from '../../sky/index.ts';
+import { runWork, WorkPoolBusyError } from '../platform/work-pool';
+import type { TaskOutput } from '../platform/work-tasks';
+import { ownedBytes } from '../platform/work-memory';
 import { InputError } from '../platform/errors';
-import { CATALOG_MAX_BYTES } from '../../limits.ts';
+import { CATALOG_MAX_BYTES, CATALOG_PART_BYTES } from '../../limits.ts';
 import { catalogInUse } from '../alerts/events';
 
 /** Luminosity proxies a column can be mapped to ('none': every galaxy weighs the same). */
@@ -27,10 +32,18 @@ export type ProxyField = (typeof PROXY_FIELDS)[number];
 
 /** Rejected rows listed in a report (all are counted). */
 export const REPORTED_REJECTS = 50;
-/** Rows per multi-row INSERT (11 columns each, well under SQLite's bound-parameter limit). */
-const INSERT_BATCH = 200;
-/** Galaxies per transaction when storing; the event loop gets a turn between two (≈ 10–20 ms each). */
-const STORE_CHUNK = 1_000;
+/** Rows per multi-row INSERT (10 columns each, well under SQLite's bound-parameter limit). */
+const INSERT_BATCH = 50;
+/**
+ * Storing runs in slices: one transaction of INSERT_BATCH-row statements until this much time has
+ * passed, then a turn of the event loop (a page load in flight waits one slice per await of its own;
+ * ≈ 11 µs of CPU per galaxy here, so a slice is a few hundred rows).
+ */
+const STORE_SLICE_MS = 4;
+/** Galaxy rows deleted per statement when a failed import is cleaned up (a turn of the event loop between two). */
+const DISCARD_CHUNK = 5_000;
+/** How long a part waits for the work pool when it is busy before the import gives up. */
+const BUSY_RETRY_MS = 60_000;
 /** Least time between two `catalog.progress` messages. */
 const PROGRESS_EVERY_MS = 500;
 
@@ -57,12 +70,12 @@ export type ChunkSource = ReadableStream<Uint8Array> | AsyncIterable<Uint8Array 
 export interface ImportProgress {
 	catalogId: string;
 	bytes: number;
-	/** Lines read so far (comment and header lines included). */
+	/** Lines read so far (comment and header lines included; up to the last part the pool has read). */
 	lines: number;
 }
 
 export interface ImportOptions {
-	/** Called after each chunk was parsed (tests watch the streaming through it). */
+	/** Called as each chunk is taken from the source (tests watch the streaming through it). */
 	onChunk?: (p: ImportProgress) => void;
 	/** Log `catalog.progress` on the board at most this often (null: never). Default 500 ms. */
 	progressEveryMs?: number | null;
@@ -97,65 +110,6 @@ function checkInput(input: ImportInput): void {
 	if (twice) throw new CatalogError(`Column "${twice}" is mapped to two fields.`, 'columns');
 }
 
-/**
- * Rewrites the header line so that the parser sees exactly the mapped columns under the
- * catalogue's own field names, and every other column under a name it will not pick up.
- * Lines before the header (comments, blanks) pass through; the header is found the way the
- * parser finds it (first line that is neither blank nor a `#` comment).
- */
-class HeaderRewriter {
-	private done = false;
-	private buffer = '';
-	constructor(private readonly columns: Partial<Record<CatalogField, string>>) {}
-
-	push(text: string): string {
-		if (this.done) return text;
-		this.buffer += text;
-		let out = '';
-		for (;;) {
-			const nl = this.buffer.indexOf('\n');
-			if (nl < 0) return out;
-			const line = this.buffer.slice(0, nl + 1);
-			this.buffer = this.buffer.slice(nl + 1);
-			const bare = line.replace(/^\uFEFF/, '').replace(/\r?\n$/, '');
-			if (bare.trim() === '' || bare.startsWith('#')) {
-				out += line;
-				continue;
-			}
-			this.done = true;
-			const rest = this.buffer;
-			this.buffer = '';
-			return out + this.rewrite(bare) + '\n' + rest;
-		}
-	}
-
-	finish(): string {
-		const rest = this.buffer;
-		this.buffer = '';
-		if (this.done || !rest) return rest;
-		this.done = true;
-		const bare = rest.replace(/^\uFEFF/, '');
-		return bare.trim() === '' || bare.startsWith('#') ? rest : this.rewrite(bare);
-	}
-
-	private rewrite(header: string): string {
-		// A quoted header is left alone: the parser's own mapping handles it (without the ignore rule).
-		if (header.includes('"')) return header;
-		const byHeader = new Map<string, CatalogField>();
-		for (const [field, col] of Object.entries(this.columns)) byHeader.set(col!.trim().toLowerCase(), field as CatalogField);
-		const fieldNames = new Set<string>(CATALOG_FIELDS);
-		return header
-			.split(',')
-			.map((raw) => {
-				const name = raw.trim();
-				const field = byHeader.get(name.toLowerCase());
-				if (field) return field;
-				return fieldNames.has(name.toLowerCase()) ? `unmapped:${name}` : name;
-			})
-			.join(',');
-	}
-}
-
 async function* chunksOf(source: ChunkSource): AsyncGenerator<Uint8Array | string> {
 	if (typeof (source as ReadableStream<Uint8Array>).getReader === 'function') {
 		const reader = (source as ReadableStream<Uint8Array>).getReader();
@@ -172,16 +126,51 @@ async function* chunksOf(source: ChunkSource): AsyncGenerator<Uint8Array | strin
 	yield* source as AsyncIterable<Uint8Array | string>;
 }
 
-function countNewlines(s: string): number {
-	let n = 0;
-	for (let i = s.indexOf('\n'); i >= 0; i = s.indexOf('\n', i + 1)) n++;
-	return n;
+/** A part read by the pool. */
+type ReadPart = TaskOutput<'readCatalogPart'>;
+
+/** One part to the pool; a busy pool (every thread taken, the queue full) is asked again for a while. */
+async function readPart(state: CatalogPartState, bytes: Uint8Array, final: boolean): Promise<ReadPart> {
+	const owned = ownedBytes(bytes);
+	const carry = ownedBytes(state.carry);
+	const input = { state: { ...state, carry }, bytes: owned, final, pixelOrder: INDEX_ORDER };
+	const transfer = [owned.buffer, carry.buffer].filter((b) => b.byteLength > 0);
+	const giveUp = Date.now() + BUSY_RETRY_MS;
+	for (;;) {
+		try {
+			return await runWork('readCatalogPart', input, { transfer });
+		} catch (e) {
+			if (!(e instanceof WorkPoolBusyError) || Date.now() > giveUp) throw e;
+			await new Promise((resolve) => setTimeout(resolve, 500));
+		}
+	}
+}
+
+/** The file in parts of about CATALOG_PART_BYTES bytes, pulled from the source as they are needed. */
+async function* partsOf(source: ChunkSource, onChunk: (bytes: number) => boolean): AsyncGenerator<Uint8Array> {
+	const encoder = new Utf8Chunks();
+	let pending: Uint8Array[] = [];
+	let size = 0;
+	for await (const chunk of chunksOf(source)) {
+		const bytes = typeof chunk === 'string' ? encoder.push(chunk) : chunk;
+		if (!onChunk(typeof chunk === 'string' ? Buffer.byteLength(chunk) : chunk.byteLength)) return;
+		pending.push(bytes);
+		size += bytes.length;
+		if (size >= CATALOG_PART_BYTES) {
+			yield concatBytes(pending);
+			pending = [];
+			size = 0;
+		}
+	}
+	pending.push(encoder.finish());
+	yield concatBytes(pending);
 }
 
 /**
  * Import a catalogue from a stream of CSV text. The catalogue row is created first (state
- * `importing`, so the list shows it while it runs), then the file is read chunk by chunk; the
- * outcome is `ready` with every galaxy stored, or `failed` with the report and no galaxy.
+ * `importing`, so the list shows it while it runs), then the file is read part by part on the
+ * work pool while the rows of the part before are stored; the outcome is `ready` with every
+ * galaxy stored, or `failed` with the report and no galaxy.
  * Logs `catalog.progress` (throttled) and `catalog.imported` / `catalog.failed` on the board.
  */
 export async function importCatalog(actor: Actor, input: ImportInput, source: ChunkSource, options: ImportOptions = {}): Promise<ImportOutcome> {
@@ -202,121 +191,164 @@ export async function importCatalog(actor: Actor, input: ImportInput, source: Ch
 		.run();
 	record(actor, 'catalog.started', 'board', { catalogId, name: input.name.trim(), synthetic: Boolean(input.synthetic) });
 
-	const rewriter = input.columns ? new HeaderRewriter(columns) : null;
-	const decoder = new TextDecoder('utf-8');
+	const skipInvalid = input.skipInvalid ?? false;
+	// A mapping, when given, is the whole mapping: columns named like a field but not mapped are ignored.
+	let state = catalogPartState({ columns, onlyMapped: input.columns !== undefined });
+	const checker = new CatalogRowChecker(REPORTED_REJECTS);
+	const store = new GalaxyStore(catalogId);
 	let bytes = 0;
-	let lines = 0;
-	let fatal: string | null = null;
+	let tooLarge: string | null = null;
+	let interrupted: string | null = null;
 	const every = options.progressEveryMs === undefined ? PROGRESS_EVERY_MS : options.progressEveryMs;
 	let lastProgress = Date.now();
-	const fed = (text: string) => {
-		lines += countNewlines(text);
-		return rewriter ? rewriter.push(text) : text;
-	};
-	// The file as text, chunk by chunk, as the parser asks for it (pull: never far ahead of it).
-	async function* text(): AsyncGenerator<string> {
-		for await (const chunk of chunksOf(source)) {
-			const piece = typeof chunk === 'string' ? chunk : decoder.decode(chunk, { stream: true });
-			bytes += typeof chunk === 'string' ? Buffer.byteLength(chunk) : chunk.byteLength;
-			if (bytes > maxBytes) {
-				fatal = `the file is larger than ${Math.round(maxBytes / 1024 / 1024)} MB`;
-				return;
-			}
-			yield fed(piece);
-			options.onChunk?.({ catalogId, bytes, lines });
-			if (every !== null && Date.now() - lastProgress >= every) {
-				lastProgress = Date.now();
-				record(actor, 'catalog.progress', 'board', { catalogId, bytes, rows: lines });
-			}
+	const parts = partsOf(source, (n) => {
+		bytes += n;
+		if (bytes > maxBytes) {
+			tooLarge = `the file is larger than ${Math.round(maxBytes / 1024 / 1024)} MB`;
+			return false;
 		}
-		yield fed(decoder.decode());
-		if (rewriter) yield rewriter.finish();
+		options.onChunk?.({ catalogId, bytes, lines: state.lineBase });
+		return true;
+	});
+	const nextPart = async (): Promise<IteratorResult<Uint8Array>> => {
+		try {
+			return await parts.next();
+		} catch (e) {
+			interrupted = `the upload was interrupted: ${(e as Error).message}`;
+			return { done: true, value: undefined };
+		}
+	};
+	let storing: Promise<void> = Promise.resolve();
+	let storeError = null as Error | null;
+	// Rows are stored only while the outcome can still be `ready`.
+	const keepStoring = () => !state.fatal && !storeError && (skipInvalid || checker.rejectedCount === 0);
+	let poolError: Error | null = null;
+	let next = await nextPart();
+	while (!next.done && !state.stopped) {
+		// The next part is read from the source while the pool reads this one and the last one is stored.
+		const reading = readPart(state, next.value, false);
+		next = await nextPart();
+		let part: ReadPart;
+		try {
+			part = await reading;
+		} catch (e) {
+			poolError = e as Error;
+			break;
+		}
+		state = part.state;
+		const kept = checker.take(part.rows);
+		await storing;
+		if (keepStoring() && kept.length) storing = store.add(part, kept).catch((e) => void (storeError = e as Error));
+		// A tick while more of the file is to come (the last one says how many galaxies are stored).
+		if (!next.done && every !== null && Date.now() - lastProgress >= every) {
+			lastProgress = Date.now();
+			record(actor, 'catalog.progress', 'board', { catalogId, bytes, rows: state.lineBase });
+		}
 	}
-	const result: CatalogCsvResult = await parseCatalogCsvStream(text(), { skipInvalid: input.skipInvalid ?? false, maxReported: REPORTED_REJECTS });
+	// Reading stopped before the end of the source (a fatal problem): let the source go.
+	if (!next.done) await parts.return(undefined).catch(() => undefined);
+	// The end of the file: what is left in the state (a last line without a line break) is read.
+	if (!poolError && !tooLarge && !interrupted && !state.stopped) {
+		try {
+			const part = await readPart(state, new Uint8Array(0), true);
+			state = part.state;
+			const kept = checker.take(part.rows);
+			await storing;
+			if (keepStoring() && kept.length) storing = store.add(part, kept).catch((e) => void (storeError = e as Error));
+		} catch (e) {
+			poolError = e as Error;
+		}
+	}
+	await storing;
+
 	const report: table.CatalogImportReport = {
-		rowsSeen: result.rowsSeen,
-		rejectedCount: result.rejected.count,
-		rejected: result.rejected.rows,
-		fatal: fatal ?? result.fatal,
+		rowsSeen: state.rowsSeen,
+		rejectedCount: checker.rejectedCount,
+		rejected: checker.rejectedRows,
+		fatal: tooLarge ?? state.fatal ?? interrupted ?? (poolError ? `the file could not be read: ${poolError.message}` : null) ?? (state.header === null ? 'no header line' : null),
 		bytes
 	};
-	// The parser saw canonical names when the header was rewritten: report the user's own columns.
-	const mapping = rewriter ? (columns as Partial<Record<CatalogField, string>>) : result.mapping;
+	// Report the user's own columns when a mapping was given.
+	const mapping = input.columns ? (columns as Partial<Record<CatalogField, string>>) : state.mapping;
 	const error =
 		report.fatal ??
-		(!result.ok ? `${result.rejected.count} of ${result.rowsSeen} rows were rejected` : result.catalog!.size === 0 ? 'the file has no galaxy rows' : null);
+		(checker.rejectedCount > 0 && !skipInvalid ? `${checker.rejectedCount} of ${state.rowsSeen} rows were rejected` : store.rows === 0 && !storeError ? 'the file has no galaxy rows' : null) ??
+		(storeError ? `the galaxies could not be stored: ${storeError.message}` : null);
 
-	if (error || !result.catalog) {
+	if (error) {
+		await discardGalaxies(catalogId);
 		db.update(table.catalog).set({ state: 'failed', error, report, columns: mapping as Record<string, string> }).where(eq(table.catalog.id, catalogId)).run();
 		record(actor, 'catalog.failed', 'board', { catalogId, error, rejected: report.rejectedCount });
 		return { catalogId, state: 'failed', rowCount: 0, weightSource: 'none', report, error, mapping };
 	}
 
-	const cat = result.catalog;
-	record(actor, 'catalog.progress', 'board', { catalogId, bytes, rows: lines, storing: cat.size });
-	try {
-		await storeGalaxies(catalogId, cat, { report, mapping });
-	} catch (e) {
-		const why = `the galaxies could not be stored: ${(e as Error).message}`;
-		discardGalaxies(catalogId);
-		db.update(table.catalog).set({ state: 'failed', error: why, report, columns: mapping as Record<string, string> }).where(eq(table.catalog.id, catalogId)).run();
-		record(actor, 'catalog.failed', 'board', { catalogId, error: why, rejected: report.rejectedCount });
-		return { catalogId, state: 'failed', rowCount: 0, weightSource: 'none', report, error: why, mapping };
-	}
-	record(actor, 'catalog.imported', 'board', { catalogId, name: input.name.trim(), rows: cat.size, rejected: report.rejectedCount, synthetic: Boolean(input.synthetic) });
-	return { catalogId, state: 'ready', rowCount: cat.size, weightSource: cat.weightSource, report, error: null, mapping };
+	record(actor, 'catalog.progress', 'board', { catalogId, bytes, rows: state.lineBase, storing: store.rows });
+	db.$client
+		.prepare('UPDATE catalog SET state = ?, row_count = ?, weight_source = ?, report = ?, columns = ?, error = NULL, ready_at = ? WHERE id = ?')
+		.run('ready', store.rows, state.weightSource, JSON.stringify(report), JSON.stringify(mapping), Date.now(), catalogId);
+	record(actor, 'catalog.imported', 'board', { catalogId, name: input.name.trim(), rows: store.rows, rejected: report.rejectedCount, synthetic: Boolean(input.synthetic) });
+	return { catalogId, state: 'ready', rowCount: store.rows, weightSource: state.weightSource, report, error: null, mapping };
 }
+
+const GALAXY_COLUMNS = '(catalog_id, row, name, ra_deg, dec_deg, distance_mpc, distance_err_mpc, weight, b_abs_mag, pixel)';
+const GALAXY_VALUES = '(?, ?, ?, ?, ?, ?, ?, ?, ?, ?)';
+const GALAXY_PARAMS = 10;
 
 /**
- * Insert every galaxy (prepared multi-row INSERTs) in transactions of `STORE_CHUNK` rows with a
- * turn of the event loop between them, so that page loads and live messages are served while a
- * million-row catalogue is stored; the last transaction flips the catalogue to ready. Until then
- * the catalogue is `importing`, which nothing ranks against, so the rows already stored are never
- * read; a failure deletes them (`discardGalaxies`), and an import cut short by a stop of the
- * server is cleaned up at the next start (`abandonUnfinishedImports`).
+ * Stores a catalogue's kept rows part after part: prepared multi-row INSERTs of INSERT_BATCH
+ * rows, one transaction per slice of STORE_SLICE_MS, a turn of the event loop between two slices.
+ * `row` numbers the kept galaxies from 0 in file order (the CatalogIndex row).
  */
-async function storeGalaxies(
-	catalogId: string,
-	cat: NonNullable<CatalogCsvResult['catalog']>,
-	meta: { report: table.CatalogImportReport; mapping: Partial<Record<CatalogField, string>> }
-): Promise<void> {
-	const client = db.$client;
-	const cols = '(catalog_id, row, name, ra_deg, dec_deg, distance_mpc, distance_err_mpc, weight, b_abs_mag, pixel)';
-	const one = '(?, ?, ?, ?, ?, ?, ?, ?, ?, ?)';
-	const statement = (n: number) => client.prepare(`INSERT INTO galaxy ${cols} VALUES ${Array(n).fill(one).join(', ')}`);
-	const full = statement(INSERT_BATCH);
-	const lum = cat.luminosityB10;
-	const values = (k: number): unknown[] => {
-		const l = lum ? lum[k] : NaN;
-		// Back from L_B (10^10 L_B,⊙) to M_B with the parser's M_B,⊙ (catalog-csv.ts).
-		const bAbs = l > 0 ? SUN_ABS_MAG_B - 2.5 * Math.log10(l * 1e10) : null;
-		return [catalogId, k, cat.id[k], cat.raDeg[k], cat.decDeg[k], cat.distanceMpc[k], cat.distanceErrMpc[k], cat.weight[k], bAbs, radecToNest(INDEX_ORDER, cat.raDeg[k], cat.decDeg[k])];
-	};
-	const insertRange = client.transaction((from: number, to: number) => {
+class GalaxyStore {
+	rows = 0;
+	private readonly full = db.$client.prepare(`INSERT INTO galaxy ${GALAXY_COLUMNS} VALUES ${Array(INSERT_BATCH).fill(GALAXY_VALUES).join(', ')}`);
+	private readonly args: unknown[] = new Array(INSERT_BATCH * GALAXY_PARAMS);
+	/** Inserts kept[from…] until the slice's time is up or the part is stored; answers where it stopped. */
+	private readonly insertSlice = db.$client.transaction((part: ReadPart, kept: number[], from: number): number => {
+		const { rows, pixel, bAbsMag } = part;
+		const put = (args: unknown[], at: number, i: number) => {
+			const b = bAbsMag[i];
+			args[at] = this.catalogId;
+			args[at + 1] = this.rows++;
+			args[at + 2] = rows.id[i];
+			args[at + 3] = rows.raDeg[i];
+			args[at + 4] = rows.decDeg[i];
+			args[at + 5] = rows.distanceMpc[i];
+			args[at + 6] = rows.distanceErrMpc[i];
+			args[at + 7] = rows.weight[i];
+			args[at + 8] = Number.isNaN(b) ? null : b;
+			args[at + 9] = pixel[i];
+		};
+		const until = performance.now() + STORE_SLICE_MS;
 		let k = from;
-		for (; k + INSERT_BATCH <= to; k += INSERT_BATCH) {
-			const args: unknown[] = [];
-			for (let j = k; j < k + INSERT_BATCH; j++) args.push(...values(j));
-			full.run(args);
+		while (k + INSERT_BATCH <= kept.length) {
+			for (let j = 0; j < INSERT_BATCH; j++) put(this.args, j * GALAXY_PARAMS, kept[k + j]);
+			this.full.run(this.args);
+			k += INSERT_BATCH;
+			if (performance.now() >= until) return k;
 		}
-		if (k < to) {
-			const args: unknown[] = [];
-			for (let j = k; j < to; j++) args.push(...values(j));
-			statement(to - k).run(args);
+		if (k < kept.length) {
+			const args: unknown[] = new Array((kept.length - k) * GALAXY_PARAMS);
+			for (let j = 0; k + j < kept.length; j++) put(args, j * GALAXY_PARAMS, kept[k + j]);
+			db.$client.prepare(`INSERT INTO galaxy ${GALAXY_COLUMNS} VALUES ${Array(kept.length - k).fill(GALAXY_VALUES).join(', ')}`).run(args);
 		}
+		return kept.length;
 	});
-	for (let from = 0; from < cat.size; from += STORE_CHUNK) {
-		insertRange(from, Math.min(cat.size, from + STORE_CHUNK));
-		await new Promise((resolve) => setImmediate(resolve));
+
+	constructor(private readonly catalogId: string) {}
+
+	async add(part: ReadPart, kept: number[]): Promise<void> {
+		for (let from = 0; from < kept.length; ) {
+			from = this.insertSlice(part, kept, from);
+			await new Promise((resolve) => setImmediate(resolve));
+		}
 	}
-	client
-		.prepare('UPDATE catalog SET state = ?, row_count = ?, weight_source = ?, report = ?, columns = ?, error = NULL, ready_at = ? WHERE id = ?')
-		.run('ready', cat.size, cat.weightSource, JSON.stringify(meta.report), JSON.stringify(meta.mapping), Date.now(), catalogId);
 }
 
-/** Delete a catalogue's galaxy rows (an import that did not finish). */
-function discardGalaxies(catalogId: string): void {
-	db.delete(table.galaxy).where(eq(table.galaxy.catalogId, catalogId)).run();
+/** Delete a catalogue's galaxy rows (an import that did not finish), a few thousand at a time with a turn of the event loop between. */
+async function discardGalaxies(catalogId: string): Promise<void> {
+	const batch = db.$client.prepare('DELETE FROM galaxy WHERE id IN (SELECT id FROM galaxy WHERE catalog_id = ? LIMIT ?)');
+	while (batch.run(catalogId, DISCARD_CHUNK).changes > 0) await new Promise((resolve) => setImmediate(resolve));
 }
 
 /**
@@ -326,7 +358,7 @@ function discardGalaxies(catalogId: string): void {
 export function abandonUnfinishedImports(): number {
 	const unfinished = db.select({ id: table.catalog.id }).from(table.catalog).where(eq(table.catalog.state, 'importing')).all();
 	for (const { id } of unfinished) {
-		discardGalaxies(id);
+		db.delete(table.galaxy).where(eq(table.galaxy.catalogId, id)).run();
 		db.update(table.catalog).set({ state: 'failed', error: 'the server stopped during the import; import the file again' }).where(eq(table.catalog.id, id)).run();
 	}
 	return unfinished.length;
