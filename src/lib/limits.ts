@@ -121,3 +121,6 @@ export const ACK_LINK_LIFETIME_H = 24;
 
 /** Largest inbound-hook body read, bytes. */
 export const PHONE_INBOUND_MAX_BYTES = 16 * 1024;
+
+/** How long the browser keeps a sky map's display raster (s): it never changes under the map's id. */
+export const SKY_RASTER_MAX_AGE_S = 7 * 24 * 3600;

@@ -144,7 +144,9 @@ export async function run(): Promise<BenchResult[]> {
 
 		const port = await freePort();
 		const origin = `http://127.0.0.1:${port}`;
-		const server = spawn(process.execPath, ['server.js'], {
+		// PAGES_BENCH_NODE_ARGS: extra node flags for the server, e.g. "--cpu-prof --cpu-prof-dir=/tmp/prof".
+		const nodeArgs = (process.env.PAGES_BENCH_NODE_ARGS ?? '').split(' ').filter(Boolean);
+		const server = spawn(process.execPath, [...nodeArgs, 'server.js'], {
 			cwd: ROOT,
 			stdio: ['ignore', 'pipe', 'inherit'],
 			env: {

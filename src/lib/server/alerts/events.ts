@@ -166,6 +166,11 @@ export function skymapVersion(skymapId: string): string {
 	return row ? `${row.sha256 ?? ''}|${row.createdAt.getTime()}` : '';
 }
 
+/** The event a stored sky map belongs to; null for no such map. */
+export function skymapEventId(skymapId: string): string | null {
+	return db.select({ eventId: table.skymap.eventId }).from(table.skymap).where(eq(table.skymap.id, skymapId)).get()?.eventId ?? null;
+}
+
 /** The display raster and contours of a stored sky map (for the sky view). */
 export function skymapDisplay(skymapId: string): Record<string, unknown> | null {
 	return db.select({ display: table.skymap.display }).from(table.skymap).where(eq(table.skymap.id, skymapId)).get()?.display ?? null;

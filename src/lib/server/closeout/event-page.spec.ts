@@ -12,6 +12,7 @@ import { clearCoverageCache } from '../coordination/event-coverage';
 import { teamWork } from '../coordination/team-work';
 import { clearReplayCache, replayBounds } from './sky-replay';
 import { eventPage } from './event-page';
+import { eventSkyRaster } from '../targeting/event-sky';
 import { analyseSkymap, skyRaster } from '../../sky/index.ts';
 import { COVERAGE_CURVE_POINTS_MAX, REPLAY_MOMENTS_MAX, SKY_FOOTPRINTS_MAX, WORK_POINTINGS_PAGE_SIZE } from '../../limits.ts';
 import { addCrowdOfPointings } from '../../../../tests/bench/pages/crowd.ts';
@@ -92,7 +93,15 @@ describe('the event page of a crowded event', () => {
 		expect(first.coverage!.curve.at(-1)![1]).toBeCloseTo(first.coverage!.union, 5);
 		for (const t of first.coverage!.teams) expect(t.curve.length).toBeLessThanOrEqual(COVERAGE_CURVE_POINTS_MAX);
 		expect(first.replay!.moments.length).toBeLessThanOrEqual(REPLAY_MOMENTS_MAX);
-		expect(first.sky.raster).not.toBeNull();
+		// The raster itself is fetched from its own path (event-sky.ts eventSkyRaster), not carried in the page.
+		expect(first.sky.raster).toBeNull();
+		const skymapId = /^\/events\/ev-crowd\/sky\/([^/]+)\/raster$/.exec(first.sky.rasterUrl ?? '')?.[1];
+		expect(skymapId).toBeTruthy();
+		const served = eventSkyRaster('ev-crowd', skymapId!)!;
+		expect(served.raster.density.length).toBeGreaterThan(1000);
+		expect(served.etag).toMatch(/^"[\w-]+"$/);
+		// A map asked for under another event is not found.
+		expect(eventSkyRaster('ev-other', skymapId!)).toBeNull();
 
 		// A warm load (coverage cached, as it is between pointings): the size and time a crowd sees.
 		const t0 = performance.now();

@@ -37,7 +37,8 @@ export async function eventPage(eventId: string, user: SessionUser | null) {
 		canClose: can({ user }, 'events.close'),
 		// The report page is only useful to someone with a telescope to report for.
 		mayReport: Boolean(user && scopes.length && can({ user }, 'observations.report')),
-		sky: eventSky(event.id, current?.id ?? null, user, covered),
+		// The raster (most of the picture's bytes, the same for every load) is fetched on its own and cached by the browser.
+		sky: eventSky(event.id, current?.id ?? null, user, covered, new Date(), { inlineRaster: false }),
 		// The replay slider's range (first notice to close or now) and the moments where the picture changes.
 		replay: replayBounds(event.id),
 		openClaims: listClaims(event.id, { openOnly: true }).length,

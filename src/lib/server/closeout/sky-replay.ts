@@ -115,11 +115,24 @@ export function replayBounds(eventId: string, now = new Date()): ReplayBounds | 
 	// The event page asks for these at every load and an event may hold tens of thousands of
 	// pointings: their report times are read once per change (count and latest identify it) and
 	// cut to one per slice of the range, which is all thinMoments keeps of them anyway.
-	const reported = reportTimes(eventId).filter((t) => t >= range.startMs && t <= range.endMs);
+	const all = reportTimes(eventId);
+	const reported = all.slice(firstPast(all, range.startMs, false), firstPast(all, range.endMs, true));
 	const many = reported.length > REPLAY_MOMENTS_MAX;
 	const pointingMoments = many ? thinMoments(reported, range, REPLAY_MOMENTS_MAX, { always: true }) : reported;
 	const times = [...h.maps.map((m) => m.receivedAtMs), ...pointingMoments, ...claimTimes(eventId).flatMap((c) => [c.claimedAtMs, c.startedAtMs, c.doneAtMs, c.endedAtMs])];
 	return { ...range, moments: thinMoments(changeMoments(times, range), range, REPLAY_MOMENTS_MAX, { always: many }), closed: h.closedAtMs !== null };
+}
+
+/** Index of the first of ascending `sorted` at or after `t` (strictly after with `after`); its length when none is. */
+function firstPast(sorted: readonly number[], t: number, after: boolean): number {
+	let lo = 0;
+	let hi = sorted.length;
+	while (lo < hi) {
+		const mid = (lo + hi) >>> 1;
+		if (sorted[mid] < t || (after && sorted[mid] === t)) lo = mid + 1;
+		else hi = mid;
+	}
+	return lo;
 }
 
 /** Distinct report times of an event's pointings, ascending, cached per (event, count, latest). */

@@ -1,9 +1,9 @@
 import type { RequestEvent } from '@sveltejs/kit';
-import { eq, and, isNull } from 'drizzle-orm';
-import { sha256 } from '@oslojs/crypto/sha2';
-import { encodeBase32LowerCaseNoPadding, encodeHexLowerCase } from '@oslojs/encoding';
+import { eq, and, isNull, sql } from 'drizzle-orm';
+import { createHash } from 'node:crypto';
+import { encodeBase32LowerCaseNoPadding } from '@oslojs/encoding';
 import { hash, verify } from '@node-rs/argon2';
-import { db } from '../platform/db';
+import { db, preparedQuery } from '../platform/db';
 import * as table from '../platform/db/schema';
 import type { Role } from '../platform/db/schema';
 
@@ -45,7 +45,8 @@ export function randomId(): string {
 }
 
 export function hashToken(token: string): string {
-	return encodeHexLowerCase(sha256(new TextEncoder().encode(token)));
+	// Node's own SHA-256 (the same hex digest): it runs on every request, and a script hash cost ms.
+	return createHash('sha256').update(token).digest('hex');
 }
 
 export function generateSessionToken(): string {
@@ -82,31 +83,31 @@ export function createSession(
 }
 
 export function loadSessionUser(userId: string): SessionUser | null {
-	const row = db
-		.select({ id: table.user.id, email: table.user.email, name: table.user.name, disabledAt: table.user.disabledAt })
-		.from(table.user)
-		.where(eq(table.user.id, userId))
-		.get();
+	// Prepared once per connection: every signed-in request runs these.
+	const userQuery = preparedQuery('auth.user', (d) =>
+		d
+			.select({ id: table.user.id, email: table.user.email, name: table.user.name, disabledAt: table.user.disabledAt })
+			.from(table.user)
+			.where(eq(table.user.id, sql.placeholder('userId')))
+			.prepare()
+	);
+	const rolesQuery = preparedQuery('auth.roles', (d) =>
+		d.select({ role: table.userRole.role }).from(table.userRole).where(eq(table.userRole.userId, sql.placeholder('userId'))).prepare()
+	);
+	const teamsQuery = preparedQuery('auth.teams', (d) =>
+		d.select({ teamId: table.teamMember.teamId }).from(table.teamMember).where(eq(table.teamMember.userId, sql.placeholder('userId'))).prepare()
+	);
+	const row = userQuery.get({ userId });
 	if (!row || row.disabledAt) return null;
-	const roles = db
-		.select({ role: table.userRole.role })
-		.from(table.userRole)
-		.where(eq(table.userRole.userId, userId))
-		.all()
-		.map((r) => r.role);
-	const teamIds = db
-		.select({ teamId: table.teamMember.teamId })
-		.from(table.teamMember)
-		.where(eq(table.teamMember.userId, userId))
-		.all()
-		.map((r) => r.teamId);
+	const roles = rolesQuery.all({ userId }).map((r) => r.role);
+	const teamIds = teamsQuery.all({ userId }).map((r) => r.teamId);
 	return { id: row.id, email: row.email, name: row.name, roles, teamIds };
 }
 
 /** Look the token up, drop it when expired, extend it when under the renewal threshold. */
 export function validateSessionToken(token: string, now = new Date()): SessionValidation {
 	const id = hashToken(token);
-	const row = db.select().from(table.session).where(eq(table.session.id, id)).get();
+	const row = preparedQuery('auth.session', (d) => d.select().from(table.session).where(eq(table.session.id, sql.placeholder('id'))).prepare()).get({ id });
 	if (!row) return { session: null, user: null, fresh: false };
 	if (now.getTime() >= row.expiresAt.getTime()) {
 		db.delete(table.session).where(eq(table.session.id, id)).run();

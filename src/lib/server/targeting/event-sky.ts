@@ -4,7 +4,7 @@
  * side: their own team's claims stand out), and the completed observations' footprints.
  */
 import type { SessionUser } from '../people/auth';
-import { skymapDisplay, skymapVersion } from '../alerts/events';
+import { skymapDisplay, skymapEventId, skymapVersion } from '../alerts/events';
 import { eventFields, eventGalaxies } from './rankings';
 import { listClaims } from '../coordination/claims';
 import { listCandidates } from '../candidates/candidates';
@@ -30,7 +30,10 @@ export const SKY_GALAXIES = 500;
 export const SKY_FIELDS_PER_TELESCOPE = 150;
 
 export interface SkyViewData {
+	/** The packed display raster inline; null when there is none or when it is fetched from `rasterUrl`. */
 	raster: DisplayRaster | null;
+	/** Where the browser fetches the same raster (cacheable, one per map); null without a map to draw. */
+	rasterUrl: string | null;
 	contours: SkyContour[];
 	sun: SkyBody;
 	moon: SkyBody;
@@ -63,6 +66,25 @@ function mapDisplay(skymapId: string): { raster: DisplayRaster | null; contours:
 	return packed;
 }
 
+/** The path of a map's display raster (`src/routes/(app)/events/[eventId]/sky/[skymapId]/raster`). */
+export function skyRasterUrl(eventId: string, skymapId: string): string {
+	return `/events/${encodeURIComponent(eventId)}/sky/${encodeURIComponent(skymapId)}/raster`;
+}
+
+/**
+ * A map's packed display raster for the browser, with a validator that changes when the stored map
+ * does (a rewritten row under the same id). Null when the map is not the event's or has no raster.
+ */
+export function eventSkyRaster(eventId: string, skymapId: string): { raster: DisplayRaster; etag: string } | null {
+	if (skymapEventId(skymapId) !== eventId) return null;
+	const { raster } = mapDisplay(skymapId);
+	if (!raster) return null;
+	const version = skymapVersion(skymapId);
+	let h = 0x811c9dc5;
+	for (let i = 0; i < version.length; i++) h = Math.imul(h ^ version.charCodeAt(i), 0x01000193) >>> 0;
+	return { raster, etag: `"${skymapId.replace(/[^\w-]/g, '')}-${h.toString(16)}"` };
+}
+
 /**
  * The footprints drawn for a coverage result. eventCoverage hands out the same object while the
  * map and the pointings are unchanged, so this is worked out once per change, not per page load.
@@ -93,7 +115,7 @@ export function eventSky(
 	viewer: SessionUser | null,
 	covered: EventCoverage | null,
 	now = new Date(),
-	o: { asOf?: boolean } = {}
+	o: { asOf?: boolean; inlineRaster?: boolean } = {}
 ): SkyViewData {
 	const display = skymapId ? mapDisplay(skymapId) : { raster: null, contours: [] };
 	const site = { latitudeDeg: 0, longitudeDeg: 0, elevationM: 0 };
@@ -180,7 +202,8 @@ export function eventSky(
 
 	return {
 		candidates,
-		raster: display.raster,
+		raster: o.inlineRaster === false ? null : display.raster,
+		rasterUrl: skymapId && display.raster ? skyRasterUrl(eventId, skymapId) : null,
 		contours: display.contours,
 		sun: { raDeg: sun.raDeg, decDeg: sun.decDeg, avoidRadiusDeg: SUN_AVOID_DEG },
 		moon: { raDeg: moon.raDeg, decDeg: moon.decDeg, avoidRadiusDeg: MOON_AVOID_DEG, illumination: moonPhase(now).illumination },

@@ -47,3 +47,17 @@ export function useDatabase(database: DB): void {
 }
 
 export { schema };
+
+/**
+ * A query prepared once per connection and reused: for the few queries every request runs (the
+ * session lookup), where preparing the statement again each time costs more than running it.
+ * `build` gets the current connection and returns a drizzle `.prepare()`d query with placeholders.
+ */
+const preparedByDb = new WeakMap<DB, Map<string, unknown>>();
+export function preparedQuery<T>(key: string, build: (database: DB) => T): T {
+	let cache = preparedByDb.get(db);
+	if (!cache) preparedByDb.set(db, (cache = new Map()));
+	let hit = cache.get(key) as T | undefined;
+	if (hit === undefined) cache.set(key, (hit = build(db)));
+	return hit;
+}
