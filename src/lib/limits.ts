@@ -100,6 +100,16 @@ export const REPLAY_MOMENTS_MAX = 400;
 export const COVERAGE_CURVE_POINTS_MAX = 300;
 export const SKY_FOOTPRINTS_MAX = 300;
 
+/**
+ * Event pages built for everyone and kept per change of the event (closeout/event-page.ts): how
+ * many events at once (a night has a handful), and how long at most, so that a change written
+ * without a log entry (a direct database repair) still shows within a minute.
+ */
+export const PAGE_CACHE_EVENTS = 16;
+export const PAGE_CACHE_TTL_MS = 60_000;
+/** The board's shared part (alerts/board.ts boardNow): events leave it by the clock too, so kept shorter. */
+export const BOARD_CACHE_TTL_MS = 10_000;
+
 /** Pointings per page on an event's "Our claims and pointings" page. */
 export const WORK_POINTINGS_PAGE_SIZE = 100;
 

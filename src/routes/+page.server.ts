@@ -4,19 +4,19 @@ import type { Actions, PageServerLoad } from './$types';
 import { requirePermission, requireUser } from '$lib/server/people/guard';
 import { can } from '$lib/server/people/permissions';
 import { validateForm, failFromError } from '$lib/server/platform/forms';
-import { boardActivity, boardEvents } from '$lib/server/alerts/board';
+import { boardNow } from '$lib/server/alerts/board';
 import * as duty from '$lib/server/duty/paging';
 
-export const load: PageServerLoad = ({ locals, depends }) => {
+export const load: PageServerLoad = async ({ locals, depends }) => {
 	if (!locals.user) return { board: null };
 	requirePermission('board.view');
 	depends('app:board');
-	const activity = boardActivity();
+	const { activity, events } = await boardNow();
 	const onShift = duty.onShift().map((s) => ({ name: s.name, rank: s.rank, endsAt: s.endsAt.toISOString(), you: s.userId === locals.user!.id }));
 	return {
 		board: {
 			activity,
-			events: boardEvents(),
+			events,
 			onShift,
 			canAcknowledge: can({ user: locals.user }, 'events.acknowledge')
 		}

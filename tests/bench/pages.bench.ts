@@ -13,6 +13,8 @@
  *  4. reference under the same crowd: 8 clients load `/favicon.svg` (a static file: the HTTP
  *     stack alone) and then `/api/v1/me` (the session lookup and one route: the floor of any
  *     signed-in page) for 5 s each.
+ * A load of the event page is its HTML and then its sky view (`/events/{id}/sky/view`, whose address
+ * the HTML holds), one after the other as the browser does; its time and bytes are the sum.
  * Printed per page: p50 / p99 / max latency, pages per second, bytes per page; the load
  * average beside it. Every answer must be 200 with the page's marker in it, else the run fails.
  *
@@ -54,11 +56,25 @@ interface Target {
 	path: string;
 	/** Text every good answer contains (a page that rendered an error would not). */
 	marker: string;
+	/**
+	 * What the browser fetches next to show the page, found in its HTML (the event page's sky view):
+	 * a load is both answers, one after the other, as the page is not whole before the second.
+	 */
+	then?: { name: string; find: RegExp; marker: string };
 }
 
 const agent = new http.Agent({ keepAlive: true, maxSockets: CLIENTS });
 
-function get(origin: string, t: Target, cookie: string, retried = false): Promise<Load> {
+async function get(origin: string, t: Target, cookie: string): Promise<Load> {
+	const first = await getOne(origin, t, cookie);
+	if (!t.then || !first.ok) return first;
+	const path = t.then.find.exec(first.body)?.[0];
+	if (!path) return { ...first, ok: false, error: `no ${t.then.name} address in the page` };
+	const second = await getOne(origin, { name: t.then.name, path, marker: t.then.marker }, cookie);
+	return { ms: first.ms + second.ms, bytes: first.bytes + second.bytes, status: second.status, ok: second.ok, error: second.error };
+}
+
+function getOne(origin: string, t: Target, cookie: string, retried = false): Promise<Load & { body: string }> {
 	const t0 = nowMs();
 	return new Promise((resolve) => {
 		const req = http.get(`${origin}${t.path}`, { agent, headers: { cookie, accept: 'text/html,*/*' } }, (res) => {
@@ -67,15 +83,16 @@ function get(origin: string, t: Target, cookie: string, retried = false): Promis
 			res.on('end', () => {
 				const body = Buffer.concat(chunks);
 				const ms = nowMs() - t0;
-				const ok = res.statusCode === 200 && body.includes(t.marker);
-				resolve({ ms, bytes: body.length, status: res.statusCode ?? 0, ok, error: ok ? undefined : body.toString('utf8', 0, 300) });
+				const text = body.toString('utf8');
+				const ok = res.statusCode === 200 && text.includes(t.marker);
+				resolve({ ms, bytes: body.length, status: res.statusCode ?? 0, ok, error: ok ? undefined : text.slice(0, 300), body: text });
 			});
 		});
 		req.setTimeout(HTTP_TIMEOUT_MS, () => req.destroy(new Error('request timed out')));
 		req.on('error', (e) => {
 			// A kept-alive socket the server closed just as the request left: browsers send it again.
-			if ((e as NodeJS.ErrnoException).code === 'ECONNRESET' && req.reusedSocket && !retried) resolve(get(origin, t, cookie, true));
-			else resolve({ ms: nowMs() - t0, bytes: 0, status: 0, ok: false, error: e.message });
+			if ((e as NodeJS.ErrnoException).code === 'ECONNRESET' && req.reusedSocket && !retried) resolve(getOne(origin, t, cookie, true));
+			else resolve({ ms: nowMs() - t0, bytes: 0, status: 0, ok: false, error: e.message, body: '' });
 		});
 	});
 }
@@ -166,7 +183,12 @@ export async function run(): Promise<BenchResult[]> {
 		try {
 			await waitForLine(server, 'Strainline listening on', 30_000, 'app');
 			const board: Target = { name: 'board', path: '/', marker: 'data-testid="event-count"' };
-			const event: Target = { name: 'event page', path: `/events/${world.eventId}`, marker: `data-event-id="${world.eventId}"` };
+			const event: Target = {
+				name: 'event page',
+				path: `/events/${world.eventId}`,
+				marker: `data-event-id="${world.eventId}"`,
+				then: { name: 'sky view', find: /\/events\/[^"\\]+\/sky\/view\?v=[\d.]+/, marker: '"footprintCount"' }
+			};
 			const asset: Target = { name: 'static file', path: '/favicon.svg', marker: '<svg' };
 			const me: Target = { name: 'GET /api/v1/me', path: '/api/v1/me', marker: '"user"' };
 
@@ -232,7 +254,7 @@ export async function run(): Promise<BenchResult[]> {
 				suite: 'pages',
 				name: `event page with ${POINTINGS.toLocaleString('en-GB')} pointings, first load`,
 				strainlineMs: cold.ms,
-				note: `${kB(cold.bytes)} of HTML`
+				note: `${kB(cold.bytes)}: HTML and the sky view`
 			});
 			// The server's own CPU per page: what a crowd costs, whatever else the machine is doing.
 			results.push({

@@ -9,6 +9,9 @@ import { ackState, escalateAfterMin, pagesFor, type PageView } from '../duty/pag
 import type { AckView, EventDetail, EventView, PageRow, SkymapView } from '../../event-view';
 import { QUIET_ACTIONS } from '../../activity';
 import { closureOf } from './events';
+import { latestSeq } from '../platform/realtime';
+import { versionedCache } from '../platform/versioned-cache';
+import { BOARD_CACHE_TTL_MS } from '../../limits.ts';
 
 export type { AckView, EventView, NoticeView, PageRow, SkymapView } from '../../event-view';
 
@@ -158,6 +161,17 @@ export function boardEvents(now = new Date()): EventView[] {
 		.limit(50)
 		.all();
 	return views(rows).views;
+}
+
+/**
+ * The board's events and latest messages as of the latest log entry, shared by everyone who loads
+ * the board until something is logged (a crowd opening the board after a page e-mail costs one
+ * read, not one per person), or for BOARD_CACHE_TTL_MS at most (retracted events leave the board
+ * by the clock, not by a log entry).
+ */
+const boardCache = versionedCache<{ activity: ReturnType<typeof boardActivity>; events: EventView[] }>({ max: 1, ttlMs: BOARD_CACHE_TTL_MS });
+export function boardNow() {
+	return boardCache.get('board', String(latestSeq()), () => ({ activity: boardActivity(), events: boardEvents() }));
 }
 
 /** Everything known about one event, or null when there is no such event. */

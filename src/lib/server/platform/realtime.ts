@@ -1,6 +1,6 @@
 import type { Socket } from 'socket.io';
 import { and, asc, gt, inArray } from 'drizzle-orm';
-import { db } from './db';
+import { db, preparedQuery } from './db';
 import * as table from './db/schema';
 import { realtimeSlot } from './socket-host.js';
 import { restartService, service, type Running } from './services';
@@ -286,6 +286,20 @@ function schedulePresence(room: Room): void {
 		state.timer = setTimeout(fire, waitMs);
 		state.timer.unref?.();
 	}
+}
+
+/**
+ * A token that changes whenever something is logged to an event's room or to the board (where
+ * telescope, team and catalogue changes go): what pages built for the event are cached against
+ * (`versioned-cache.ts`). Two index lookups on (room, seq).
+ */
+export function eventVersion(eventId: string): string {
+	const row = preparedQuery('eventVersion', (d) =>
+		d.$client.prepare(
+			"SELECT (SELECT COALESCE(MAX(seq), 0) FROM event_log WHERE room = ?) AS ev, (SELECT COALESCE(MAX(seq), 0) FROM event_log WHERE room = 'board') AS board"
+		)
+	).get(`event:${eventId}`) as { ev: number; board: number };
+	return `${row.ev}.${row.board}`;
 }
 
 export function latestSeq(): number {

@@ -104,8 +104,7 @@ function drawnOf(covered: EventCoverage): { footprints: SkyFootprint[]; places: 
 }
 
 /**
- * The sky view for one viewer. Positions of the Sun and Moon are topocentric for a reference
- * point on the equator at longitude 0; the Moon's parallax (≤ 1°) is below what the overview shows.
+ * The sky view for one viewer (the Sun and Moon from `skyBodies`).
  * With `asOf`, claims and candidates are shown as they stood at `now` (the replay; the claim's
  * own times decide, src/lib/closeout/replay.ts), and candidates reported later are left out.
  */
@@ -118,9 +117,6 @@ export function eventSky(
 	o: { asOf?: boolean; inlineRaster?: boolean } = {}
 ): SkyViewData {
 	const display = skymapId ? mapDisplay(skymapId) : { raster: null, contours: [] };
-	const site = { latitudeDeg: 0, longitudeDeg: 0, elevationM: 0 };
-	const sun = sunPosition(site, now);
-	const moon = moonPosition(site, now);
 
 	// The claim a target shows: an open one first, else a finished one; released and lapsed claims free it.
 	const atMs = now.getTime();
@@ -205,11 +201,24 @@ export function eventSky(
 		raster: o.inlineRaster === false ? null : display.raster,
 		rasterUrl: skymapId && display.raster ? skyRasterUrl(eventId, skymapId) : null,
 		contours: display.contours,
-		sun: { raDeg: sun.raDeg, decDeg: sun.decDeg, avoidRadiusDeg: SUN_AVOID_DEG },
-		moon: { raDeg: moon.raDeg, decDeg: moon.decDeg, avoidRadiusDeg: MOON_AVOID_DEG, illumination: moonPhase(now).illumination },
+		...skyBodies(now),
 		targets,
 		footprints,
 		footprintCount: { pointings: observed.length, places, drawn: footprints.length }
+	};
+}
+
+/**
+ * The Sun and Moon at `now` with their display avoidance radii, topocentric for a reference point on
+ * the equator at longitude 0 (the Moon's parallax, at most 1°, is below what the overview shows).
+ */
+export function skyBodies(now: Date): { sun: SkyBody; moon: SkyBody } {
+	const site = { latitudeDeg: 0, longitudeDeg: 0, elevationM: 0 };
+	const sun = sunPosition(site, now);
+	const moon = moonPosition(site, now);
+	return {
+		sun: { raDeg: sun.raDeg, decDeg: sun.decDeg, avoidRadiusDeg: SUN_AVOID_DEG },
+		moon: { raDeg: moon.raDeg, decDeg: moon.decDeg, avoidRadiusDeg: MOON_AVOID_DEG, illumination: moonPhase(now).illumination }
 	};
 }
 
