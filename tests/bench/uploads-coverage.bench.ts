@@ -58,8 +58,8 @@ function setUp(): void {
 	db.update(table.gwEvent).set({ latestSkymapId: 'map-1' }).run();
 }
 
-function upload(text: string): void {
-	const parsed = parseObservationCsv(text);
+async function upload(text: string): Promise<void> {
+	const parsed = await parseObservationCsv(text);
 	if (parsed.errors.length) throw new Error(`bench CSV refused: ${JSON.stringify(parsed.errors.slice(0, 2))}`);
 	const user = loadSessionUser('bench-obs')!;
 	reportMany({ user }, parsed.rows.map((r) => ({ ...r, eventId: 'ev-1', telescopeId: 'tel-a' })), 'csv', { lines: parsed.lines, now: NOW });
@@ -90,7 +90,7 @@ export async function run(): Promise<BenchResult[]> {
 		useStorageRoot(join(dir, 'files'));
 		setUp();
 		const t1 = MERGER.getTime() + 3_600_000;
-		upload(pointingsCsv(ROWS, t1, 0));
+		await upload(pointingsCsv(ROWS, t1, 0));
 		const first = await timed();
 		if (first.c.update !== 'recomputed' || first.c.observations !== ROWS) throw new Error('bench: first coverage not computed afresh');
 		results.push({
@@ -100,12 +100,12 @@ export async function run(): Promise<BenchResult[]> {
 			note: `event loop held ≤ ${first.heldMs.toFixed(0)} ms; union ${first.c.union.toFixed(4)} ± ${first.c.errorBound.toExponential(1)}; load ${load()}`
 		});
 
-		const steps: [string, () => void][] = [
+		const steps: [string, () => Promise<void>][] = [
 			['+1 pointing', () => upload(pointingsCsv(1, t1 + ROWS * 4_000, 0.2))],
 			[`+${ROWS} pointings (second pass)`, () => upload(pointingsCsv(ROWS, t1 + (ROWS + 1) * 4_000, 0.4))]
 		];
 		for (const [label, add] of steps) {
-			add();
+			await add();
 			const inc = await timed();
 			if (inc.c.update !== 'extended') throw new Error(`bench: ${label} was not an extension (${inc.c.update})`);
 			const loadInc = load();

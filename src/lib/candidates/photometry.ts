@@ -218,6 +218,29 @@ export function parsePhotometryCsv(text: string): PhotometryParse {
 	return { ok: true, points };
 }
 
+/**
+ * The line of each data row of a photometry CSV, counted as the upload has always counted them
+ * for the checks against the store: physical lines, the first that is not blank or a `#` comment
+ * being the header.
+ */
+export function photometryDataLines(text: string): number[] {
+	const lines: number[] = [];
+	const all = text.replace(/^\uFEFF/, '').split(/\r?\n/);
+	let header = false;
+	all.forEach((l, k) => {
+		if (l.trim() === '' || l.trimStart().startsWith('#')) return;
+		if (!header) header = true;
+		else lines.push(k + 1);
+	});
+	return lines;
+}
+
+/** An uploaded photometry CSV read whole (the work pool's task of the same name): the parse, and with its points their lines. */
+export function readPhotometryUpload(text: string): { parse: PhotometryParse; lines: number[] } {
+	const parse = parsePhotometryCsv(text);
+	return { parse, lines: parse.ok ? photometryDataLines(text) : [] };
+}
+
 /** `parsePhotometryCsv` for callers that prefer an exception: throws PhotometryError listing every bad line. */
 export function readPhotometryCsv(text: string): PhotometryPoint[] {
 	const r = parsePhotometryCsv(text);

@@ -48,10 +48,21 @@ function refusal(f: () => unknown): PhotometryRefused {
 	throw new Error('expected the photometry to be refused');
 }
 
+/** `refusal` for an upload that settles later (a CSV is read on the work pool). */
+async function refused(upload: Promise<unknown>): Promise<PhotometryRefused> {
+	try {
+		await upload;
+	} catch (e) {
+		if (e instanceof PhotometryRefused) return e;
+		throw e;
+	}
+	throw new Error('expected the photometry to be refused');
+}
+
 describe('photometry by CSV', () => {
 	it('stores every row of a good file, logs it once, and vets the candidate again', async () => {
 		expect.hasAssertions();
-		const out = addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
+		const out = await addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
 		expect(out.added).toBe(17);
 		expect(stored()).toHaveLength(17);
 		expect(out.photometry[0]).toMatchObject({ time: '2026-12-02T05:28:05.000Z', filter: 'i', mag: null, limitMag: 22.01, reportedBy: 'Olga Observer', source: 'csv' });
@@ -62,7 +73,7 @@ describe('photometry by CSV', () => {
 		expect(log[0].room).toBe(`event:${w.eventId}`);
 		await vettingIdle();
 	});
-	it('refuses the whole file when any line is bad, naming every bad line, and stores nothing', () => {
+	it('refuses the whole file when any line is bad, naming every bad line, and stores nothing', async () => {
 		expect.hasAssertions();
 		const csv = [
 			'time,filter,mag,mag_err,limit',
@@ -72,7 +83,7 @@ describe('photometry by CSV', () => {
 			'2026-12-03T01:08:53Z,r,20.8,,',
 			'2026-12-03T12:40:05Z,g,21.9,0.09,'
 		].join('\n');
-		const e = refusal(() => addPhotometryCsv({ user: w.observer }, w.candidateId, csv, NOW));
+		const e = await refused(addPhotometryCsv({ user: w.observer }, w.candidateId, csv, NOW));
 		expect(e.status).toBe(422);
 		expect(e.details).toEqual([
 			{ line: 3, message: 'magnitude "abc" is not a number' },
@@ -82,13 +93,13 @@ describe('photometry by CSV', () => {
 		expect(stored()).toHaveLength(0);
 		expect(logged('candidate.photometry')).toHaveLength(0);
 	});
-	it('refuses a repeated upload of the same measurements, and times in the future, by line', () => {
+	it('refuses a repeated upload of the same measurements, and times in the future, by line', async () => {
 		expect.hasAssertions();
-		addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
-		const again = refusal(() => addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW));
+		await addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
+		const again = await refused(addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW));
 		expect(again.details).toHaveLength(17);
 		expect(again.details[1]).toEqual({ line: 3, message: 'a g measurement at 2026-12-02T13:52:05.000Z is already stored for this candidate' });
-		const future = refusal(() =>
+		const future = await refused(
 			addPhotometryCsv({ user: w.observer }, w.candidateId, 'time,filter,mag,mag_err,limit\n2026-12-10T00:00:00Z,r,20,0.1,\n2026-12-10T00:00:00Z,r,20.1,0.1,', NOW)
 		);
 		expect(future.details).toEqual([
@@ -156,7 +167,7 @@ describe('who may report photometry, and when', () => {
 		expect(out.photometry[0].reportedBy).toMatch(/^telescope Basalt 0\.6 m/);
 		expect(logged('candidate.photometry')[0].actorLabel).toMatch(/^telescope Basalt 0\.6 m/);
 	});
-	it('refuses viewers (403), unknown candidates (404) and a retracted event (409, saying why)', () => {
+	it('refuses viewers (403), unknown candidates (404) and a retracted event (409, saying why)', async () => {
 		expect.hasAssertions();
 		const rows = { rows: [{ time: '2026-12-03T00:40:05Z', filter: 'g', mag: 21.3, mag_err: 0.05 }] };
 		expect(() => addPhotometryRows({ user: w.viewer }, w.candidateId, rows, NOW)).toThrow(expect.objectContaining({ status: 403 }));
@@ -164,7 +175,7 @@ describe('who may report photometry, and when', () => {
 		db.update(table.gwEvent).set({ state: 'retracted' }).where(eq(table.gwEvent.id, w.eventId)).run();
 		let e: unknown;
 		try {
-			addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
+			await addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
 		} catch (x) {
 			e = x;
 		}

@@ -11,10 +11,11 @@ import * as table from '../platform/db/schema';
 import { randomId } from '../people/auth';
 import { can } from '../people/permissions';
 import { record } from '../platform/realtime';
-import { checkPhotometryRow, MAX_PHOTOMETRY_ROWS, parsePhotometryCsv, type PhotometryLineError, type PhotometryPoint } from '../../candidates/photometry.ts';
+import { checkPhotometryRow, MAX_PHOTOMETRY_ROWS, type PhotometryLineError, type PhotometryPoint } from '../../candidates/photometry.ts';
 import { assertEventOpen } from '../alerts/events';
 import { actorOfReporter, CandidateError, candidateForWork, fieldErrorsOf, joinFields, uniqueViolation, type CandidateReporter } from './candidates';
 import { vetEvent, type VetOutcome } from './vetting';
+import { runWork } from '../platform/work-pool';
 
 const MIN = 60_000;
 
@@ -157,11 +158,15 @@ function store(reporter: CandidateReporter, candidateId: string, batch: Batch, s
 	return batch.points.length;
 }
 
-function add(reporter: CandidateReporter, candidateId: string, parse: (c: table.Candidate) => Batch, source: table.CandidatePhotometry['source'], now: Date): AddedPhotometry {
+/** Who may add, and to which candidate: the checks before a batch is read, and again after an upload was read on the work pool. */
+function target(reporter: CandidateReporter, candidateId: string) {
 	if (!can(reporter, 'candidates.photometry')) throw new CandidateError(403, 'forbidden', 'Your role does not allow reporting photometry.');
 	const { candidate, event } = candidateForWork(candidateId, 'photometry is not taken');
 	assertEventOpen(event, 'new photometry is not taken');
-	const batch = parse(candidate);
+	return { candidate, event };
+}
+
+function addBatch(reporter: CandidateReporter, candidate: table.Candidate, event: table.GwEvent, batch: Batch, source: table.CandidatePhotometry['source'], now: Date): AddedPhotometry {
 	const problems = checkAgainstStore(candidate, batch, now);
 	if (problems.length) refuse(problems);
 	const added = store(reporter, candidate.id, batch, source, now);
@@ -182,29 +187,19 @@ function add(reporter: CandidateReporter, candidateId: string, parse: (c: table.
 /**
  * Add photometry from CSV text (header `time,filter,mag,mag_err,limit`). Refusals as CandidateError:
  * 403, 404, 409 (retracted event; a concurrent upload of the same measurements); PhotometryRefused
- * (422) with `details` `[{ line, message }]` for every bad line, nothing stored.
+ * (422) with `details` `[{ line, message }]` for every bad line, nothing stored. The file is read
+ * and each row checked on the work pool (`readPhotometryUpload`); the checks against the store and
+ * the storing happen here, after the candidate and its event are looked at again (either may have
+ * changed while the file was read).
  */
-export function addPhotometryCsv(reporter: CandidateReporter, candidateId: string, csv: string, now = new Date(), source: 'csv' | 'form' = 'csv'): AddedPhotometry {
-	return add(
-		reporter,
-		candidateId,
-		() => {
-			const parsed = parsePhotometryCsv(csv);
-			if (!parsed.ok) refuse(parsed.errors.map((e) => ({ where: { line: e.line }, message: e.message })));
-			// Line numbers of the data rows, for the checks against the store.
-			const lines: number[] = [];
-			const text = csv.replace(/^\uFEFF/, '').split(/\r?\n/);
-			let header = false;
-			text.forEach((l, k) => {
-				if (l.trim() === '' || l.trimStart().startsWith('#')) return;
-				if (!header) header = true;
-				else lines.push(k + 1);
-			});
-			return { points: parsed.points, observationIds: parsed.points.map(() => null), where: (k) => ({ line: lines[k] }) };
-		},
-		source,
-		now
-	);
+export async function addPhotometryCsv(reporter: CandidateReporter, candidateId: string, csv: string, now = new Date(), source: 'csv' | 'form' = 'csv'): Promise<AddedPhotometry> {
+	target(reporter, candidateId);
+	const { parse, lines } = await runWork('readPhotometryUpload', { text: csv });
+	if (!parse.ok) refuse(parse.errors.map((e) => ({ where: { line: e.line }, message: e.message })));
+	const { candidate, event } = target(reporter, candidateId);
+	// Line numbers of the data rows, for the checks against the store.
+	const batch: Batch = { points: parse.points, observationIds: parse.points.map(() => null), where: (k) => ({ line: lines[k] }) };
+	return addBatch(reporter, candidate, event, batch, source, now);
 }
 
 /**
@@ -212,39 +207,35 @@ export function addPhotometryCsv(reporter: CandidateReporter, candidateId: strin
  * The same checks as a CSV line; problems are named by row (1-based) in `details` `[{ row, message }]`.
  */
 export function addPhotometryRows(reporter: CandidateReporter, candidateId: string, body: unknown, now = new Date(), source: 'json' | 'form' = 'json'): AddedPhotometry {
-	return add(
-		reporter,
-		candidateId,
-		() => {
-			const parsed = photometryJsonInput.safeParse(body);
-			if (!parsed.success) {
-				const fields = fieldErrorsOf(parsed.error);
-				throw new CandidateError(422, 'invalid', `${joinFields(fields)} (expected { rows: [{ time, filter, mag, mag_err, limit }] })`, fields);
+	const { candidate, event } = target(reporter, candidateId);
+	const batch = ((): Batch => {
+		const parsed = photometryJsonInput.safeParse(body);
+		if (!parsed.success) {
+			const fields = fieldErrorsOf(parsed.error);
+			throw new CandidateError(422, 'invalid', `${joinFields(fields)} (expected { rows: [{ time, filter, mag, mag_err, limit }] })`, fields);
+		}
+		const problems: { where: { row: number }; message: string }[] = [];
+		const points: PhotometryPoint[] = [];
+		const observationIds: (string | null)[] = [];
+		parsed.data.rows.forEach((raw, k) => {
+			const row = photometryRowInput.safeParse(raw);
+			const unknown = Object.keys(raw).filter((f) => !['time', 'filter', 'mag', 'mag_err', 'limit', 'observationId'].includes(f));
+			for (const f of unknown) problems.push({ where: { row: k + 1 }, message: `unknown field "${f}" (expected time, filter, mag, mag_err, limit, observationId)` });
+			if (!row.success) {
+				problems.push({ where: { row: k + 1 }, message: 'observationId must be a pointing id' });
+				return;
 			}
-			const problems: { where: { row: number }; message: string }[] = [];
-			const points: PhotometryPoint[] = [];
-			const observationIds: (string | null)[] = [];
-			parsed.data.rows.forEach((raw, k) => {
-				const row = photometryRowInput.safeParse(raw);
-				const unknown = Object.keys(raw).filter((f) => !['time', 'filter', 'mag', 'mag_err', 'limit', 'observationId'].includes(f));
-				for (const f of unknown) problems.push({ where: { row: k + 1 }, message: `unknown field "${f}" (expected time, filter, mag, mag_err, limit, observationId)` });
-				if (!row.success) {
-					problems.push({ where: { row: k + 1 }, message: 'observationId must be a pointing id' });
-					return;
-				}
-				const r = checkPhotometryRow(row.data as Parameters<typeof checkPhotometryRow>[0]);
-				if (!r.ok) for (const message of r.errors) problems.push({ where: { row: k + 1 }, message });
-				else {
-					points.push(r.point);
-					observationIds.push(row.data.observationId ?? null);
-				}
-			});
-			if (problems.length) refuse(problems);
-			return { points, observationIds, where: (k) => ({ row: k + 1 }) };
-		},
-		source,
-		now
-	);
+			const r = checkPhotometryRow(row.data as Parameters<typeof checkPhotometryRow>[0]);
+			if (!r.ok) for (const message of r.errors) problems.push({ where: { row: k + 1 }, message });
+			else {
+				points.push(r.point);
+				observationIds.push(row.data.observationId ?? null);
+			}
+		});
+		if (problems.length) refuse(problems);
+		return { points, observationIds, where: (k) => ({ row: k + 1 }) };
+	})();
+	return addBatch(reporter, candidate, event, batch, source, now);
 }
 
 /** A candidate's photometry, oldest first, with who reported each row. */

@@ -224,7 +224,7 @@ describe('decisions, discussion and the candidate detail', () => {
 	});
 	it('getCandidateDetail gathers position, discovery, reporter, vetting, photometry, spectra, classifications, discussion and history', async () => {
 		expect.hasAssertions();
-		addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
+		await addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
 		decideCandidate(w.duty, w.candidateId, { state: 'promoted' }, NOW);
 		takeCandidate(w.spectroA, w.candidateId, { note: 'tonight' }, NOW);
 		const s = await uploadSpectrum(w.spectroA, w.candidateId, { bytes: new Uint8Array(fixture('candidates/spectra/ascii-basic.txt')), fileName: 'a.txt' }, NOW);
@@ -268,7 +268,7 @@ describe('what the pages draw and list', () => {
 	});
 
 	it('the lists get each candidate\'s verdict, credible level and spectra count', async () => {
-		addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
+		await addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
 		getCandidateDetail(w.eventId, w.candidateName, NOW);
 		await uploadSpectrum(w.spectroA, w.candidateId, { bytes: fixture('candidates/spectra/ascii-basic.txt'), fileName: 'a.txt' }, NOW);
 		const s = vettingSummaries([w.candidateId]).get(w.candidateId)!;

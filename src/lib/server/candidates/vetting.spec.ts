@@ -110,7 +110,7 @@ describe('the first kilonova-like verdict', () => {
 		expect.hasAssertions();
 		const second = person('Colm Coordinator', ['coordinator']);
 		giveGalaxies(w.eventId, w.skymapId, [{ name: 'Host galaxy (invented)', raDeg: 150.2, decDeg: -29.9 + 4 / 3600, distanceMpc: 160, distanceErrMpc: 15 }]);
-		const out = addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
+		const out = await addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
 		expect(out.vetting).toMatchObject({ verdict: 'kilonova-like', firstKilonovaLike: true });
 		await vettingIdle();
 		for (const p of [w.duty, w.coordinator, second]) {
@@ -136,7 +136,7 @@ describe('reacting to the log', () => {
 	it('vets again on a new map, a new ranking and new thresholds', async () => {
 		expect.hasAssertions();
 		uninstall = installVetting();
-		addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
+		await addPhotometryCsv({ user: w.observer }, w.candidateId, kilonovaCsv(), NOW);
 		giveGalaxies(w.eventId, w.skymapId, [{ name: 'Host galaxy (invented)', raDeg: 150.2, decDeg: -29.9 + 4 / 3600, distanceMpc: 160 }]);
 		record(SYSTEM, 'targets.ranked', 'board', { eventId: w.eventId, skymapId: w.skymapId, galaxies: 1, fields: 0, catalogId: null });
 		await vettingIdle();

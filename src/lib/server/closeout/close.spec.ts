@@ -64,6 +64,17 @@ function refusal(f: () => unknown): DomainError {
 	throw new Error('expected a refusal');
 }
 
+/** `refusal` for a call that settles later (a photometry CSV is read on the work pool). */
+async function refused(call: Promise<unknown>): Promise<DomainError> {
+	try {
+		await call;
+	} catch (e) {
+		if (e instanceof DomainError) return e;
+		throw e;
+	}
+	throw new Error('expected a refusal');
+}
+
 const pointing = (o: Partial<Parameters<typeof report>[1]> = {}) => ({
 	eventId: w.eventId,
 	telescopeId: w.telescopeId,
@@ -185,8 +196,8 @@ describe('while an event is closed', () => {
 		expect(db.select().from(table.candidate).all()).toHaveLength(1);
 	});
 
-	it('refuses photometry, as CSV and as JSON rows', () => {
-		const csv = refusal(() => addPhotometryCsv({ user: w.observer }, w.candidateId, 'time,filter,mag,mag_err,limit\n2026-12-08T22:00:00Z,r,20.1,0.05,\n', NOW));
+	it('refuses photometry, as CSV and as JSON rows', async () => {
+		const csv = await refused(addPhotometryCsv({ user: w.observer }, w.candidateId, 'time,filter,mag,mag_err,limit\n2026-12-08T22:00:00Z,r,20.1,0.05,\n', NOW));
 		expectClosedRefusal(csv);
 		expect(csv.message).toContain('new photometry is not taken');
 		const rows = refusal(() => addPhotometryRows({ user: w.observer }, w.candidateId, { rows: [{ time: '2026-12-08T22:00:00Z', filter: 'r', mag: 20.1, mag_err: 0.05 }] }, NOW));

@@ -42,7 +42,7 @@ function readWithPython(csv: string): string[][] {
 const AWKWARD_NOTE = 'Clouds at 23:05, "thin"\nseeing poor';
 const FORMULA_NOTE = '=HYPERLINK("http://example.invalid")';
 
-beforeEach(() => {
+beforeEach(async () => {
 	createTestDatabase();
 	clearVettingCache();
 	w = world();
@@ -54,7 +54,7 @@ beforeEach(() => {
 	claims.claim(w.observer, { eventId: w.eventId, targetKind: 'galaxy', targetId: String(g2), telescopeId: w.telescopeId }, new Date(NOW.getTime() + 1000));
 	report({ user: w.observer }, { eventId: w.eventId, telescopeId: w.telescopeId, observedAt: '2026-12-08T23:00:00.250Z', raDeg: 150.2, decDeg: -29.9, filter: 'r', exposureS: 120, limitingMag: 20.5, notes: AWKWARD_NOTE }, 'form', NOW);
 	report({ user: w.observer }, { eventId: w.eventId, telescopeId: w.telescopeId, observedAt: '2026-12-08T23:30:00Z', raDeg: 10.123456789, decDeg: -45.5, filter: 'g', exposureS: 60, limitingMag: 21.25, seeingArcsec: 1.3, notes: FORMULA_NOTE }, 'api', NOW);
-	addPhotometryCsv({ user: w.observer }, w.candidateId, 'time,filter,mag,mag_err,limit\n2026-12-03T01:00:00Z,r,21.3,0.08,\n2026-12-04T01:00:00Z,r,,,22.4\n', NOW);
+	await addPhotometryCsv({ user: w.observer }, w.candidateId, 'time,filter,mag,mag_err,limit\n2026-12-03T01:00:00Z,r,21.3,0.08,\n2026-12-04T01:00:00Z,r,,,22.4\n', NOW);
 });
 
 describe('event exports', () => {

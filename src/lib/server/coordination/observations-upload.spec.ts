@@ -113,7 +113,7 @@ describe('a 9,000-row pointing upload', () => {
 		const off = onRecorded((m) => heard.push(m));
 		const logBefore = db.select().from(table.eventLog).all().length;
 		const started = performance.now();
-		const parsed = parseObservationCsv(text);
+		const parsed = await parseObservationCsv(text);
 		expect(parsed.errors).toEqual([]);
 		const out = reportMany({ user: observer }, parsed.rows.map((r) => ({ ...r, eventId: 'ev-1', telescopeId: 'tel-a' })), 'csv', { lines: parsed.lines, now: NOW });
 		const storeMs = performance.now() - started;
@@ -149,7 +149,7 @@ describe('a 9,000-row pointing upload', () => {
 	it('gives the same pointings, claims and coverage as the same rows reported one by one', async () => {
 		expect.hasAssertions();
 		const text = pointingsCsv().split('\n').slice(0, 1 + 600).join('\n');
-		const parsed = parseObservationCsv(text);
+		const parsed = await parseObservationCsv(text);
 		expect(parsed.errors).toEqual([]);
 		const rows = parsed.rows.map((r) => ({ ...r, eventId: 'ev-1', telescopeId: 'tel-a' }));
 

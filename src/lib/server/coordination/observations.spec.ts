@@ -192,10 +192,10 @@ describe('pointings that cannot be coverage', () => {
 });
 
 describe('reportMany (CSV upload)', () => {
-	it('stores nothing when one row is refused, naming its CSV line; stores all rows otherwise', () => {
+	it('stores nothing when one row is refused, naming its CSV line; stores all rows otherwise', async () => {
 		const w = world();
 		const { a, b } = claimBoth(w, w.observer);
-		const csv = parseObservationCsv(
+		const csv = await parseObservationCsv(
 			'observed_at,ra_deg,dec_deg,filter,exposure_s,limiting_mag\n2026-12-02T02:00:00Z,100,0,r,60,20\n\n2026-12-02T02:10:00Z,100.6,0,i,60,20\n'
 		);
 		expect(csv.lines).toEqual([2, 4]);
@@ -218,15 +218,15 @@ describe('reportMany (CSV upload)', () => {
 
 describe('parseObservationCsv', () => {
 	const header = 'observed_at,ra_deg,dec_deg,filter,exposure_s,limiting_mag,seeing_arcsec,notes';
-	it('reads rows, with quoted notes', () => {
-		const out = parseObservationCsv(`${header}\n2026-12-02T02:00:00Z,100,0,r,60,20.1,1.1,"clear, steady"\n2026-12-02T02:05:00Z,101.5,-0.5,g,90,20.4,,\n`);
+	it('reads rows, with quoted notes', async () => {
+		const out = await parseObservationCsv(`${header}\n2026-12-02T02:00:00Z,100,0,r,60,20.1,1.1,"clear, steady"\n2026-12-02T02:05:00Z,101.5,-0.5,g,90,20.4,,\n`);
 		expect(out.errors).toEqual([]);
 		expect(out.rows).toHaveLength(2);
 		expect(out.rows[0]).toMatchObject({ raDeg: 100, decDeg: 0, filter: 'r', exposureS: 60, limitingMag: 20.1, seeingArcsec: 1.1, notes: 'clear, steady' });
 		expect(out.rows[1].seeingArcsec).toBeUndefined();
 	});
-	it('is all or nothing, with line numbers', () => {
-		const out = parseObservationCsv(
+	it('is all or nothing, with line numbers', async () => {
+		const out = await parseObservationCsv(
 			`${header}\n2026-12-02T02:00:00Z,100,0,r,60,20.1,1.1,ok\n2026-12-02T02:00:00Z,400,0,r,60,20.1,1.1,bad ra\nnot-a-time,100,0,r,-1,20.1,1.1,two bad\n2026-12-02T02:00:00Z,100,0,r`
 		);
 		expect(out.rows).toEqual([]);
@@ -236,8 +236,8 @@ describe('parseObservationCsv', () => {
 		expect(out.errors[2].message).toMatch(/^Exposure \(s\) must be greater than 0/);
 		expect(out.errors[3].message).toMatch(/4 cells, header has 8/);
 	});
-	it('names missing and unknown columns on line 1', () => {
-		const out = parseObservationCsv('observed_at,ra_deg,dec_deg,filtre,exposure_s,limiting_mag\n');
+	it('names missing and unknown columns on line 1', async () => {
+		const out = await parseObservationCsv('observed_at,ra_deg,dec_deg,filtre,exposure_s,limiting_mag\n');
 		expect(out.errors).toEqual([
 			{ line: 1, message: expect.stringContaining('unknown column "filtre"') },
 			{ line: 1, message: 'missing column "filter"' }
@@ -247,13 +247,13 @@ describe('parseObservationCsv', () => {
 
 describe('parseObservationCsv: quoting read by csv-parse', () => {
 	const header = 'observed_at,ra_deg,dec_deg,filter,exposure_s,limiting_mag,seeing_arcsec,notes';
-	it('keeps line numbers after a note spanning two lines, and names the line of a quote left open', () => {
+	it('keeps line numbers after a note spanning two lines, and names the line of a quote left open', async () => {
 		expect.hasAssertions();
-		const ok = parseObservationCsv(`${header}\r\n2026-12-02T02:00:00Z,100,0,r,60,20.1,1.1,"cloud at first,\r\nthen clear"\r\n\r\n2026-12-02T02:05:00Z,101.5,-0.5,g,90,20.4,,\r\n`);
+		const ok = await parseObservationCsv(`${header}\r\n2026-12-02T02:00:00Z,100,0,r,60,20.1,1.1,"cloud at first,\r\nthen clear"\r\n\r\n2026-12-02T02:05:00Z,101.5,-0.5,g,90,20.4,,\r\n`);
 		expect(ok.errors).toEqual([]);
 		expect(ok.lines).toEqual([2, 5]);
 		expect(ok.rows[0].notes).toBe('cloud at first,\r\nthen clear');
-		const open = parseObservationCsv(`${header}\n2026-12-02T02:00:00Z,100,0,r,60,20.1,1.1,ok\n2026-12-02T02:00:00Z,100,0,r,60,20.1,1.1,"open\n2026-12-02T02:00:00Z,100,0,r,60,20.1,1.1,ok\n`);
+		const open = await parseObservationCsv(`${header}\n2026-12-02T02:00:00Z,100,0,r,60,20.1,1.1,ok\n2026-12-02T02:00:00Z,100,0,r,60,20.1,1.1,"open\n2026-12-02T02:00:00Z,100,0,r,60,20.1,1.1,ok\n`);
 		expect(open.errors).toEqual([{ line: 3, message: 'unterminated quote' }]);
 	});
 });

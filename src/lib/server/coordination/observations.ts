@@ -5,50 +5,25 @@
  * claims whose field centre lies inside it.
  */
 import { and, asc, eq, inArray, sql } from 'drizzle-orm';
-import { z } from 'zod';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 import { randomId, type SessionUser } from '../people/auth';
 import { actorOf, record, type Actor } from '../platform/realtime';
 import { footprintContains, footprintGeometry } from '../../targeting/sky-geometry.ts';
 import { footprintOf } from '../../targeting/telescope.ts';
-import { readCsv } from '../../csv-read.ts';
+import { fieldErrors, observationInput, type ObservationInput, type PointingCsvParse } from '../../coordination/pointings.ts';
+import { runWork } from '../platform/work-pool';
 import { DomainError } from '../platform/errors';
 import { mayUseTelescope } from '../people/scope';
 import { getTelescope } from '../people/telescopes';
 import { assertEventOpen } from '../alerts/events';
-import '../../field-messages';
 
 const MIN = 60_000;
 const DAY = 24 * 60 * MIN;
 
 export class ObservationError extends DomainError {}
 
-const RA_RANGE = 'RA (deg, J2000) must be from 0 up to (not including) 360.';
-const DEC_RANGE = 'Dec (deg, J2000) must be from −90 to 90.';
-const EXPOSURE_RANGE = 'Exposure (s) must be greater than 0 and at most 86 400 (one day).';
-const MAG_RANGE = 'Limiting magnitude (AB) must be from 5 to 30.';
-const SEEING_RANGE = 'Seeing (arcsec) must be greater than 0 and at most 20.';
-
-/** One pointing as reported; either (raDeg, decDeg) or fieldId must be given. */
-const pointingShape = z.object({
-		eventId: z.string().min(1).max(80),
-		telescopeId: z.string().min(1).max(80).optional(),
-		observedAt: z.iso.datetime({ offset: true }),
-		raDeg: z.number().min(0, RA_RANGE).lt(360, RA_RANGE).optional(),
-		decDeg: z.number().min(-90, DEC_RANGE).max(90, DEC_RANGE).optional(),
-		fieldId: z.string().min(1).max(80).optional(),
-		filter: z.string().min(1).max(20),
-		exposureS: z.number().gt(0, EXPOSURE_RANGE).max(86_400, EXPOSURE_RANGE),
-		limitingMag: z.number().min(5, MAG_RANGE).max(30, MAG_RANGE),
-		seeingArcsec: z.number().gt(0, SEEING_RANGE).max(20, SEEING_RANGE).optional(),
-		notes: z.string().max(2000).optional()
-	});
-export const observationInput = pointingShape.refine((o) => (o.raDeg !== undefined && o.decDeg !== undefined) || o.fieldId !== undefined, {
-		message: 'Give RA and Dec, or a field id.',
-		path: ['raDeg']
-	});
-export type ObservationInput = z.infer<typeof observationInput>;
+export { fieldErrors, observationInput, type CsvPointing, type ObservationInput } from '../../coordination/pointings.ts';
 
 /** Who reports: a person (observer of the telescope's team, or a coordinator) or a telescope token. */
 export type Reporter = { user: SessionUser; telescopeId?: null; tokenId?: null } | { user: null; telescopeId: string; tokenId: string | null };
@@ -366,83 +341,13 @@ function storeAll(reporter: Reporter, prepared: Prepared[], now: Date, source: t
 	});
 }
 
-/** Zod issues → `{ field: message }`, first message per field. */
-export function fieldErrors(e: z.ZodError): Record<string, string> {
-	const out: Record<string, string> = {};
-	for (const i of e.issues) out[i.path.join('.') || 'body'] ??= i.message;
-	return out;
-}
-
-const CSV_COLUMNS = ['observed_at', 'ra_deg', 'dec_deg', 'field_id', 'filter', 'exposure_s', 'limiting_mag', 'seeing_arcsec', 'notes'] as const;
-const REQUIRED_COLUMNS = ['observed_at', 'filter', 'exposure_s', 'limiting_mag'] as const;
-
-export type CsvPointing = Omit<ObservationInput, 'eventId' | 'telescopeId'>;
-
 /**
- * Parse an uploaded CSV of pointings. Header names (any order): observed_at, ra_deg, dec_deg,
- * field_id, filter, exposure_s, limiting_mag, seeing_arcsec, notes. All or nothing: any bad row
- * returns every error with its 1-based line number and no rows.
+ * Read an uploaded CSV of pointings on the work pool (csv-parse and each row's own rules,
+ * `parsePointingCsv` in lib/coordination/pointings.ts): all or nothing, every problem with its
+ * 1-based line. What needs the database (telescope, event, fields) is `reportMany`'s.
  */
-export function parseObservationCsv(
-	text: string
-): { rows: CsvPointing[]; lines: number[]; errors: [] } | { rows: []; lines: []; errors: { line: number; message: string }[] } {
-	const { records, error } = readCsv(text);
-	const errors: { line: number; message: string }[] = [];
-	const header = records[0]?.cells.map((h) => h.toLowerCase()) ?? [];
-	const headerLine = records[0]?.line ?? 1;
-	for (const h of header) if (!(CSV_COLUMNS as readonly string[]).includes(h)) errors.push({ line: headerLine, message: `unknown column "${h}" (known: ${CSV_COLUMNS.join(', ')})` });
-	for (const r of REQUIRED_COLUMNS) if (!header.includes(r)) errors.push({ line: headerLine, message: `missing column "${r}"` });
-	if (!records.length && error) errors.push({ line: error.line, message: 'unterminated quote' });
-	if (errors.length) return { rows: [], lines: [], errors };
-	const rows: CsvPointing[] = [];
-	const rowLines: number[] = [];
-	const schema = pointingShape.omit({ eventId: true, telescopeId: true });
-	for (const { line, cells } of records.slice(1)) {
-		if (cells.length === 1 && cells[0] === '') continue;
-		if (cells.length !== header.length) {
-			errors.push({ line, message: `${cells.length} cells, header has ${header.length}` });
-			continue;
-		}
-		const get = (c: string) => {
-			const v = cells[header.indexOf(c)];
-			return v === undefined || v === '' ? undefined : v;
-		};
-		const num = (c: string) => {
-			const v = get(c);
-			return v === undefined ? undefined : Number(v);
-		};
-		const candidate = {
-			observedAt: get('observed_at'),
-			raDeg: num('ra_deg'),
-			decDeg: num('dec_deg'),
-			fieldId: get('field_id'),
-			filter: get('filter'),
-			exposureS: num('exposure_s'),
-			limitingMag: num('limiting_mag'),
-			seeingArcsec: num('seeing_arcsec'),
-			notes: get('notes')
-		};
-		const parsed = schema.safeParse(candidate);
-		if (!parsed.success) {
-			for (const message of Object.values(fieldErrors(parsed.error))) errors.push({ line, message });
-			continue;
-		}
-		if ((parsed.data.raDeg === undefined || parsed.data.decDeg === undefined) && !parsed.data.fieldId) {
-			errors.push({ line, message: 'give ra_deg and dec_deg, or field_id' });
-			continue;
-		}
-		rows.push(parsed.data);
-		rowLines.push(line);
-	}
-	// csv-parse cannot go on reliably past an unreadable record: it ends the list, and nothing is stored.
-	if (error)
-		errors.push({
-			line: error.line,
-			message: error.kind === 'unclosed-quote' ? 'unterminated quote' : 'a quoted cell has text after its closing quote (quote the whole cell); the rows after it were not read'
-		});
-	if (errors.length) return { rows: [], lines: [], errors };
-	if (rows.length === 0) return { rows: [], lines: [], errors: [{ line: 1, message: 'no data rows' }] };
-	return { rows, lines: rowLines, errors: [] };
+export async function parseObservationCsv(text: string): Promise<PointingCsvParse> {
+	return runWork('readPointingCsv', { text });
 }
 
 export interface PointingView extends table.Observation {

@@ -123,8 +123,16 @@ export async function runWork<K extends TaskName>(task: K, input: TaskInput<K>, 
 		if (e instanceof Error && e.message === 'Task queue is at limit') throw new WorkPoolBusyError(task);
 		throw e;
 	}
+	ranOnPool.set(task, (ranOnPool.get(task) ?? 0) + 1);
 	if (!reply.ok) throw decodeError(reply.error);
 	return reply.value as TaskOutput<K>;
+}
+
+const ranOnPool = new Map<string, number>();
+
+/** Tasks of this name that ran on the pool's threads since the process started (inline runs are not counted; diagnostics, tests). */
+export function workDone(task: TaskName): number {
+	return ranOnPool.get(task) ?? 0;
 }
 
 /** Tasks running and waiting now (diagnostics, tests). */

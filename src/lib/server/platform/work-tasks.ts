@@ -32,6 +32,8 @@ import { readSpectrum, SpectrumError, summariseSpectrum, type ReadSpectrumOption
 import { buildReport, type EventReport, type ReportInputs } from '../../closeout/report.ts';
 import { absoluteMagB, readCatalogPart, type CatalogPartRows, type CatalogPartState } from '../../targeting/catalog-csv.ts';
 import { radecToNest } from '../../sky/index.ts';
+import { parsePointingCsv, type PointingCsvParse } from '../../coordination/pointings.ts';
+import { readPhotometryUpload, type PhotometryParse } from '../../candidates/photometry.ts';
 import { createHash } from 'node:crypto';
 import { shareArrays } from './work-memory.ts';
 
@@ -249,6 +251,16 @@ export const TASKS = {
 			bAbsMag[i] = absoluteMagB(rows.luminosityB10[i]) ?? NaN;
 		}
 		return { state, rows, pixel, bAbsMag };
+	},
+
+	/** Read an uploaded CSV of pointings and check each row's own rules (the server then checks telescope, event and fields). */
+	readPointingCsv(input: { text: string }): PointingCsvParse {
+		return parsePointingCsv(input.text);
+	},
+
+	/** Read an uploaded photometry CSV and check each row; with its points, their lines for the checks against the store. */
+	readPhotometryUpload(input: { text: string }): { parse: PhotometryParse; lines: number[] } {
+		return readPhotometryUpload(input.text);
 	},
 
 	/** Read a spectrum file (ASCII, FITS table or 1-D image) and summarise it; the bytes come back for storing. */

@@ -21,7 +21,7 @@ export const POST = apiRoute(async ({ request, url }) => {
 		if (text.length > API_OBSERVATION_CSV_MAX_BYTES) return apiError(413, 'too_large', `A CSV upload may be at most ${API_OBSERVATION_CSV_MAX_BYTES} bytes.`);
 		const eventId = url.searchParams.get('eventId') ?? '';
 		const telescopeId = url.searchParams.get('telescopeId') || undefined;
-		const parsed = parseObservationCsv(text);
+		const parsed = await parseObservationCsv(text);
 		if (parsed.errors.length) return apiError(422, 'invalid_csv', `${parsed.errors.length} problem(s); nothing stored.`, parsed.errors);
 		const out = reportMany(reporter, parsed.rows.map((r) => ({ ...r, eventId, telescopeId })), 'csv', { lines: parsed.lines });
 		if (out.errors.length) return apiError(422, 'invalid_csv', `${out.errors.length} problem(s); nothing stored.`, out.errors);

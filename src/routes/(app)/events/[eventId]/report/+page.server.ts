@@ -55,7 +55,7 @@ export const actions: Actions = {
 		// All or nothing, every problem with its CSV line so the file can be fixed in one pass.
 		const refuse = (csvErrors: { line: number; message: string }[]) =>
 			fail(400, { values: { telescopeId }, errors: { file: `${csvErrors.length} problem(s); nothing was stored.` } as Record<string, string>, message: undefined, csvErrors });
-		const parsed = parseObservationCsv(await file.text());
+		const parsed = await parseObservationCsv(await file.text());
 		if (parsed.errors.length) return refuse(parsed.errors);
 		try {
 			const out = reportMany({ user }, parsed.rows.map((r) => ({ ...r, eventId: params.eventId, telescopeId })), 'csv', { lines: parsed.lines });

@@ -57,7 +57,7 @@ export const actions: Actions = {
 		}
 		if (!csv.trim()) return failWith(form, { csv: 'Paste the measurements or choose a CSV file.' });
 		try {
-			const out = addPhotometryCsv({ user }, id, csv, new Date(), 'form');
+			const out = await addPhotometryCsv({ user }, id, csv, new Date(), 'form');
 			return { photometryAdded: out.added };
 		} catch (e) {
 			return failFromError(form, e, { field: 'csv' });

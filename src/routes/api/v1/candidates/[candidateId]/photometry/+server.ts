@@ -29,7 +29,7 @@ export const POST = apiRoute(async ({ params, request }) => {
 	const text = await request.text();
 	if (text.length > MAX_BYTES) return apiError(413, 'too_large', `A photometry upload may be at most ${MAX_BYTES / 1024 / 1024} MB.`);
 	try {
-		if (type === 'text/csv') return json(addPhotometryCsv(reporter, params.candidateId ?? '', text), { status: 201 });
+		if (type === 'text/csv') return json(await addPhotometryCsv(reporter, params.candidateId ?? '', text), { status: 201 });
 		let body: unknown;
 		try {
 			body = JSON.parse(text);
