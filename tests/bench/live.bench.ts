@@ -23,7 +23,8 @@
  * is imported through the app's catalogue import and the event ranked against it. At LOAD_AT_S of
  * the main phase, while the driver keeps its pace, the fake alert broker publishes an update notice
  * for the event whose sky map is a flat nside-1024 map (100 MB, gzip) on the broker's HTTP server —
- * the app fetches, analyses and re-ranks — and a demo observer POSTs a 9,000-row pointing CSV.
+ * the app fetches, analyses and re-ranks — and a demo observer POSTs a 9,000-row pointing CSV
+ * (logged as one `observation.uploaded` message, and a `claim.done` per claim it completed).
  * The driver's messages are grouped by when their request left: before the load ("quiet", the
  * reference for the loaded part in the same run), from the load's start until its last message was
  * logged ("loaded"), and after. The update's and the upload's own messages are checked for loss
@@ -36,7 +37,8 @@
  * shared build lock); once the world is ready a watchdog kills every child after 300 s. Connect
  * timeout 30 s, HTTP timeout 10 s (240 s for the upload), temporary database and storage.
  * `LIVE_BENCH_SECONDS` shortens the main phase; `LIVE_BENCH_CATALOG_ROWS=0` and
- * `LIVE_BENCH_ADDED_LOAD=0` leave out the catalogue and the added load.
+ * `LIVE_BENCH_ADDED_LOAD=0` leave out the catalogue and the added load; `LIVE_BENCH_NODE_ARGS`
+ * passes flags to the app's node (a CPU profile, say).
  */
 import { fork, spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import http from 'node:http';
@@ -411,8 +413,9 @@ async function addedLoad(origin: string, w: AppWorld, broker: FakeBroker, dbFile
 		(e: Error) => ({ ackedAtMs: null, error: e.message })
 	);
 	const upload = timed('upload', `${origin}/api/v1/observations?eventId=${encodeURIComponent(w.eventId)}&telescopeId=${encodeURIComponent(w.uploader.telescope.id)}`, w.uploader.token, { csv }, (a) => {
+		// One `observation.uploaded` for the whole file (coordination/observations.ts reportMany), and a claim.done per claim it completed.
 		const out = a as { results: { observation: { id: string }; completedClaimIds: string[] }[] };
-		return out.results.flatMap((r) => [...r.completedClaimIds.map((id) => `claim.done|${id}`), `observation.reported|${r.observation.id}`]);
+		return [...out.results.flatMap((r) => r.completedClaimIds.map((id) => `claim.done|${id}`)), `observation.uploaded|${w.uploader.telescope.id}|${out.results.length}`];
 	});
 	const since = (t: number) => `${((t - startedAtMs) / 1000).toFixed(1)} s`;
 	void upload.then((u) => process.stderr.write(`live bench: upload answered HTTP ${u.status} after ${since(u.sentAtMs + u.httpMs)}${u.error ? `: ${u.error}` : ''}\n`));
@@ -700,7 +703,9 @@ export async function run(): Promise<BenchResult[]> {
 			MAIN_S,
 			{
 				start: (port) => {
-					const app = spawn(process.execPath, ['server.js'], {
+					// LIVE_BENCH_NODE_ARGS: extra node flags for the app, e.g. "--cpu-prof --cpu-prof-dir=/tmp/prof".
+					const nodeArgs = (process.env.LIVE_BENCH_NODE_ARGS ?? '').split(' ').filter(Boolean);
+					const app = spawn(process.execPath, [...nodeArgs, 'server.js'], {
 						cwd: ROOT,
 						stdio: ['ignore', 'pipe', 'inherit'],
 						env: {

@@ -17,7 +17,8 @@ export interface DriveRequest {
 
 /**
  * What identifies a live message independently of its seq: its type and the id its payload
- * names — the claim for `claim.*`, the observation for `observation.*`, the driver's action
+ * names — the claim for `claim.*`, the observation for `observation.*` (an upload, one message for
+ * many pointings: its telescope and count), the driver's action
  * number for the reference hub's `bench.*`. The same ids come back in the HTTP responses, which
  * is how a delivery is traced to the request that caused it. Any other message (what the server
  * logs while it processes a notice: `skymap.analysed`, `targets.ranked`, …) is named by its type
@@ -25,6 +26,8 @@ export interface DriveRequest {
  */
 export function keyOf(type: string, payload: Record<string, unknown> | null | undefined, seq?: number): string | null {
 	const p = payload ?? {};
+	// An upload is one message for all its pointings: named by the telescope and how many.
+	if (type === 'observation.uploaded') return typeof p.telescopeId === 'string' && typeof p.count === 'number' ? `${type}|${p.telescopeId}|${p.count}` : null;
 	const id = type.startsWith('observation.') ? p.observationId : type.startsWith('claim.') ? p.claimId : type.startsWith('bench.') ? p.k : undefined;
 	if (typeof id === 'string' || typeof id === 'number') return `${type}|${id}`;
 	if (seq !== undefined && !/^(observation|claim|bench)\./.test(type)) return `${type}|#${seq}`;

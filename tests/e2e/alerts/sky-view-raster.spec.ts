@@ -33,10 +33,20 @@ test('the sky view fetches the raster from a cacheable path that answers only a 
 	const sky = page.getByTestId('sky-view');
 	await expect(sky.getByTestId('sky-map')).toHaveAttribute('data-ready', 'true', { timeout: 15_000 });
 	await expect(sky.locator('img.sky-raster')).toHaveCount(1);
-	// The page's own HTML does not carry the raster.
+	// The page's own HTML does not carry the raster, nor the sky view: it names the sky view's address,
+	// whose answer names the raster's path.
 	const html = await (await page.request.get(`/events/${eventId}`)).text();
 	expect(html).not.toContain('"density"');
-	expect(html).toContain(path);
+	const viewPath = new RegExp(`/events/${eventId}/sky/view\\?v=[\\d.]+`).exec(html)?.[0];
+	expect(viewPath).toBeTruthy();
+	const view = await page.request.get(viewPath!);
+	expect(view.status()).toBe(200);
+	expect(await view.text()).not.toContain('"density"');
+	expect(((await view.json()) as { rasterUrl: string }).rasterUrl).toBe(path);
+	// Signed out, the sky view is refused as the page is.
+	const outsider = await playwright.request.newContext({ baseURL });
+	expect((await outsider.get(viewPath!, { maxRedirects: 0 })).status()).toBe(401);
+	await outsider.dispose();
 
 	// Signed in: the raster, kept privately by the browser and revalidated by its ETag.
 	const ok = await page.request.get(path);

@@ -9,7 +9,7 @@ import { ackState, escalateAfterMin, pagesFor, type PageView } from '../duty/pag
 import type { AckView, EventDetail, EventView, PageRow, SkymapView } from '../../event-view';
 import { QUIET_ACTIONS } from '../../activity';
 import { closureOf } from './events';
-import { latestSeq } from '../platform/realtime';
+import { boardVersion } from '../platform/realtime';
 import { versionedCache } from '../platform/versioned-cache';
 import { BOARD_CACHE_TTL_MS } from '../../limits.ts';
 
@@ -165,13 +165,13 @@ export function boardEvents(now = new Date()): EventView[] {
 
 /**
  * The board's events and latest messages as of the latest log entry, shared by everyone who loads
- * the board until something is logged (a crowd opening the board after a page e-mail costs one
+ * the board until something is logged or written by another process (`boardVersion`) (a crowd opening the board after a page e-mail costs one
  * read, not one per person), or for BOARD_CACHE_TTL_MS at most (retracted events leave the board
  * by the clock, not by a log entry).
  */
 const boardCache = versionedCache<{ activity: ReturnType<typeof boardActivity>; events: EventView[] }>({ max: 1, ttlMs: BOARD_CACHE_TTL_MS });
 export function boardNow() {
-	return boardCache.get('board', String(latestSeq()), () => ({ activity: boardActivity(), events: boardEvents() }));
+	return boardCache.get('board', boardVersion(), () => ({ activity: boardActivity(), events: boardEvents() }));
 }
 
 /** Everything known about one event, or null when there is no such event. */

@@ -86,7 +86,7 @@ describe('the event page of a crowded event', () => {
 		const first = (await eventPage('ev-crowd', coordinator))!;
 		// The sky view is fetched from its own address (sky/view/+server.ts), part of every page load.
 		const firstSky = JSON.parse((await eventSkyView('ev-crowd', coordinator))!) as SkyViewData;
-		expect(first.sky.url).toMatch(/^\/events\/ev-crowd\/sky\/view\?v=\d+\.\d+$/);
+		expect(first.sky.url).toMatch(/^\/events\/ev-crowd\/sky\/view\?v=\d+\.\d+\.\d+$/);
 		// Every pointing counts in the figures…
 		expect(first.coverage!.observations).toBe(POINTINGS);
 		expect(firstSky.footprintCount.pointings).toBe(POINTINGS);

@@ -289,9 +289,19 @@ function schedulePresence(room: Room): void {
 }
 
 /**
+ * SQLite's count of commits by other connections to the database file (`PRAGMA data_version`):
+ * it changes when another process (the command-line tool, a repair by hand, a test's set-up)
+ * writes, which the event log of this process would not show.
+ */
+function othersVersion(): number {
+	return preparedQuery('dataVersion', (d) => d.$client.prepare('PRAGMA data_version').pluck()).get() as number;
+}
+
+/**
  * A token that changes whenever something is logged to an event's room or to the board (where
- * telescope, team and catalogue changes go): what pages built for the event are cached against
- * (`versioned-cache.ts`). Two index lookups on (room, seq).
+ * telescope, team and catalogue changes go), or another connection writes to the database: what
+ * pages built for the event are cached against (`versioned-cache.ts`). Two index lookups on
+ * (room, seq) and a pragma.
  */
 export function eventVersion(eventId: string): string {
 	const row = preparedQuery('eventVersion', (d) =>
@@ -299,7 +309,12 @@ export function eventVersion(eventId: string): string {
 			"SELECT (SELECT COALESCE(MAX(seq), 0) FROM event_log WHERE room = ?) AS ev, (SELECT COALESCE(MAX(seq), 0) FROM event_log WHERE room = 'board') AS board"
 		)
 	).get(`event:${eventId}`) as { ev: number; board: number };
-	return `${row.ev}.${row.board}`;
+	return `${row.ev}.${row.board}.${othersVersion()}`;
+}
+
+/** The same for everything on the board: the latest entry of the whole log, and others' writes. */
+export function boardVersion(): string {
+	return `${latestSeq()}.${othersVersion()}`;
 }
 
 export function latestSeq(): number {
