@@ -40,6 +40,12 @@ const INSERT_BATCH = 50;
  * ≈ 11 µs of CPU per galaxy here, so a slice is a few hundred rows).
  */
 const STORE_SLICE_MS = 4;
+/**
+ * Then a rest at least as long before the next slice: storing takes at most half of the server's
+ * thread, so pages and live messages keep the other half however long the import runs (an import
+ * is a background job; a million rows take ≈ 11 s of storing spread over ≈ 22 s or more).
+ */
+const STORE_REST_MS = 4;
 /** Galaxy rows deleted per statement when a failed import is cleaned up (a turn of the event loop between two). */
 const DISCARD_CHUNK = 5_000;
 /** How long a part waits for the work pool when it is busy before the import gives up. */
@@ -296,7 +302,7 @@ const GALAXY_PARAMS = 10;
 
 /**
  * Stores a catalogue's kept rows part after part: prepared multi-row INSERTs of INSERT_BATCH
- * rows, one transaction per slice of STORE_SLICE_MS, a turn of the event loop between two slices.
+ * rows, one transaction per slice of STORE_SLICE_MS, a rest of STORE_REST_MS between two slices.
  * `row` numbers the kept galaxies from 0 in file order (the CatalogIndex row).
  */
 class GalaxyStore {
@@ -340,7 +346,7 @@ class GalaxyStore {
 	async add(part: ReadPart, kept: number[]): Promise<void> {
 		for (let from = 0; from < kept.length; ) {
 			from = this.insertSlice(part, kept, from);
-			await new Promise((resolve) => setImmediate(resolve));
+			await new Promise((resolve) => setTimeout(resolve, STORE_REST_MS));
 		}
 	}
 }
