@@ -12,6 +12,7 @@ import { createTelescope } from '../src/lib/server/people/telescopes';
 import { SYSTEM } from '../src/lib/server/platform/realtime';
 import { randomId } from '../src/lib/server/people/auth';
 import { importCatalog } from '../src/lib/server/targeting/catalogs';
+import { WEBHOOK_KINDS } from '../src/lib/webhooks';
 import { DEMO_PEOPLE, DEMO_TEAMS, DEMO_TELESCOPES } from './scenario';
 import { generateSyntheticCatalog, syntheticCatalogCsv } from './synthetic-catalog';
 
@@ -92,6 +93,24 @@ export async function seedMissingDemoPeople(database: DB): Promise<string[]> {
 		added.push(p.email);
 	}
 	return added;
+}
+
+/** The demo's chat room: a webhook to the app's local fake receiver, so that its messages show on the webhook catcher. */
+export const DEMO_WEBHOOK = { id: 'demo-room', name: 'Demo follow-up room (local fake receiver)', path: '/hook/demo-room' } as const;
+
+/**
+ * Add the demo room's webhook when there is no webhook at all, addressed to the fake receiver on
+ * `port` as configured. The receiver may end up on another port (0 asks for any free one; a taken
+ * port falls back to a free one): the app re-points the address once it is listening
+ * (`repointFakeReceiverWebhooks`).
+ */
+export function seedDemoWebhook(database: DB, port: number): { created: boolean } {
+	if (database.select({ id: table.chatWebhook.id }).from(table.chatWebhook).limit(1).get()) return { created: false };
+	database
+		.insert(table.chatWebhook)
+		.values({ id: DEMO_WEBHOOK.id, name: DEMO_WEBHOOK.name, url: `http://127.0.0.1:${port}${DEMO_WEBHOOK.path}`, kinds: [...WEBHOOK_KINDS] })
+		.run();
+	return { created: true };
 }
 
 export async function seedDemo(database: DB): Promise<{ created: boolean }> {
