@@ -94,6 +94,7 @@ process.on('SIGTERM', () => shutdown(0));
 start('app', 'node', ['server.js']);
 console.log(`\nStrainline demo: ${origin}`);
 console.log('  duty scientist on shift: duty@strainline.demo / duty-demo-pass (pages arrive in /mailbox, as coordinator or admin)');
+console.log('  the duty scientist (+1 202 555 0143) and the back-up coordinator (+1 202 555 0178) are also paged by text and voice: /phone-log (admin) shows the local fake messaging service, and replies from there');
 console.log('  coordinator: coordinator@strainline.demo / coordinator-demo-pass; admin: admin@strainline.demo / admin-demo-pass');
 console.log('  chat messages: /admin/webhooks (coordinator or admin); what the local fake receiver caught: /mailbox/webhooks (admin)\n');
 
