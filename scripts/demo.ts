@@ -16,9 +16,8 @@
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import { parseArgs } from 'node:util';
-import { openDatabase, schema } from '../src/lib/server/platform/db';
-import { WEBHOOK_KINDS } from '../src/lib/webhooks';
-import { seedDemo } from '../seeds/demo';
+import { openDatabase } from '../src/lib/server/platform/db';
+import { seedDemo, seedDemoWebhook } from '../seeds/demo';
 import { startBroker } from '../fake-alert-broker/broker.ts';
 
 const { values: args } = parseArgs({
@@ -53,12 +52,12 @@ const { created } = await seedDemo(database);
 console.log(created ? 'Seeded the demo collaboration (invented data).' : 'Demo collaboration already seeded.');
 
 // A chat webhook to the app's local fake receiver, so that the alerts below show up on the webhook catcher.
+// The port stored here is the one asked for; the app re-points it to the port the receiver actually gets.
 env.FAKE_WEBHOOK_PORT ??= '2580';
-if (env.FAKE_WEBHOOK_PORT !== 'off' && !database.select().from(schema.chatWebhook).all().length) {
-	database
-		.insert(schema.chatWebhook)
-		.values({ id: 'demo-room', name: 'Demo follow-up room (local fake receiver)', url: `http://127.0.0.1:${env.FAKE_WEBHOOK_PORT}/hook/demo-room`, kinds: [...WEBHOOK_KINDS] })
-		.run();
+if (env.FAKE_WEBHOOK_PORT.trim().toLowerCase() !== 'off') {
+	const askedPort = Number(env.FAKE_WEBHOOK_PORT);
+	if (!Number.isInteger(askedPort) || askedPort < 0 || askedPort > 65535) throw new Error(`FAKE_WEBHOOK_PORT must be a port number (0 for any free port) or "off", got "${env.FAKE_WEBHOOK_PORT}"`);
+	seedDemoWebhook(database, askedPort);
 }
 
 const broker = await startBroker({
@@ -95,6 +94,7 @@ process.on('SIGTERM', () => shutdown(0));
 start('app', 'node', ['server.js']);
 console.log(`\nStrainline demo: ${origin}`);
 console.log('  duty scientist on shift: duty@strainline.demo / duty-demo-pass (pages arrive in /mailbox, as coordinator or admin)');
+console.log('  the duty scientist (+1 202 555 0143) and the back-up coordinator (+1 202 555 0178) are also paged by text and voice: /phone-log (admin) shows the local fake messaging service, and replies from there');
 console.log('  coordinator: coordinator@strainline.demo / coordinator-demo-pass; admin: admin@strainline.demo / admin-demo-pass');
 console.log('  chat messages: /admin/webhooks (coordinator or admin); what the local fake receiver caught: /mailbox/webhooks (admin)\n');
 

@@ -12,6 +12,8 @@ import { createTelescope } from '../src/lib/server/people/telescopes';
 import { SYSTEM } from '../src/lib/server/platform/realtime';
 import { randomId } from '../src/lib/server/people/auth';
 import { importCatalog } from '../src/lib/server/targeting/catalogs';
+import { WEBHOOK_KINDS } from '../src/lib/webhooks';
+import { channelProblems, toE164 } from '../src/lib/page-channels';
 import { DEMO_PEOPLE, DEMO_TEAMS, DEMO_TELESCOPES } from './scenario';
 import { generateSyntheticCatalog, syntheticCatalogCsv } from './synthetic-catalog';
 
@@ -94,10 +96,53 @@ export async function seedMissingDemoPeople(database: DB): Promise<string[]> {
 	return added;
 }
 
+/**
+ * Give the demo people of the scenario who have a phone their number, as verified, with their
+ * channels, when they have no phone settings yet (so an older demo database gains them, and a
+ * number changed on the account page is kept). Returns the e-mails given a phone.
+ */
+export function seedDemoPhones(database: DB, now = new Date()): string[] {
+	const added: string[] = [];
+	for (const p of DEMO_PEOPLE) {
+		if (!p.phone) continue;
+		const number = toE164(p.phone.number);
+		const problems = channelProblems(p.phone.channels, { verifiedPhone: true, dutyScientist: p.roles.includes('duty') });
+		if (!number || Object.keys(problems).length) throw new Error(`demo phone of ${p.email} is not valid: ${number ? Object.values(problems).join(' ') : p.phone.number}`);
+		const user = database.select({ id: table.user.id }).from(table.user).where(eq(table.user.email, p.email)).get();
+		if (!user) continue;
+		const done = database
+			.insert(table.phoneContact)
+			.values({ userId: user.id, number, verifiedAt: now, channels: p.phone.channels, updatedAt: now })
+			.onConflictDoNothing({ target: table.phoneContact.userId })
+			.run();
+		if (done.changes) added.push(p.email);
+	}
+	return added;
+}
+
+/** The demo's chat room: a webhook to the app's local fake receiver, so that its messages show on the webhook catcher. */
+export const DEMO_WEBHOOK = { id: 'demo-room', name: 'Demo follow-up room (local fake receiver)', path: '/hook/demo-room' } as const;
+
+/**
+ * Add the demo room's webhook when there is no webhook at all, addressed to the fake receiver on
+ * `port` as configured. The receiver may end up on another port (0 asks for any free one; a taken
+ * port falls back to a free one): the app re-points the address once it is listening
+ * (`repointFakeReceiverWebhooks`).
+ */
+export function seedDemoWebhook(database: DB, port: number): { created: boolean } {
+	if (database.select({ id: table.chatWebhook.id }).from(table.chatWebhook).limit(1).get()) return { created: false };
+	database
+		.insert(table.chatWebhook)
+		.values({ id: DEMO_WEBHOOK.id, name: DEMO_WEBHOOK.name, url: `http://127.0.0.1:${port}${DEMO_WEBHOOK.path}`, kinds: [...WEBHOOK_KINDS] })
+		.run();
+	return { created: true };
+}
+
 export async function seedDemo(database: DB): Promise<{ created: boolean }> {
 	const already = database.select({ id: table.user.id }).from(table.user).where(eq(table.user.email, DEMO_PEOPLE[0].email)).get();
 	if (already) {
 		await seedMissingDemoPeople(database);
+		seedDemoPhones(database);
 		seedDemoRoster(database);
 		await seedDemoCatalog(database);
 		return { created: false };
@@ -109,6 +154,7 @@ export async function seedDemo(database: DB): Promise<{ created: boolean }> {
 	for (const p of DEMO_PEOPLE) {
 		await createUser({ email: p.email, name: p.name, password: p.password, roles: p.roles, teamIds: p.teams.map((k) => teamIds.get(k)!), isDemo: true });
 	}
+	seedDemoPhones(database);
 	seedDemoRoster(database);
 	await seedDemoCatalog(database);
 	return { created: true };

@@ -4,6 +4,7 @@
  * chosen so that the network spans several continents and both hemispheres.
  */
 import type { Role } from '../src/lib/server/platform/db/schema';
+import type { ChannelChoices } from '../src/lib/page-channels';
 
 export interface DemoTeam {
 	key: string;
@@ -40,6 +41,12 @@ export interface DemoPerson {
 	password: string;
 	roles: Role[];
 	teams: string[];
+	/**
+	 * A phone for pages, seeded as verified, and how each kind of page reaches the person. The
+	 * numbers are in the 555-0100 to 555-0199 range that North American numbering keeps for
+	 * fiction; the demo's texts and calls go to the app's local fake messaging service.
+	 */
+	phone?: { number: string; channels: ChannelChoices };
 }
 
 export const DEMO_TEAMS: DemoTeam[] = [
@@ -63,11 +70,29 @@ export const DEMO_TELESCOPES: DemoTelescope[] = [
 	{ ...base, team: 'himalaya', name: 'Changthang 2.0 m', siteName: 'Changthang plateau (demo)', latitudeDeg: 32.78, longitudeDeg: 78.96, elevationM: 4500, apertureM: 2.0, fovShape: 'circle', fovWidthDeg: 0.25, fovHeightDeg: 0.25, filters: ['r', 'i', 'J', 'H'], limitingMag: 21.8, limitingMagExposureS: 600 }
 ];
 
-/** One person per role (and two more observers for a second and third team, and a second spectroscopist for a second opinion). */
+/**
+ * One person per role (and two more observers for a second and third team, and a second
+ * spectroscopist for a second opinion). The two on the duty roster (the duty scientist, and the
+ * coordinator as back-up) have phones, so the demo's pages go by text and voice as well as e-mail.
+ */
 export const DEMO_PEOPLE: DemoPerson[] = [
 	{ email: 'admin@strainline.demo', name: 'Ada Ferreira-Lind', password: 'admin-demo-pass', roles: ['admin'], teams: [] },
-	{ email: 'coordinator@strainline.demo', name: 'Tomás Okafor-Reyes', password: 'coordinator-demo-pass', roles: ['coordinator'], teams: [] },
-	{ email: 'duty@strainline.demo', name: 'Mirela Sandvik', password: 'duty-demo-pass', roles: ['duty'], teams: [] },
+	{
+		email: 'coordinator@strainline.demo',
+		name: 'Tomás Okafor-Reyes',
+		password: 'coordinator-demo-pass',
+		roles: ['coordinator'],
+		teams: [],
+		phone: { number: '+1 202 555 0178', channels: { 'duty.page': ['email', 'sms'], 'duty.stand-down': ['email', 'sms'] } }
+	},
+	{
+		email: 'duty@strainline.demo',
+		name: 'Mirela Sandvik',
+		password: 'duty-demo-pass',
+		roles: ['duty'],
+		teams: [],
+		phone: { number: '+1 202 555 0143', channels: { 'duty.page': ['email', 'sms', 'voice'], 'duty.stand-down': ['email', 'sms'] } }
+	},
 	{ email: 'observer@strainline.demo', name: 'Kenji Ballard', password: 'observer-demo-pass', roles: ['observer'], teams: ['altiplano'] },
 	{ email: 'observer2@strainline.demo', name: 'Lerato Voss', password: 'observer2-demo-pass', roles: ['observer'], teams: ['karoo'] },
 	{ email: 'observer3@strainline.demo', name: 'Ines Halloran', password: 'observer3-demo-pass', roles: ['observer'], teams: ['canaria', 'sonora'] },

@@ -132,5 +132,10 @@ export const ACK_LINK_LIFETIME_H = 24;
 /** Largest inbound-hook body read, bytes. */
 export const PHONE_INBOUND_MAX_BYTES = 16 * 1024;
 
+/** Text replies the inbound hook takes from one number in a minute: one reply acknowledges a page, so more than ten is a script or two auto-responders in a loop. */
+export const PHONE_REPLIES_PER_NUMBER_PER_MIN = 10;
+/** Text replies the inbound hook takes from one client address in a minute: the messaging service relays everyone's replies from its own few addresses, so this leaves room for a whole roster answering at once. */
+export const PHONE_REPLIES_PER_ADDRESS_PER_MIN = 60;
+
 /** How long the browser keeps a sky map's display raster (s): it never changes under the map's id. */
 export const SKY_RASTER_MAX_AGE_S = 7 * 24 * 3600;

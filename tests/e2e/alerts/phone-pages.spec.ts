@@ -18,13 +18,19 @@ async function signedIn(browser: Browser, role: string): Promise<Page> {
 	return page;
 }
 
-// Leave the app as the other tests expect: no event of ours, no phone for the duty scientist.
+// Leave the app as the other tests expect: no event of ours, the duty scientist's phone as the demo seeds it.
 test.afterAll(() => {
 	const sqlite = new Database(process.env.DATABASE_URL ?? 'tests/e2e/.artifacts/e2e.sqlite');
 	sqlite.pragma('busy_timeout = 5000');
 	sqlite.pragma('foreign_keys = ON');
 	if (eventId) sqlite.prepare('DELETE FROM gw_event WHERE id = ?').run(eventId);
-	sqlite.prepare('DELETE FROM phone_contact WHERE user_id = (SELECT id FROM user WHERE email = ?)').run(demo('duty').email);
+	const { email, phone } = demo('duty');
+	sqlite.prepare('DELETE FROM phone_contact WHERE user_id = (SELECT id FROM user WHERE email = ?)').run(email);
+	if (phone) {
+		sqlite
+			.prepare('INSERT INTO phone_contact (user_id, number, verified_at, code_tries, channels, updated_at) SELECT id, ?, ?, 0, ?, ? FROM user WHERE email = ?')
+			.run(phone.number.replace(/\s/g, ''), Date.now(), JSON.stringify(phone.channels), Date.now(), email);
+	}
 	sqlite.close();
 });
 

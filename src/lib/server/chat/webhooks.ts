@@ -30,12 +30,49 @@ function loopbackException(): LoopbackException | null {
 	return port === null ? null : { port };
 }
 
-/** Start the local fake receiver unless FAKE_WEBHOOK_PORT=off. */
+/**
+ * Start the local fake receiver unless FAKE_WEBHOOK_PORT=off, then point the webhooks that target
+ * it at the port it got (`repointFakeReceiverWebhooks`).
+ */
 export async function startFakeReceiver(): Promise<number | null> {
 	if (config.fakeWebhookPort === null) return null;
 	const port = await startFakeWebhook(config.fakeWebhookPort);
 	if (config.fakeWebhookPort !== 0 && port !== config.fakeWebhookPort) console.warn(`[webhooks] port ${config.fakeWebhookPort} is taken: the local fake receiver listens on ${port}`);
+	const moved = repointFakeReceiverWebhooks(port);
+	if (moved) console.log(`[webhooks] ${moved} webhook${moved === 1 ? '' : 's'} for the local fake receiver now use${moved === 1 ? 's' : ''} port ${port}`);
 	return port;
+}
+
+const LOOPBACK_HOSTS = new Set(['127.0.0.1', 'localhost']);
+
+/** Whether `url` is a plain-http loopback address, the only form the fake receiver's webhooks take. */
+function targetsFakeReceiver(url: string): URL | null {
+	try {
+		const u = new URL(url);
+		return u.protocol === 'http:' && LOOPBACK_HOSTS.has(u.hostname) && !u.username && !u.password ? u : null;
+	} catch {
+		return null;
+	}
+}
+
+/**
+ * Point every webhook addressed to the local fake receiver at `port`, the one it bound. The demo
+ * stores its room's address before the app starts, with the port asked for; when that is 0 (any
+ * free port) or taken, the receiver listens elsewhere and the stored address leads nowhere.
+ * Only plain-http loopback addresses are rewritten: no other webhook can hold one (an address
+ * typed in must be https to a public host, or the fake receiver itself), so a real chat
+ * product's address is never touched. Returns how many were changed.
+ */
+export function repointFakeReceiverWebhooks(port: number, now = new Date()): number {
+	let changed = 0;
+	for (const hook of db.select({ id: table.chatWebhook.id, url: table.chatWebhook.url }).from(table.chatWebhook).all()) {
+		const u = targetsFakeReceiver(hook.url);
+		if (!u || Number(u.port || 80) === port) continue;
+		u.port = String(port);
+		db.update(table.chatWebhook).set({ url: u.href, updatedAt: now }).where(and(eq(table.chatWebhook.id, hook.id), eq(table.chatWebhook.url, hook.url))).run();
+		changed++;
+	}
+	return changed;
 }
 
 /** The address with its secret part hidden: scheme, host and the first path segment, then "…". */

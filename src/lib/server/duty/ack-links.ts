@@ -7,16 +7,17 @@
 import { and, eq, isNull } from 'drizzle-orm';
 import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
-import { DomainError } from '../platform/errors';
+import { DomainError, RateLimitError } from '../platform/errors';
 import { loadSessionUser } from '../people/auth';
 import { can } from '../people/permissions';
 import { peopleWithNumber } from '../people/phone';
+import { attemptsSince, recordAttempt, secondsUntilWindowFrees } from '../people/attempts';
 import { acknowledge } from './paging';
 import { codeInReply, readAckToken } from './ack-tokens';
 import { formatUtc } from '../../alerts/display';
 import { validInboundSignature } from '../platform/phone';
 import { toE164 } from '../../page-channels.ts';
-import { PHONE_TEXT_MAX_CHARS } from '../../limits.ts';
+import { PHONE_REPLIES_PER_ADDRESS_PER_MIN, PHONE_REPLIES_PER_NUMBER_PER_MIN, PHONE_TEXT_MAX_CHARS } from '../../limits.ts';
 
 export class AckLinkError extends DomainError {
 	constructor(status: number, code: string, message: string) {
@@ -136,16 +137,51 @@ export function acknowledgeByReply(from: string, body: string, now = new Date())
 	return { done: null, status: 404, answer: `Strainline: the code ${code} does not belong to a page sent to this number.` };
 }
 
+const REPLY_WINDOW_MS = 60_000;
+
+const inSeconds = (s: number) => (s === 1 ? '1 second' : `${s} seconds`);
+
 /**
- * The messaging service's inbound webhook: a text sent to our number. Refuses a request whose
- * signature does not check (403), then treats the text as a reply to a page. `url` is our public
- * URL of the hook, as the service signed it.
+ * Refuse with 429 when `key` already made `limit` requests within the last minute; otherwise count
+ * this one. Counted in the same table as sign-in attempts (`people/attempts.ts`), so the limit
+ * holds across a restart. A refused request is not counted: waiting is never made longer by trying.
  */
-export async function receiveInboundText(o: { url: string; signature: string; params: Record<string, string> }, now = new Date()): Promise<{ status: number; answer: string }> {
+function takeReplySlot(key: string, limit: number, now: Date, tooMany: (wait: string) => string): void {
+	const recent = attemptsSince(key, new Date(now.getTime() - REPLY_WINDOW_MS));
+	if (recent.count >= limit) {
+		const retryAfterS = secondsUntilWindowFrees(recent.oldest, REPLY_WINDOW_MS, now);
+		throw new RateLimitError(tooMany(inSeconds(retryAfterS)), retryAfterS);
+	}
+	recordAttempt([key], true, now);
+}
+
+/**
+ * The messaging service's inbound webhook: a text sent to our number. Limited per client address
+ * (every request, signed or not) to PHONE_REPLIES_PER_ADDRESS_PER_MIN and, once the signature
+ * checks, per sender's number to PHONE_REPLIES_PER_NUMBER_PER_MIN: an unsigned request cannot use
+ * up a duty scientist's replies. Refuses a request whose signature does not check (403), then
+ * treats the text as a reply to a page. `url` is our public URL of the hook, as the service signed it.
+ */
+export async function receiveInboundText(
+	o: { url: string; signature: string; params: Record<string, string>; clientAddress: string },
+	now = new Date()
+): Promise<{ status: number; answer: string }> {
+	takeReplySlot(
+		`reply-ip:${o.clientAddress}`,
+		PHONE_REPLIES_PER_ADDRESS_PER_MIN,
+		now,
+		(wait) => `Too many text replies from this address: at most ${PHONE_REPLIES_PER_ADDRESS_PER_MIN} a minute. Try again in ${wait}.`
+	);
 	if (!(await validInboundSignature(o.signature, o.url, o.params))) throw new AckLinkError(403, 'bad_signature', 'The request signature does not match: this hook accepts only requests signed by the messaging service.');
 	const from = toE164(o.params.From ?? '');
 	const body = o.params.Body ?? '';
 	if (!from) throw new AckLinkError(400, 'invalid', 'The sender’s number is missing or not in international form.');
+	takeReplySlot(
+		`reply-from:${from}`,
+		PHONE_REPLIES_PER_NUMBER_PER_MIN,
+		now,
+		(wait) => `Too many text replies from ${from}: at most ${PHONE_REPLIES_PER_NUMBER_PER_MIN} a minute. Wait ${wait}, then reply with the page’s code once.`
+	);
 	if (body.length > PHONE_TEXT_MAX_CHARS) throw new AckLinkError(413, 'too_large', `A text has at most ${PHONE_TEXT_MAX_CHARS} characters.`);
 	const r = acknowledgeByReply(from, body, now);
 	return { status: r.status, answer: r.answer };

@@ -9,9 +9,10 @@ import { failNextPhoneRequests, fakePhoneCredentials, phoneRecords, stopFakePhon
 import { validInboundSignature } from '../platform/phone';
 import { SYSTEM } from '../platform/realtime';
 import { requestVerification, saveChannels, verifyCode, reachFor, PhoneError } from '../people/phone';
-import { PAGE_RETRY_BASE_S, PAGE_SEND_MAX_ATTEMPTS } from '../../limits';
+import { PAGE_RETRY_BASE_S, PAGE_SEND_MAX_ATTEMPTS, PHONE_REPLIES_PER_ADDRESS_PER_MIN, PHONE_REPLIES_PER_NUMBER_PER_MIN } from '../../limits';
 import * as duty from './paging';
-import { acknowledgeByLink, acknowledgeByReply, ackLinkPreview, AckLinkError } from './ack-links';
+import { acknowledgeByLink, acknowledgeByReply, ackLinkPreview, AckLinkError, receiveInboundText } from './ack-links';
+import { RateLimitError } from '../platform/errors';
 import { sendDue } from './page-delivery';
 
 const MIN = 60_000;
@@ -231,6 +232,70 @@ describe('acknowledging from the message', () => {
 		const again = acknowledgeByReply(d.number, code, now);
 		expect(again.status).toBe(409);
 		expect(again.answer).toMatch(/already used/);
+	});
+
+	describe('the inbound hook: too many replies', () => {
+		const HOOK = 'http://localhost:3000/api/v1/phone/inbound';
+		let sid = 0;
+		/** A text as the messaging service posts it, signed (or, with `forged`, not). */
+		function inbound(from: string, body: string, clientAddress: string, forged = false) {
+			const params = { From: from, To: '+15005550006', Body: body, MessageSid: `SMlimit${++sid}` };
+			const signature = forged ? 'bm90LWEtc2lnbmF0dXJl' : webhookSignature(fakePhoneCredentials().authToken, HOOK, params);
+			return { url: HOOK, signature, params, clientAddress };
+		}
+		/** The hook's answer status, 429 with the wait when limited (and 4xx for other refusals). */
+		async function hook(o: ReturnType<typeof inbound>, now: Date): Promise<{ status: number; retryAfterS?: number; message?: string }> {
+			try {
+				return { status: (await receiveInboundText(o, now)).status };
+			} catch (e) {
+				if (e instanceof RateLimitError) return { status: e.status, retryAfterS: e.retryAfterS, message: e.message };
+				if (e instanceof AckLinkError) return { status: e.status, message: e.message };
+				throw e;
+			}
+		}
+		const at = (t0: Date, s: number) => new Date(t0.getTime() + s * 1000);
+		const SERVICE = '198.51.100.7';
+
+		it('the 11th reply from one number within a minute gets 429; another number goes through; after the minute the number is taken again', async () => {
+			expect.hasAssertions();
+			expect(PHONE_REPLIES_PER_NUMBER_PER_MIN).toBe(10);
+			const t0 = new Date();
+			const a = await paged(t0);
+			const b = await paged(t0);
+			// Ten replies without a code: answered (422) as today.
+			for (let i = 0; i < PHONE_REPLIES_PER_NUMBER_PER_MIN; i++) expect((await hook(inbound(a.d.number, 'on my way', SERVICE), at(t0, i))).status).toBe(422);
+			const limited = await hook(inbound(a.d.number, `ok ${a.code}`, SERVICE), at(t0, 30));
+			expect(limited.status).toBe(429);
+			expect(limited.retryAfterS).toBe(30);
+			expect(limited.message).toBe(`Too many text replies from ${a.d.number}: at most 10 a minute. Wait 30 seconds, then reply with the page’s code once.`);
+			// Refused, so nothing was acknowledged; and a refused reply does not lengthen the wait.
+			expect(db.select().from(table.dutyPage).where(eq(table.dutyPage.id, a.page.id)).get()!.acknowledgedAt).toBeNull();
+			expect(await hook(inbound(a.d.number, `ok ${a.code}`, SERVICE), at(t0, 45))).toMatchObject({ status: 429, retryAfterS: 15 });
+			// Another number from the same service address is not held back.
+			expect((await hook(inbound(b.d.number, `ok ${b.code}`, SERVICE), at(t0, 45))).status).toBe(200);
+			expect(db.select().from(table.dutyPage).where(eq(table.dutyPage.id, b.page.id)).get()!.acknowledgedBy).toBe(b.d.id);
+			// Once the first replies are a minute old, the number is taken again and its code acknowledges.
+			expect((await hook(inbound(a.d.number, `ok ${a.code}`, SERVICE), at(t0, 60.5))).status).toBe(200);
+			expect(db.select().from(table.dutyPage).where(eq(table.dutyPage.id, a.page.id)).get()!.acknowledgedBy).toBe(a.d.id);
+		});
+
+		it('limits one client address to 60 a minute, signed or not; unsigned requests never use up a number’s replies', async () => {
+			expect.hasAssertions();
+			expect(PHONE_REPLIES_PER_ADDRESS_PER_MIN).toBe(60);
+			const t0 = new Date();
+			const a = await paged(t0);
+			const FLOOD = '203.0.113.9';
+			// Forged requests in a victim's name: refused for their signature, counted against their address only.
+			for (let i = 0; i < 20; i++) expect((await hook(inbound(a.d.number, 'ok', FLOOD, true), at(t0, 1))).status).toBe(403);
+			for (let i = 20; i < PHONE_REPLIES_PER_ADDRESS_PER_MIN; i++) expect((await hook(inbound(`+1202555${String(1000 + i)}`, 'ok ACDEFG', FLOOD), at(t0, 2))).status).toBe(404);
+			const limited = await hook(inbound('+12025559999', 'ok ACDEFG', FLOOD), at(t0, 20));
+			expect(limited).toMatchObject({ status: 429, retryAfterS: 41 });
+			expect(limited.message).toContain('at most 60 a minute');
+			expect((await hook(inbound(a.d.number, `ok ${a.code}`, FLOOD), at(t0, 20))).status).toBe(429);
+			// The real sender, through the service's own address, still gets through.
+			expect((await hook(inbound(a.d.number, `ok ${a.code}`, SERVICE), at(t0, 20))).status).toBe(200);
+			expect((await hook(inbound('+12025559999', 'ok ACDEFG', FLOOD), at(t0, 61.5))).status).toBe(404);
+		});
 	});
 
 	it('checks the inbound hook signature with the SDK against the fake’s own signing', async () => {

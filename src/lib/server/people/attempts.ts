@@ -3,9 +3,9 @@ import { db } from '../platform/db';
 import * as table from '../platform/db/schema';
 
 /**
- * Counting attempts per key for rate limits (sign-in failures, reset requests). Keys carry their
- * purpose as a prefix (`email:`, `ip:`, `reset-email:`, `reset-ip:`); rows older than a day are
- * dropped whenever new ones are written.
+ * Counting attempts per key for rate limits (sign-in failures, reset requests, text replies to
+ * pages). Keys carry their purpose as a prefix (`email:`, `ip:`, `reset-email:`, `reset-ip:`,
+ * `reply-from:`, `reply-ip:`); rows older than a day are dropped whenever new ones are written.
  */
 const KEEP_MS = 24 * 3600_000;
 

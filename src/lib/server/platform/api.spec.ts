@@ -1,7 +1,7 @@
 import { error, type RequestEvent } from '@sveltejs/kit';
 import { describe, expect, it } from 'vitest';
 import { apiErrorFrom, apiRoute } from './api';
-import { DomainError, InputError } from './errors';
+import { DomainError, InputError, RateLimitError } from './errors';
 
 describe('the API answer to a refusal', () => {
 	it('gives status, code and message, and the per-field messages as details', async () => {
@@ -18,6 +18,13 @@ describe('the API answer to a refusal', () => {
 		const r = apiErrorFrom(new InputError('Give the catalogue a name.', 'name'));
 		expect(r.status).toBe(400);
 		expect(await r.json()).toEqual({ error: { code: 'invalid', message: 'Give the catalogue a name.', details: { name: 'Give the catalogue a name.' } } });
+	});
+	it('tells a client that asked too often when to ask again (Retry-After); other refusals carry no such header', async () => {
+		const r = apiErrorFrom(new RateLimitError('Too many text replies from +12025550143: at most 10 a minute.', 42));
+		expect(r.status).toBe(429);
+		expect(r.headers.get('retry-after')).toBe('42');
+		expect(await r.json()).toEqual({ error: { code: 'too_many_requests', message: 'Too many text replies from +12025550143: at most 10 a minute.' } });
+		expect(apiErrorFrom(new DomainError(409, 'taken', 'Already taken.')).headers.get('retry-after')).toBeNull();
 	});
 	it('rethrows anything that is not a refusal', () => {
 		const bug = new TypeError('x is undefined');

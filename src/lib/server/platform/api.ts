@@ -1,6 +1,6 @@
 import { isHttpError, json, type RequestEvent, type RequestHandler } from '@sveltejs/kit';
 import type { z } from 'zod';
-import { DomainError } from './errors';
+import { DomainError, RateLimitError } from './errors';
 import { API_JSON_MAX_BYTES } from '../../limits.ts';
 import '../../field-messages';
 
@@ -29,7 +29,9 @@ export function apiErrorFrom(e: unknown): Response {
 	if (!(e instanceof DomainError)) throw e;
 	// An error may carry richer details than its field messages (numbered CSV lines, say).
 	const own = (e as { details?: unknown }).details;
-	return apiError(e.status, e.code, e.message, own !== undefined ? own : Object.keys(e.fields).length ? e.fields : undefined);
+	const response = apiError(e.status, e.code, e.message, own !== undefined ? own : Object.keys(e.fields).length ? e.fields : undefined);
+	if (e instanceof RateLimitError) response.headers.set('retry-after', String(e.retryAfterS));
+	return response;
 }
 
 /** Wrap a `+server.ts` handler so expected failures (`error(...)`, a DomainError) come out in the API's error shape. */

@@ -24,3 +24,13 @@ export class InputError extends DomainError {
 		super(status, code, message, field ? { [field]: message } : {});
 	}
 }
+
+/** A refusal for asking too often: 429, with the seconds to wait before asking again (sent as Retry-After). */
+export class RateLimitError extends DomainError {
+	constructor(
+		message: string,
+		readonly retryAfterS: number
+	) {
+		super(429, 'too_many_requests', message);
+	}
+}
