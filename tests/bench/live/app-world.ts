@@ -87,7 +87,10 @@ export async function prepareAppWorld(root: string, dbFile: string, storageDir: 
 		const eventTime = new Date(Date.now() - 3600_000).toISOString();
 		const xml = readFileSync(join(root, 'tests/fixtures/notices/bns-initial.xml'), 'utf8')
 			.replaceAll('SX30041207', SOURCE_ID)
-			.replace(/<ISOTime>\s*[^<]+\s*<\/ISOTime>/, `<ISOTime>${eventTime}</ISOTime>`);
+			.replace(/<ISOTime>\s*[^<]+\s*<\/ISOTime>/, `<ISOTime>${eventTime}</ISOTime>`)
+			// Authored a minute after the merger (the fixture's date lies in 2030): an update the benches
+			// publish now must be the later notice, or the event keeps showing this one's map.
+			.replace(/<Date>\s*[^<]+\s*<\/Date>/, `<Date>${new Date(Date.parse(eventTime) + 60_000).toISOString()}</Date>`);
 		// A compact map of our own opposite the Sun today: claims inside a telescope's Sun limit are
 		// refused, and a fixed sky position drifts into the Sun's zone as the year turns.
 		const { generateSkymap, skymapToFits } = await import('../../../fake-alert-broker/skymap.ts');

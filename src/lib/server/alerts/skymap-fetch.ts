@@ -11,6 +11,7 @@ import https from 'node:https';
 import net from 'node:net';
 import { config } from '../platform/config';
 import { DomainError } from '../platform/errors';
+import { ByteCollector } from '../platform/byte-collector';
 import { FitsInflateLimitError, type ReadSkyMapOptions } from '../../sky/index.ts';
 import { DEFAULT_MAX_NOTICE_BYTES } from '../../alerts/voevent.ts';
 import { maxJsonNoticeBytes, type JsonNoticeOptions } from '../../alerts/notice-json.ts';
@@ -233,19 +234,22 @@ function requestOnce(
 				finish(e);
 				return req.destroy(e);
 			}
-			const chunks: Buffer[] = [];
-			let total = 0;
+			const body = new ByteCollector(Number.isFinite(declared) ? declared : undefined);
 			res.on('data', (chunk: Buffer) => {
-				total += chunk.length;
-				if (total > o.maxBytes) {
+				if (body.length + chunk.length > o.maxBytes) {
 					const e = new SkymapFetchError('too_large', `sky map exceeds the ${o.maxBytes}-byte limit`);
 					finish(e);
 					req.destroy(e);
 					return;
 				}
-				chunks.push(chunk);
+				body.push(chunk);
 			});
-			res.on('end', () => finish(null, { kind: 'body', bytes: Buffer.concat(chunks), contentType: res.headers['content-type'] ?? null }));
+			res.on('end', () => {
+				body.finish().then(
+					(bytes) => finish(null, { kind: 'body', bytes, contentType: res.headers['content-type'] ?? null }),
+					(e: Error) => finish(new SkymapFetchError('network', `sky-map download failed: ${e.message}`))
+				);
+			});
 			res.on('error', (e) => finish(new SkymapFetchError('network', `sky-map download failed: ${e.message}`)));
 		});
 		req.end();

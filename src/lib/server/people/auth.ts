@@ -1,6 +1,6 @@
 import type { RequestEvent } from '@sveltejs/kit';
 import { eq, and, isNull, sql } from 'drizzle-orm';
-import { createHash } from 'node:crypto';
+import { createHash, randomBytes, randomFillSync } from 'node:crypto';
 import { encodeBase32LowerCaseNoPadding } from '@oslojs/encoding';
 import { hash, verify } from '@node-rs/argon2';
 import { db, preparedQuery } from '../platform/db';
@@ -35,9 +35,27 @@ export type SessionValidation =
 	| { session: SessionInfo; user: SessionUser; fresh: boolean }
 	| { session: null; user: null; fresh: false };
 
+/**
+ * Random bytes from the operating system's generator, drawn a few kilobytes at a time: asking it
+ * once per id cost ≈ 16 µs a call, 150 ms for the ids of a 9,000-row upload. Bytes handed out are
+ * wiped from the reserve, and none is handed out twice.
+ */
+const reserve = Buffer.alloc(4096);
+let reserveAt = reserve.length;
+function randomBytesNow(n: number): Uint8Array {
+	if (n > reserve.length) return new Uint8Array(randomBytes(n));
+	if (reserveAt + n > reserve.length) {
+		randomFillSync(reserve);
+		reserveAt = 0;
+	}
+	const out = Uint8Array.from(reserve.subarray(reserveAt, reserveAt + n));
+	reserve.fill(0, reserveAt, reserveAt + n);
+	reserveAt += n;
+	return out;
+}
+
 export function randomToken(bytes = 20): string {
-	const raw = crypto.getRandomValues(new Uint8Array(bytes));
-	return encodeBase32LowerCaseNoPadding(raw);
+	return encodeBase32LowerCaseNoPadding(randomBytesNow(bytes));
 }
 
 export function randomId(): string {
