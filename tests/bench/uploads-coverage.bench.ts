@@ -62,7 +62,7 @@ async function upload(text: string): Promise<void> {
 	const parsed = await parseObservationCsv(text);
 	if (parsed.errors.length) throw new Error(`bench CSV refused: ${JSON.stringify(parsed.errors.slice(0, 2))}`);
 	const user = loadSessionUser('bench-obs')!;
-	reportMany({ user }, parsed.rows.map((r) => ({ ...r, eventId: 'ev-1', telescopeId: 'tel-a' })), 'csv', { lines: parsed.lines, now: NOW });
+	await reportMany({ user }, parsed.rows.map((r) => ({ ...r, eventId: 'ev-1', telescopeId: 'tel-a' })), 'csv', { lines: parsed.lines, now: NOW });
 }
 
 /** One page load's coverage: wall time, and the event loop's worst lateness meanwhile. */

@@ -150,7 +150,7 @@ export async function run(): Promise<BenchResult[]> {
 			t = performance.now();
 			const parsed = await parseObservationCsv(text);
 			if (parsed.errors.length) throw new Error(`bench CSV refused: ${JSON.stringify(parsed.errors.slice(0, 2))}`);
-			const out = reportMany({ user }, parsed.rows.map((r) => ({ ...r, eventId, telescopeId: 'tel-a' })), 'csv', { lines: parsed.lines, now: NOW });
+			const out = await reportMany({ user }, parsed.rows.map((r) => ({ ...r, eventId, telescopeId: 'tel-a' })), 'csv', { lines: parsed.lines, now: NOW });
 			if (out.results.length !== ROWS) throw new Error('bench upload not stored');
 			wall.push(performance.now() - t);
 			cpu.push(cpuMs(c));

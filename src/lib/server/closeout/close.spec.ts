@@ -178,11 +178,11 @@ describe('while an event is closed', () => {
 		expect(claims.listClaims(w.eventId)).toHaveLength(0);
 	});
 
-	it('refuses pointings, one by one and as an upload (one sentence, not one per line)', () => {
+	it('refuses pointings, one by one and as an upload (one sentence, not one per line)', async () => {
 		const one = refusal(() => report({ user: w.observer }, pointing(), 'form', NOW));
 		expectClosedRefusal(one);
 		expect(one.message).toContain('new pointings are not recorded');
-		const many = refusal(() => reportMany({ user: w.observer }, [pointing(), pointing({ observedAt: '2026-12-08T23:10:00Z' })], 'csv', { lines: [2, 3], now: NOW }));
+		const many = await refused(reportMany({ user: w.observer }, [pointing(), pointing({ observedAt: '2026-12-08T23:10:00Z' })], 'csv', { lines: [2, 3], now: NOW }));
 		expectClosedRefusal(many);
 		expect(db.select().from(table.observation).all()).toHaveLength(0);
 	});

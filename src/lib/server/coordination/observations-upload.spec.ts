@@ -115,7 +115,7 @@ describe('a 9,000-row pointing upload', () => {
 		const started = performance.now();
 		const parsed = await parseObservationCsv(text);
 		expect(parsed.errors).toEqual([]);
-		const out = reportMany({ user: observer }, parsed.rows.map((r) => ({ ...r, eventId: 'ev-1', telescopeId: 'tel-a' })), 'csv', { lines: parsed.lines, now: NOW });
+		const out = await reportMany({ user: observer }, parsed.rows.map((r) => ({ ...r, eventId: 'ev-1', telescopeId: 'tel-a' })), 'csv', { lines: parsed.lines, now: NOW });
 		const storeMs = performance.now() - started;
 		off();
 		expect(out.errors).toEqual([]);
@@ -146,6 +146,34 @@ describe('a 9,000-row pointing upload', () => {
 		console.log(`9,000-row upload: parse + store ${storeMs.toFixed(0)} ms; coverage of 9,000 footprints ${first.computeMs.toFixed(0)} ms`);
 	}, 120_000);
 
+	it('is stored a chunk at a time, and a failure in a later chunk takes back what the earlier ones stored', async () => {
+		expect.hasAssertions();
+		const { observer, claimId } = world();
+		const claimBefore = claims.getClaim(claimId)!;
+		expect(claimBefore.state).toBe('claimed');
+		const parsed = await parseObservationCsv(pointingsCsv());
+		// The database refuses the 5,001st pointing (as a full disk would), well after the first chunks were committed.
+		db.$client.exec(
+			"CREATE TRIGGER test_disk_full BEFORE INSERT ON observation WHEN (SELECT max(rowid) FROM observation) >= 5000 BEGIN SELECT RAISE(ABORT, 'database or disk is full'); END"
+		);
+		const heard: LiveMessage[] = [];
+		const off = onRecorded((m) => heard.push(m));
+		let turns = 0;
+		const ticker = setInterval(() => turns++, 0);
+		await expect(reportMany({ user: observer }, parsed.rows.map((r) => ({ ...r, eventId: 'ev-1', telescopeId: 'tel-a' })), 'csv', { lines: parsed.lines, now: NOW })).rejects.toThrow(
+			'database or disk is full'
+		);
+		clearInterval(ticker);
+		off();
+		// Other work ran between the chunks…
+		expect(turns).toBeGreaterThan(0);
+		// …and nothing of the upload is left: no pointing, the claim as it was, no message.
+		expect(db.select().from(table.observation).all()).toHaveLength(0);
+		const claimAfter = claims.getClaim(claimId)!;
+		expect([claimAfter.state, claimAfter.doneAt]).toEqual([claimBefore.state, claimBefore.doneAt]);
+		expect(heard.filter((m) => m.type.startsWith('observation.'))).toEqual([]);
+	}, 120_000);
+
 	it('gives the same pointings, claims and coverage as the same rows reported one by one', async () => {
 		expect.hasAssertions();
 		const text = pointingsCsv().split('\n').slice(0, 1 + 600).join('\n');
@@ -161,7 +189,7 @@ describe('a 9,000-row pointing upload', () => {
 
 		clearCoverageCache();
 		const many = world();
-		reportMany({ user: many.observer }, rows, 'csv', { lines: parsed.lines, now: NOW });
+		await reportMany({ user: many.observer }, rows, 'csv', { lines: parsed.lines, now: NOW });
 		const batched = figures((await eventCoverage('ev-1'))!);
 		expect(batched).toEqual(byRow);
 		expect(claims.getClaim(many.claimId)?.state).toBe(byRowClaim?.state);

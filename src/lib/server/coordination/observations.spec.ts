@@ -143,7 +143,7 @@ describe('report', () => {
 });
 
 describe('pointings that cannot be coverage', () => {
-	it('refuses a pointing one second before the merger, by API, form or CSV, and takes one at the merger', () => {
+	it('refuses a pointing one second before the merger, by API, form or CSV, and takes one at the merger', async () => {
 		const w = world();
 		const robot = { user: null, telescopeId: w.telescopeId, tokenId: null };
 		const before = '2026-12-01T23:59:59Z';
@@ -158,14 +158,14 @@ describe('pointings that cannot be coverage', () => {
 			expect(err!.status).toBe(422);
 			expect(err!.fields.observedAt).toBe('This pointing (2026-12-01T23:59:59Z) was taken before the merger at 2026-12-02T00:00:00Z; only pointings after the merger count.');
 		}
-		const csv = reportMany({ user: w.observer }, [pointing(w), pointing(w, { observedAt: before })].map((p) => ({ ...p, telescopeId: w.telescopeId })), 'csv', { lines: [2, 3], now: NOW });
+		const csv = await reportMany({ user: w.observer }, [pointing(w), pointing(w, { observedAt: before })].map((p) => ({ ...p, telescopeId: w.telescopeId })), 'csv', { lines: [2, 3], now: NOW });
 		expect(csv.results).toEqual([]);
 		expect(csv.errors).toEqual([{ line: 3, message: expect.stringContaining('before the merger at 2026-12-02T00:00:00Z') }]);
 		expect(db.select().from(table.observation).all()).toHaveLength(0);
 		expect(report(robot, pointing(w, { observedAt: '2026-12-02T00:00:00Z' }), 'api', NOW).observation.observedAt.toISOString()).toBe('2026-12-02T00:00:00.000Z');
 	});
 
-	it('refuses every pointing on a retracted event, saying so, and stores none', () => {
+	it('refuses every pointing on a retracted event, saying so, and stores none', async () => {
 		const w = world();
 		db.update(table.gwEvent).set({ state: 'retracted', retractedAt: new Date('2026-12-02T01:00:00Z') }).where(eq(table.gwEvent.id, w.eventId)).run();
 		const robot = { user: null, telescopeId: w.telescopeId, tokenId: null };
@@ -177,7 +177,7 @@ describe('pointings that cannot be coverage', () => {
 		}
 		expect(err).toMatchObject({ status: 409, code: 'event_retracted' });
 		expect(err!.message).toMatch(/^S-obs-\d+ was retracted by the source \(2026-12-02T01:00:00Z\): observations are no longer recorded for it/);
-		const csv = reportMany({ user: w.observer }, [{ ...pointing(w), telescopeId: w.telescopeId }], 'csv', { now: NOW });
+		const csv = await reportMany({ user: w.observer }, [{ ...pointing(w), telescopeId: w.telescopeId }], 'csv', { now: NOW });
 		expect(csv.errors[0].message).toMatch(/was retracted by the source/);
 		expect(db.select().from(table.observation).all()).toHaveLength(0);
 	});
@@ -201,14 +201,14 @@ describe('reportMany (CSV upload)', () => {
 		expect(csv.lines).toEqual([2, 4]);
 		const me = { user: w.observer };
 		const rows = csv.rows.map((r) => ({ ...r, eventId: w.eventId, telescopeId: w.telescopeId }));
-		const refused = reportMany(me, rows, 'csv', { lines: csv.lines, now: NOW });
+		const refused = await reportMany(me, rows, 'csv', { lines: csv.lines, now: NOW });
 		expect(refused.results).toEqual([]);
 		expect(refused.errors).toEqual([{ line: 4, message: expect.stringMatching(/filter "i" is not one of/) }]);
 		expect(db.select().from(table.observation).all()).toHaveLength(0);
 		expect(claims.getClaim(a.id)?.state).toBe('claimed');
 		expect(claims.getClaim(b.id)?.state).toBe('claimed');
 		rows[1].filter = 'g';
-		const stored = reportMany(me, rows, 'csv', { lines: csv.lines, now: NOW });
+		const stored = await reportMany(me, rows, 'csv', { lines: csv.lines, now: NOW });
 		expect(stored.errors).toEqual([]);
 		// Row 1 points at 100°: galaxy a (100.4°) inside; row 2 at 100.6°: galaxy b at its centre.
 		expect(stored.results.map((r) => r.completedClaimIds)).toEqual([[a.id], [b.id]]);

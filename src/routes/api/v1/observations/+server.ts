@@ -23,7 +23,7 @@ export const POST = apiRoute(async ({ request, url }) => {
 		const telescopeId = url.searchParams.get('telescopeId') || undefined;
 		const parsed = await parseObservationCsv(text);
 		if (parsed.errors.length) return apiError(422, 'invalid_csv', `${parsed.errors.length} problem(s); nothing stored.`, parsed.errors);
-		const out = reportMany(reporter, parsed.rows.map((r) => ({ ...r, eventId, telescopeId })), 'csv', { lines: parsed.lines });
+		const out = await reportMany(reporter, parsed.rows.map((r) => ({ ...r, eventId, telescopeId })), 'csv', { lines: parsed.lines });
 		if (out.errors.length) return apiError(422, 'invalid_csv', `${out.errors.length} problem(s); nothing stored.`, out.errors);
 		return json({ results: out.results }, { status: 201 });
 	}

@@ -58,7 +58,7 @@ export const actions: Actions = {
 		const parsed = await parseObservationCsv(await file.text());
 		if (parsed.errors.length) return refuse(parsed.errors);
 		try {
-			const out = reportMany({ user }, parsed.rows.map((r) => ({ ...r, eventId: params.eventId, telescopeId })), 'csv', { lines: parsed.lines });
+			const out = await reportMany({ user }, parsed.rows.map((r) => ({ ...r, eventId: params.eventId, telescopeId })), 'csv', { lines: parsed.lines });
 			if (out.errors.length) return refuse(out.errors);
 			return { uploaded: { count: out.results.length, completedClaims: out.results.reduce((n, r) => n + r.completedClaimIds.length, 0) } };
 		} catch (e) {
