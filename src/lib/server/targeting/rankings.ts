@@ -21,7 +21,7 @@ import { loadSkyMap } from '../alerts/skymap-cache';
 import { runWork } from '../platform/work-pool';
 import { buffersOf } from '../platform/work-memory.ts';
 import type { SharedCatalogIndex } from '../platform/work-tasks.ts';
-import { getCatalog } from './catalogs';
+import { activeCatalog, getCatalog } from './catalogs';
 import { SUN_ABS_MAG_B } from '../../targeting/catalog-csv.ts';
 import { INDEX_ORDER, type GalaxyCatalog, type WeightSource } from '../../targeting/galaxies.ts';
 import type { Tiling } from '../../targeting/fields.ts';
@@ -326,6 +326,28 @@ export async function targetsIdle(): Promise<void> {
 	await rankingJobs().idle();
 }
 
+/**
+ * At start-up, in the background: build the index of the catalogue the next event will be ranked
+ * against and of those active events use, so that the first notice after a restart does not wait
+ * for it (a million galaxies take ≈ 5 s to read, in slices, and index).
+ */
+async function warmCatalogIndexes(): Promise<void> {
+	const ids = new Set<string>();
+	const next = activeCatalog();
+	if (next) ids.add(next.id);
+	for (const e of db.select({ catalogId: table.gwEvent.catalogId }).from(table.gwEvent).where(eq(table.gwEvent.state, 'active')).all()) {
+		if (e.catalogId) ids.add(e.catalogId);
+	}
+	for (const id of ids) {
+		try {
+			await catalogIndex(id);
+		} catch (e) {
+			// Not fatal: the ranking that needs it tries again and reports its own failure.
+			console.error(`catalogue ${id}: index not built at start-up: ${(e as Error).message}`);
+		}
+	}
+}
+
 async function rankNewMap(eventId: string, skymapId: string): Promise<void> {
 	// A map that arrived late for an older notice is not the one the event shows: keep the current ranking.
 	const current = db.select({ id: table.gwEvent.latestSkymapId }).from(table.gwEvent).where(eq(table.gwEvent.id, eventId)).get();
@@ -380,6 +402,7 @@ export function rankMissing(): string[] {
 export function installTargets(): () => void {
 	return restartService('targets', () => {
 		rankingJobs().enqueue(rankMissing);
+		rankingJobs().enqueue(warmCatalogIndexes);
 		// Each is logged to the board and the event's room: react to the board copy only.
 		const offs = [
 			onRecorded('skymap.analysed', ({ eventId, skymapId }, m) => {
