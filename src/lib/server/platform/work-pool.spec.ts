@@ -1,10 +1,11 @@
-import { readFileSync } from 'node:fs';
+import { existsSync, readdirSync, readFileSync } from 'node:fs';
 import { afterAll, describe, expect, it } from 'vitest';
 import { readSpectrum, SpectrumError } from '../../candidates/spectrum.ts';
 import { FitsInflateLimitError } from '../../sky/fits.ts';
 import { readSkyMap } from '../../sky/index.ts';
 import { runWork, stopWorkPool, useInlineWork, workerLocation, workThreads } from './work-pool';
 import { buffersOf, isShared, ownedBytes, shareArrays } from './work-memory';
+import { WORKER_NICENESS } from './work-worker';
 
 const fixture = (path: string) => new Uint8Array(readFileSync(`tests/fixtures/${path}`));
 
@@ -68,6 +69,16 @@ describe('the work pool', () => {
 		expect(bytes.buffer.byteLength).toBeGreaterThan(0);
 		expect(summary.points).toBeGreaterThan(0);
 		useInlineWork(false);
+	});
+
+	it.runIf(existsSync('/proc/thread-self'))('runs its threads nicer than the server\'s thread, which keeps its priority', async () => {
+		const bytes = ownedBytes(fixture('candidates/spectra/ascii-basic.txt'));
+		await runWork('readSpectrum', { bytes, options: {} }, { transfer: [bytes.buffer] });
+		// Field 19 of /proc/<pid>/task/<tid>/stat is the thread's nice value (proc(5)); the command name may hold spaces, so count after its ')'.
+		const niceOf = (tid: string) => Number(readFileSync(`/proc/self/task/${tid}/stat`, 'utf8').split(') ')[1].split(' ')[16]);
+		const tids = readdirSync('/proc/self/task');
+		expect(niceOf(String(process.pid))).toBe(0);
+		expect(tids.filter((t) => niceOf(t) === WORKER_NICENESS).length).toBeGreaterThanOrEqual(1);
 	});
 
 	it('leaves one core to the event loop', () => {

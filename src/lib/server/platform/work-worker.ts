@@ -4,9 +4,38 @@
  * modules only) and tinypool's marker for movable results, nothing else. Built on its own to
  * `build/work-worker.js` for the built app (vite.config.ts); run from source under vitest and tsx.
  */
+import { readlinkSync } from 'node:fs';
+import { setPriority } from 'node:os';
+import { isMainThread } from 'node:worker_threads';
 import { kTransferable, kValue, markMovable } from 'tinypool';
 import { ERROR_CLASSES, TASKS, type TaskName } from './work-tasks.ts';
 import { buffersOf } from './work-memory.ts';
+
+/**
+ * How much nicer than the server's thread a worker thread runs (Linux nice levels, 0–19): on a
+ * small machine the pool's long computations then give way to requests and live messages (the
+ * live bench's broadcasts waited behind a map's analysis on the other core), and take the CPU
+ * whenever the server's thread is idle, which is most of the time.
+ */
+export const WORKER_NICENESS = 10;
+
+/**
+ * Lower this worker thread's scheduling priority. Linux applies setpriority(PRIO_PROCESS, tid) to
+ * the one thread; the thread's id is read from /proc/thread-self. Elsewhere (or without /proc)
+ * nothing changes. Returns the niceness set, or null.
+ */
+export function lowerThreadPriority(niceness = WORKER_NICENESS): number | null {
+	try {
+		const tid = Number(readlinkSync('/proc/thread-self').split('/').pop());
+		if (!Number.isInteger(tid) || tid <= 0) return null;
+		setPriority(tid, niceness);
+		return niceness;
+	} catch {
+		return null;
+	}
+}
+// Never the server's own thread (a test may load this module there).
+if (!isMainThread) lowerThreadPriority();
 
 /** A task's failure as plain data: its class name (when the server knows it), message and own fields. */
 export interface EncodedError {
