@@ -174,6 +174,10 @@ export async function fetchSkymap(rawUrl: string, opts: SkymapFetchOptions = {})
 	}
 }
 
+/** Bytes received between two rests of a download, and the rest (≈ 0.4 s more for a 100 MB map). */
+const DOWNLOAD_SLICE_BYTES = 2 * 1024 * 1024;
+const DOWNLOAD_REST_MS = 8;
+
 type OnceResult = { kind: 'body'; bytes: Buffer; contentType: string | null } | { kind: 'redirect'; location: string };
 
 function requestOnce(
@@ -235,6 +239,7 @@ function requestOnce(
 				return req.destroy(e);
 			}
 			const body = new ByteCollector(Number.isFinite(declared) ? declared : undefined);
+			let sinceRest = 0;
 			res.on('data', (chunk: Buffer) => {
 				if (body.length + chunk.length > o.maxBytes) {
 					const e = new SkymapFetchError('too_large', `sky map exceeds the ${o.maxBytes}-byte limit`);
@@ -243,6 +248,14 @@ function requestOnce(
 					return;
 				}
 				body.push(chunk);
+				// A pause now and then: a 100 MB map arriving over a fast link otherwise keeps the
+				// server's thread busy with its pieces for seconds, and live messages queue behind them.
+				sinceRest += chunk.length;
+				if (sinceRest >= DOWNLOAD_SLICE_BYTES) {
+					sinceRest = 0;
+					res.pause();
+					setTimeout(() => res.resume(), DOWNLOAD_REST_MS);
+				}
 			});
 			res.on('end', () => {
 				body.finish().then(
