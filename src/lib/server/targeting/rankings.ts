@@ -88,17 +88,8 @@ export function catalogIndex(catalogId: string): Promise<CachedCatalog> {
  */
 const INDEX_READ_ROWS = 4096;
 
-interface GalaxyColumns {
-	n: number;
-	galaxyIds: Float64Array;
-	raDeg: Float64Array;
-	decDeg: Float64Array;
-	distanceMpc: Float64Array;
-	distanceErrMpc: Float64Array;
-	weight: Float64Array;
-	/** L_B / 10^10 L_B,⊙ (NaN without a B magnitude); null when no galaxy has one. */
-	luminosityB10: Float64Array | null;
-}
+/** The catalogue's columns as the index wants them, with each row's galaxy id. */
+type GalaxyColumns = Pick<GalaxyCatalog, 'raDeg' | 'decDeg' | 'distanceMpc' | 'distanceErrMpc' | 'weight' | 'luminosityB10'> & { n: number; galaxyIds: Float64Array };
 
 /** A catalogue's galaxies in file order, read a slice at a time by (catalog_id, row). */
 async function readGalaxyColumns(catalogId: string, expected: number): Promise<GalaxyColumns> {
