@@ -164,10 +164,10 @@ export function boardEvents(now = new Date()): EventView[] {
 }
 
 /**
- * The board's events and latest messages as of the latest log entry, shared by everyone who loads
- * the board until something is logged or written by another process (`boardVersion`) (a crowd opening the board after a page e-mail costs one
- * read, not one per person), or for BOARD_CACHE_TTL_MS at most (retracted events leave the board
- * by the clock, not by a log entry).
+ * The board's events and latest messages, shared by everyone who loads the board until something
+ * is logged or another process writes (`boardVersion`), or for BOARD_CACHE_TTL_MS at most
+ * (retracted events leave the board by the clock, not by a log entry): a crowd opening the board
+ * after a page e-mail costs one read, not one per person.
  */
 const boardCache = versionedCache<{ activity: ReturnType<typeof boardActivity>; events: EventView[] }>({ max: 1, ttlMs: BOARD_CACHE_TTL_MS });
 export function boardNow() {

@@ -2,6 +2,7 @@ import http from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { fetchSkymap, hostAllowance, isPrivateAddress, SkymapFetchError } from './skymap-fetch';
+import { refusalOf } from '../platform/testing/refusal';
 
 let server: http.Server;
 let port = 0;
@@ -51,15 +52,7 @@ afterAll(async () => {
 const base = () => `http://127.0.0.1:${port}`;
 const allowed = ['127.0.0.1', 'localhost'];
 
-async function refusal(p: Promise<unknown>): Promise<SkymapFetchError> {
-	try {
-		await p;
-	} catch (e) {
-		if (e instanceof SkymapFetchError) return e;
-		throw e;
-	}
-	throw new Error('expected a refusal');
-}
+const refusal = (p: Promise<unknown>) => refusalOf(p, SkymapFetchError);
 
 describe('fetchSkymap', () => {
 	it('downloads from an allow-listed host, following a redirect on the same host', async () => {

@@ -15,6 +15,7 @@ import { CandidateError } from './candidates';
 import { addPhotometryCsv, addPhotometryRows, listPhotometry, PhotometryRefused } from './photometry';
 import { clearVettingCache, vettingIdle } from './vetting';
 import { kilonovaCsv, NOW, world, type World } from './testing';
+import { refusalOf } from '../platform/testing/refusal';
 
 let storage: string;
 let w: World;
@@ -49,15 +50,7 @@ function refusal(f: () => unknown): PhotometryRefused {
 }
 
 /** `refusal` for an upload that settles later (a CSV is read on the work pool). */
-async function refused(upload: Promise<unknown>): Promise<PhotometryRefused> {
-	try {
-		await upload;
-	} catch (e) {
-		if (e instanceof PhotometryRefused) return e;
-		throw e;
-	}
-	throw new Error('expected the photometry to be refused');
-}
+const refused = (p: Promise<unknown>) => refusalOf(p, PhotometryRefused, 'expected the photometry to be refused');
 
 describe('photometry by CSV', () => {
 	it('stores every row of a good file, logs it once, and vets the candidate again', async () => {

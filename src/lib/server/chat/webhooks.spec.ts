@@ -11,6 +11,7 @@ import { config } from '../platform/config';
 import * as webhooks from './webhooks';
 import { installChatMessages } from './messages';
 import { WEBHOOK_MAX_ATTEMPTS, WEBHOOK_NAME_MAX, WEBHOOK_RETRY_BASE_S, WEBHOOK_URL_MAX } from '../../limits';
+import { refusalOf } from '../platform/testing/refusal';
 
 let port = 0;
 beforeAll(async () => {
@@ -33,15 +34,7 @@ function anEvent(id = 'ev-1', sourceEventId = 'S261202xy') {
 	return id;
 }
 
-async function refusal(p: Promise<unknown>): Promise<DomainError> {
-	try {
-		await p;
-	} catch (e) {
-		if (e instanceof DomainError) return e;
-		throw e;
-	}
-	throw new Error('expected a refusal');
-}
+const refusal = (p: Promise<unknown>) => refusalOf(p, DomainError);
 
 describe('webhook addresses: the allow-list', () => {
 	const noDns = async () => {

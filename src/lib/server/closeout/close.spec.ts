@@ -22,6 +22,7 @@ import { currentTake, takeCandidate } from '../candidates/takers';
 import { clearVettingCache, vettingIdle } from '../candidates/vetting';
 import { giveGalaxies, NOW, world, type World } from '../candidates/testing';
 import { closeEvent, reopenEvent } from './close';
+import { refusalOf } from '../platform/testing/refusal';
 
 let storage: string;
 let w: World;
@@ -65,15 +66,7 @@ function refusal(f: () => unknown): DomainError {
 }
 
 /** `refusal` for a call that settles later (a photometry CSV is read on the work pool). */
-async function refused(call: Promise<unknown>): Promise<DomainError> {
-	try {
-		await call;
-	} catch (e) {
-		if (e instanceof DomainError) return e;
-		throw e;
-	}
-	throw new Error('expected a refusal');
-}
+const refused = (p: Promise<unknown>) => refusalOf(p, DomainError);
 
 const pointing = (o: Partial<Parameters<typeof report>[1]> = {}) => ({
 	eventId: w.eventId,

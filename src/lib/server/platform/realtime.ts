@@ -318,7 +318,8 @@ export function boardVersion(): string {
 }
 
 export function latestSeq(): number {
-	const row = db.$client.prepare('SELECT COALESCE(MAX(seq), 0) AS seq FROM event_log').get() as { seq: number };
+	// Prepared once per connection: every board load asks (boardVersion).
+	const row = preparedQuery('latestSeq', (d) => d.$client.prepare('SELECT COALESCE(MAX(seq), 0) AS seq FROM event_log')).get() as { seq: number };
 	return row.seq;
 }
 
