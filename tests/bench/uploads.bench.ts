@@ -36,6 +36,7 @@ import { median, type BenchResult } from './run.ts';
 import { ensureBuilt, waitForLine } from './event-loop.bench.ts';
 import { prepareAppWorld } from './live/app-world.ts';
 import { freePort } from './live/protocol.ts';
+import { stop } from './live.bench.ts';
 
 const ROOT = fileURLToPath(new URL('../../', import.meta.url));
 
@@ -214,7 +215,9 @@ async function catalogueDuringPages(dir: string): Promise<BenchResult[]> {
 	const origin = `http://127.0.0.1:${port}`;
 	let app: ChildProcess | null = null;
 	try {
-		app = spawn(process.execPath, ['server.js'], {
+		// UPLOADS_BENCH_NODE_ARGS: extra node flags for the app, e.g. "--cpu-prof --cpu-prof-dir=/tmp/prof".
+		const nodeArgs = (process.env.UPLOADS_BENCH_NODE_ARGS ?? '').split(' ').filter(Boolean);
+		app = spawn(process.execPath, [...nodeArgs, 'server.js'], {
 			cwd: ROOT,
 			stdio: ['ignore', 'pipe', 'inherit'],
 			env: { ...process.env, PORT: String(port), HOST: '127.0.0.1', ORIGIN: origin, DATABASE_URL: dbFile, STORAGE_DIR: storageDir, VTP_BROKER: '', VTP_ARCHIVE_URL: '', FAKE_SMTP_PORT: '0', SMTP_URL: '' }
@@ -255,7 +258,7 @@ async function catalogueDuringPages(dir: string): Promise<BenchResult[]> {
 			reference: `the same page idle (p95 ${percentile(idle, 0.95).toFixed(1)} ms, max ${Math.max(...idle).toFixed(0)} ms, n=${idle.length}, load ${idleLoad})`,
 			note: `during/idle median ${(median(during) / median(idle)).toFixed(2)}×; load ${load()}`
 		});
-		app.kill('SIGTERM');
+		await stop(app, 10_000); // a clean exit, so that a --cpu-prof profile is written
 	} finally {
 		if (app && app.exitCode === null) app.kill('SIGKILL');
 	}

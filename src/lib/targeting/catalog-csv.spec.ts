@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { CatalogCsvParser, catalogPartState, readCatalogPart, parseCatalogCsv, parseCatalogCsvStream, parseColumnMapping, SUN_ABS_MAG_B, SUN_ABS_MAG_K } from './catalog-csv.ts';
+import { CatalogCsvParser, catalogPartState, CatalogRowChecker, readCatalogPart, parseCatalogCsv, parseCatalogCsvStream, parseColumnMapping, SUN_ABS_MAG_B, SUN_ABS_MAG_K } from './catalog-csv.ts';
 
 const GOOD = [
 	'# a comment before the header',
@@ -187,5 +187,22 @@ describe('readCatalogPart (a file read part by part)', () => {
 		part = readCatalogPart(st, enc.encode('C,3,3,30\n'.repeat(10)), false);
 		expect(part.state.fatal).toBe('line 3: a record longer than 0 kB (a quote left open?); the rows after it were not read');
 		expect(part.state.stopped).toBe(true);
+	});
+
+	it('checks a part in several ranges exactly as in one (rejected rows, duplicates and their reasons in order)', () => {
+		expect.hasAssertions();
+		const text = ['id,ra,dec,distance', 'A,1,1,10', 'B,400,1,10', 'A,2,2,20', 'C,3,3,x', 'D,4,4,40', 'B,5,5,50', 'E,6,6,60'].join('\n') + '\n';
+		const { rows } = readCatalogPart(catalogPartState(), new TextEncoder().encode(text), true);
+		const whole = new CatalogRowChecker(50);
+		const keptWhole = whole.take(rows);
+		expect(whole.rejectedCount).toBe(3);
+		for (const step of [1, 2, 3]) {
+			const split = new CatalogRowChecker(50);
+			const kept: number[] = [];
+			const cursor = { reason: 0 };
+			for (let from = 0; from < rows.size; from += step) split.takeRange(rows, from, Math.min(rows.size, from + step), cursor, kept);
+			expect(kept, `ranges of ${step}`).toEqual(keptWhole);
+			expect(split.rejectedRows, `ranges of ${step}`).toEqual(whole.rejectedRows);
+		}
 	});
 });

@@ -412,19 +412,28 @@ export class CatalogRowChecker {
 		if (this.rejectedRows.length < this.maxReported) this.rejectedRows.push({ line, reason });
 	}
 
+	/** Check a whole part: the indexes of the rows to store, in order. */
 	take(rows: CatalogPartRows): number[] {
 		const kept: number[] = [];
-		let r = 0;
-		for (let i = 0; i < rows.size; i++) {
+		this.takeRange(rows, 0, rows.size, { reason: 0 }, kept);
+		return kept;
+	}
+
+	/**
+	 * Check rows [from, to) of a part, adding the indexes to store to `kept`. A part may be checked
+	 * in several calls, in order; `cursor.reason` carries the place in `rows.reason` between them.
+	 */
+	takeRange(rows: CatalogPartRows, from: number, to: number, cursor: { reason: number }, kept: number[]): void {
+		for (let i = from; i < to; i++) {
 			const kind = rows.kind[i];
 			const line = rows.line[i];
 			if (kind === ROW_REFUSED) {
-				this.reject(line, rows.reason[r++]);
+				this.reject(line, rows.reason[cursor.reason++]);
 				continue;
 			}
 			const id = rows.id[i];
 			const prior = this.seen.get(id);
-			const why = kind === ROW_BAD_VALUE ? rows.reason[r++] : null;
+			const why = kind === ROW_BAD_VALUE ? rows.reason[cursor.reason++] : null;
 			if (prior !== undefined) this.reject(line, `duplicate id "${id}" (first on line ${prior})`);
 			else if (why !== null) this.reject(line, why);
 			else {
@@ -432,7 +441,6 @@ export class CatalogRowChecker {
 				kept.push(i);
 			}
 		}
-		return kept;
 	}
 }
 

@@ -1,0 +1,1 @@
+DROP INDEX `galaxy_catalog_pixel_idx`;
