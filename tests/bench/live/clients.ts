@@ -9,6 +9,7 @@
  * hide a hub that sends one twice.
  */
 import { monitorEventLoopDelay } from 'node:perf_hooks';
+import { writeFileSync } from 'node:fs';
 import { io, type Socket } from 'socket.io-client';
 import { keyOf, nowMs, type ClientReport, type ExpectedMessage, type FromClients, type ToClients } from './protocol.ts';
 
@@ -98,6 +99,18 @@ function report(expected: ExpectedMessage[]): ClientReport {
 		}
 		lost += expected.length - seen.size;
 		for (const e of expected) if (!seen.has(e.key)) groupOf(e).lost++;
+	}
+	// LIVE_BENCH_TRACE_DIR: per message, when its request left and its slowest delivery to this
+	// process's clients (a diagnostic: where in the run the tail comes from).
+	if (process.env.LIVE_BENCH_TRACE_DIR) {
+		const slowest = new Map<string, number>();
+		for (const c of clients)
+			for (let k = 0; k < c.seqs.length; k++) {
+				const e = c.keyIds[k] < 0 ? undefined : byKey.get(keys[c.keyIds[k]]);
+				if (e?.sentAtMs != null) slowest.set(e.key, Math.max(slowest.get(e.key) ?? 0, c.ats[k] - e.sentAtMs));
+			}
+		const rows = expected.filter((e) => slowest.has(e.key)).map((e) => `${e.sentAtMs},${slowest.get(e.key)!.toFixed(1)},${e.group ?? 'all'},${e.key}`);
+		writeFileSync(`${process.env.LIVE_BENCH_TRACE_DIR}/trace-${process.pid}.csv`, rows.join('\n') + '\n');
 	}
 	return {
 		clients: clients.length,

@@ -527,10 +527,9 @@ export async function retrySkymaps(opts: IngestOptions = {}): Promise<string[]> 
 
 function insertSkymap(v: Omit<typeof table.skymap.$inferInsert, 'id'>): SkyResult {
 	const id = randomId();
-	const row = db
-		.insert(table.skymap)
+	// Not `.returning()`: reading the row back parsed its display raster's JSON again for nothing.
+	db.insert(table.skymap)
 		.values({ id, ...v })
-		.returning()
-		.get();
-	return { skymapId: row.id, summary: row.summary, error: row.error };
+		.run();
+	return { skymapId: id, summary: v.summary ?? null, error: v.error ?? null };
 }

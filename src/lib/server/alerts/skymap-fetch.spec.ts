@@ -3,6 +3,7 @@ import type { AddressInfo } from 'node:net';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { fetchSkymap, hostAllowance, isPrivateAddress, SkymapFetchError } from './skymap-fetch';
 import { refusalOf } from '../platform/testing/refusal';
+import { stopWorkPool, workDone } from '../platform/work-pool';
 
 let server: http.Server;
 let port = 0;
@@ -45,6 +46,7 @@ beforeAll(async () => {
 	port = (server.address() as AddressInfo).port;
 });
 afterAll(async () => {
+	await stopWorkPool();
 	server.closeAllConnections();
 	await new Promise<void>((r) => server.close(() => r()));
 });
@@ -57,7 +59,10 @@ const refusal = (p: Promise<unknown>) => refusalOf(p, SkymapFetchError);
 describe('fetchSkymap', () => {
 	it('downloads from an allow-listed host, following a redirect on the same host', async () => {
 		expect.hasAssertions();
+		const before = workDone('downloadSkymap');
 		const a = await fetchSkymap(`${base()}/map.fits`, { allowedHosts: allowed });
+		// Downloaded on a thread of the I/O pool, not this one.
+		expect(workDone('downloadSkymap')).toBe(before + 1);
 		expect(a.bytes.equals(body)).toBe(true);
 		const b = await fetchSkymap(`${base()}/same-host`, { allowedHosts: allowed });
 		expect(b.finalUrl).toBe(`${base()}/map.fits`);
@@ -100,12 +105,12 @@ describe('fetchSkymap', () => {
 
 	it('refuses a domain-allowed host that resolves to a private address; an explicit entry may', async () => {
 		expect.hasAssertions();
-		const toLoopback = (_h: string, cb: (e: Error | null, a: { address: string; family: number }[]) => void) => cb(null, [{ address: '127.0.0.1', family: 4 }]);
-		const e = await refusal(fetchSkymap(`http://maps.example.org:${port}/map.fits`, { allowedHosts: ['.example.org'], lookup: toLoopback }));
+		const toLoopback = { 'maps.example.org': [{ address: '127.0.0.1', family: 4 }] };
+		const e = await refusal(fetchSkymap(`http://maps.example.org:${port}/map.fits`, { allowedHosts: ['.example.org'], resolveAs: toLoopback }));
 		expect(e.code).toBe('private_address');
 		expect(e.message).toMatch(/resolves to a private address \(127\.0\.0\.1\)/);
 		// Named exactly, the operator has vouched for it (our own broker on loopback).
-		const ok = await fetchSkymap(`http://maps.example.org:${port}/map.fits`, { allowedHosts: ['maps.example.org'], lookup: toLoopback });
+		const ok = await fetchSkymap(`http://maps.example.org:${port}/map.fits`, { allowedHosts: ['maps.example.org'], resolveAs: toLoopback });
 		expect(ok.bytes.length).toBe(5000);
 		expect((await refusal(fetchSkymap(`${base()}/nope`, { allowedHosts: allowed }))).message).toBe('sky-map server answered 404');
 	});

@@ -1,6 +1,6 @@
-import { error, type RequestEvent } from '@sveltejs/kit';
+import { error, json, type RequestEvent } from '@sveltejs/kit';
 import { describe, expect, it } from 'vitest';
-import { apiErrorFrom, apiRoute } from './api';
+import { apiErrorFrom, apiRoute, jsonListResponse } from './api';
 import { DomainError, InputError, RateLimitError } from './errors';
 
 describe('the API answer to a refusal', () => {
@@ -47,3 +47,17 @@ describe('the API answer to a refusal', () => {
 		).rejects.toThrow('bug');
 	});
 });
+
+describe('a long list answered in pieces', () => {
+	it('sends the same JSON as one json() answer, for empty, short and long lists', async () => {
+		expect.hasAssertions();
+		for (const n of [0, 1, 499, 500, 501, 1234]) {
+			const items = Array.from({ length: n }, (_, i) => ({ id: `o${i}`, at: new Date(Date.UTC(2026, 11, 3, 0, 0, i)), tags: i % 3 ? [] : ['a"b'] }));
+			const streamed = jsonListResponse('results', items, 201);
+			expect(streamed.status).toBe(201);
+			expect(streamed.headers.get('content-type')).toBe('application/json');
+			expect(await streamed.text(), `${n} items`).toBe(await json({ results: items }).text());
+		}
+	});
+});
+

@@ -34,6 +34,39 @@ export function apiErrorFrom(e: unknown): Response {
 	return response;
 }
 
+/** Items of a long list serialised per piece of a streamed answer (≈ 5 ms of the server's thread each). */
+const LIST_ITEMS_PER_PIECE = 500;
+
+/**
+ * A JSON answer `{ [key]: items }` written a few hundred items at a time as the client reads it,
+ * rather than one `JSON.stringify` of the whole list: the 9,000 results of a CSV upload took
+ * ≈ 0.1 s of the server's thread in one piece (the live bench), and live messages waited behind it.
+ * Same bytes as `json({ [key]: items }, { status })`.
+ */
+export function jsonListResponse(key: string, items: readonly unknown[], status = 200): Response {
+	const encoder = new TextEncoder();
+	let next = -1;
+	const body = new ReadableStream<Uint8Array>({
+		pull(controller) {
+			if (next < 0) {
+				controller.enqueue(encoder.encode(`{${JSON.stringify(key)}:[`));
+				next = 0;
+				return;
+			}
+			if (next >= items.length) {
+				controller.enqueue(encoder.encode(']}'));
+				controller.close();
+				return;
+			}
+			const end = Math.min(items.length, next + LIST_ITEMS_PER_PIECE);
+			const piece = items.slice(next, end).map((item) => JSON.stringify(item)).join(',');
+			controller.enqueue(encoder.encode(next > 0 ? `,${piece}` : piece));
+			next = end;
+		}
+	});
+	return new Response(body, { status, headers: { 'content-type': 'application/json' } });
+}
+
 /** Wrap a `+server.ts` handler so expected failures (`error(...)`, a DomainError) come out in the API's error shape. */
 export function apiRoute(handler: (event: RequestEvent) => Promise<Response> | Response): RequestHandler {
 	return async (event) => {

@@ -23,6 +23,7 @@ import { DomainError } from './errors';
 import { WORK_QUEUE_MAX } from '../../limits';
 import type { EncodedError, WorkReply } from './work-worker.ts';
 import { ERROR_CLASSES, type TaskInput, type TaskName, type TaskOutput } from './work-tasks.ts';
+import { IO_ERROR_CLASSES, type IoTaskInput, type IoTaskName, type IoTaskOutput } from './io-tasks.ts';
 
 /** File name of the worker entry in the built app (next to build/index.js). */
 export const BUILT_WORKER_FILE = 'work-worker.js';
@@ -65,14 +66,20 @@ export function workerLocation(moduleUrl = import.meta.url): WorkerLocation {
 	throw new Error(`the work pool's worker file ${BUILT_WORKER_FILE} was not found above ${dirname(here)}; build the app with \`npx vite build\``);
 }
 
+/**
+ * Threads of the I/O pool: downloads wait on the network, not the CPU, so two may run at once
+ * beside the work pool's computations (a new map and a retried one, say).
+ */
+export const IO_THREADS = 2;
+
 class WorkPool {
 	readonly pool: Tinypool;
-	constructor() {
+	constructor(maxThreads: number) {
 		const where = workerLocation();
 		this.pool = new Tinypool({
 			filename: pathToFileURL(where.filename).href,
 			minThreads: 0,
-			maxThreads: workThreads(),
+			maxThreads,
 			maxQueue: WORK_QUEUE_MAX,
 			// Idle threads end after a minute: a worker holds copies of nothing, but its heap is not free.
 			idleTimeout: 60_000
@@ -84,6 +91,7 @@ class WorkPool {
 }
 
 const POOL = 'work-pool';
+const IO_POOL = 'io-pool';
 const INLINE = Symbol.for('strainline.work-pool.inline');
 
 function inlineWork(): boolean {
@@ -96,7 +104,7 @@ export function useInlineWork(inline: boolean): void {
 }
 
 function decodeError(e: EncodedError): Error {
-	const Ctor = ERROR_CLASSES[e.name];
+	const Ctor = ERROR_CLASSES[e.name] ?? IO_ERROR_CLASSES[e.name];
 	const error: Error = Object.create((Ctor ?? Error).prototype);
 	Object.assign(error, e.fields);
 	Object.defineProperty(error, 'message', { value: e.message, writable: true, configurable: true });
@@ -115,7 +123,7 @@ export async function runWork<K extends TaskName>(task: K, input: TaskInput<K>, 
 		const { TASKS } = await import('./work-tasks.ts');
 		return (TASKS[task] as (input: TaskInput<K>) => TaskOutput<K>)(input);
 	}
-	const { pool } = service(POOL, () => new WorkPool());
+	const { pool } = service(POOL, () => new WorkPool(workThreads()));
 	let reply: WorkReply;
 	try {
 		reply = await pool.run({ task, input }, { transferList: options.transfer ?? [] });
@@ -130,8 +138,31 @@ export async function runWork<K extends TaskName>(task: K, input: TaskInput<K>, 
 
 const ranOnPool = new Map<string, number>();
 
+/**
+ * Run a transfer (`IO_TASKS`: a sky-map download) on a thread of the I/O pool, apart from the
+ * work pool's computations. The result's buffers come back moved. Under `useInlineWork(true)` it
+ * runs on the calling thread like the computations.
+ */
+export async function runIo<K extends IoTaskName>(task: K, input: IoTaskInput<K>): Promise<IoTaskOutput<K>> {
+	if (inlineWork()) {
+		const { IO_TASKS } = await import('./io-tasks.ts');
+		return (await (IO_TASKS[task] as (input: IoTaskInput<K>) => Promise<IoTaskOutput<K>>)(input)) as IoTaskOutput<K>;
+	}
+	const { pool } = service(IO_POOL, () => new WorkPool(IO_THREADS));
+	let reply: WorkReply;
+	try {
+		reply = await pool.run({ task, input, io: true });
+	} catch (e) {
+		if (e instanceof Error && e.message === 'Task queue is at limit') throw new WorkPoolBusyError(task);
+		throw e;
+	}
+	ranOnPool.set(task, (ranOnPool.get(task) ?? 0) + 1);
+	if (!reply.ok) throw decodeError(reply.error);
+	return reply.value as IoTaskOutput<K>;
+}
+
 /** Tasks of this name that ran on the pool's threads since the process started (inline runs are not counted; diagnostics, tests). */
-export function workDone(task: TaskName): number {
+export function workDone(task: TaskName | IoTaskName): number {
 	return ranOnPool.get(task) ?? 0;
 }
 
@@ -141,7 +172,8 @@ export function workLoad(): { threads: number; queued: number } {
 	return running ? { threads: running.pool.threads.length, queued: running.pool.queueSize } : { threads: 0, queued: 0 };
 }
 
-/** End the pool's threads (shutdown, tests); the next task starts a new pool. */
+/** End the pools' threads (shutdown, tests); the next task starts a new pool. */
 export async function stopWorkPool(): Promise<void> {
 	await stopService(POOL);
+	await stopService(IO_POOL);
 }

@@ -1,7 +1,8 @@
 /**
- * The work pool's worker entry: runs one task by name and sends its result back with the
- * result's whole-buffer typed arrays transferred. Thin on purpose: it loads the task table (pure
- * modules only) and tinypool's marker for movable results, nothing else. Built on its own to
+ * The worker entry of the work pool and the I/O pool: runs one task by name and sends its result
+ * back with the result's whole-buffer typed arrays transferred. Thin on purpose: it loads the two
+ * task tables (the pure modules' computations; the downloads) and tinypool's marker for movable
+ * results, nothing else. Built on its own to
  * `build/work-worker.js` for the built app (vite.config.ts); run from source under vitest and tsx.
  */
 import { readlinkSync } from 'node:fs';
@@ -9,6 +10,7 @@ import { setPriority } from 'node:os';
 import { isMainThread } from 'node:worker_threads';
 import { kTransferable, kValue, markMovable } from 'tinypool';
 import { ERROR_CLASSES, TASKS, type TaskName } from './work-tasks.ts';
+import { IO_ERROR_CLASSES, IO_TASKS } from './io-tasks.ts';
 import { buffersOf } from './work-memory.ts';
 
 /**
@@ -51,16 +53,19 @@ function encodeError(e: unknown): EncodedError {
 	if (!(e instanceof Error)) return { name: 'Error', message: String(e), fields: {} };
 	const fields: Record<string, unknown> = {};
 	for (const [k, v] of Object.entries(e)) if (v === null || ['string', 'number', 'boolean'].includes(typeof v)) fields[k] = v;
-	const name = Object.keys(ERROR_CLASSES).find((n) => e.constructor === ERROR_CLASSES[n]) ?? e.name;
+	const classes = { ...ERROR_CLASSES, ...IO_ERROR_CLASSES };
+	const name = Object.keys(classes).find((n) => e.constructor === classes[n]) ?? e.name;
 	return { name, message: e.message, stack: e.stack, fields };
 }
 
-export default function runTask(message: { task: string; input: unknown }): unknown {
+/** One task by name: a computation (`TASKS`) or, on the I/O pool's threads, a transfer (`IO_TASKS`, awaited). */
+export default async function runTask(message: { task: string; input: unknown; io?: boolean }): Promise<unknown> {
 	let reply: WorkReply;
-	const fn = (TASKS as Record<string, ((input: unknown) => unknown) | undefined>)[message.task];
+	const table = (message.io ? IO_TASKS : TASKS) as Record<string, ((input: unknown) => unknown) | undefined>;
+	const fn = table[message.task];
 	try {
-		if (!fn) throw new Error(`the work pool has no task named "${message.task}"`);
-		reply = { ok: true, value: fn(message.input) };
+		if (!fn) throw new Error(`the ${message.io ? 'I/O' : 'work'} pool has no task named "${message.task}"`);
+		reply = { ok: true, value: await fn(message.input) };
 	} catch (e) {
 		reply = { ok: false, error: encodeError(e) };
 	}

@@ -1,5 +1,5 @@
 import { json } from '@sveltejs/kit';
-import { apiError, apiRoute, readJson } from '$lib/server/platform/api';
+import { apiError, apiRoute, jsonListResponse, readJson } from '$lib/server/platform/api';
 import { reporterOf } from '$lib/server/people/tokens';
 import { requirePermission } from '$lib/server/people/guard';
 import { observationInput, parseObservationCsv, report, reportMany } from '$lib/server/coordination/observations';
@@ -25,7 +25,7 @@ export const POST = apiRoute(async ({ request, url }) => {
 		if (parsed.errors.length) return apiError(422, 'invalid_csv', `${parsed.errors.length} problem(s); nothing stored.`, parsed.errors);
 		const out = await reportMany(reporter, parsed.rows.map((r) => ({ ...r, eventId, telescopeId })), 'csv', { lines: parsed.lines });
 		if (out.errors.length) return apiError(422, 'invalid_csv', `${out.errors.length} problem(s); nothing stored.`, out.errors);
-		return json({ results: out.results }, { status: 201 });
+		return jsonListResponse('results', out.results, 201);
 	}
 	const body = await readJson(request, observationInput);
 	if (body.response) return body.response;
