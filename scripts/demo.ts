@@ -19,6 +19,7 @@ import { parseArgs } from 'node:util';
 import { openDatabase } from '../src/lib/server/platform/db';
 import { seedDemo, seedDemoWebhook } from '../seeds/demo';
 import { startBroker } from '../fake-alert-broker/broker.ts';
+import { appProcessEnv } from '../src/lib/server/platform/app-process.ts';
 
 const { values: args } = parseArgs({
 	options: {
@@ -73,8 +74,8 @@ if (format === 'json') env.VTP_ARCHIVE_POLL_S ??= '5';
 
 const children: ChildProcess[] = [];
 const abort = new AbortController();
-function start(name: string, command: string, argv: string[]) {
-	const child = spawn(command, argv, { stdio: ['ignore', 'inherit', 'inherit'], env });
+function start(name: string, command: string, argv: string[], childEnv: NodeJS.ProcessEnv = env) {
+	const child = spawn(command, argv, { stdio: ['ignore', 'inherit', 'inherit'], env: childEnv });
 	child.on('exit', (code) => {
 		console.log(`${name} exited (${code})`);
 		shutdown(code ?? 0);
@@ -91,7 +92,7 @@ function shutdown(code = 0) {
 process.on('SIGINT', () => shutdown(0));
 process.on('SIGTERM', () => shutdown(0));
 
-start('app', 'node', ['server.js']);
+start('app', 'node', ['server.js'], appProcessEnv(env));
 console.log(`\nStrainline demo: ${origin}`);
 console.log('  duty scientist on shift: duty@strainline.demo / duty-demo-pass (pages arrive in /mailbox, as coordinator or admin)');
 console.log('  the duty scientist (+1 202 555 0143) and the back-up coordinator (+1 202 555 0178) are also paged by text and voice: /phone-log (admin) shows the local fake messaging service, and replies from there');

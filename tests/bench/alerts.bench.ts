@@ -24,6 +24,7 @@ import { parseVoevent } from '../../src/lib/alerts/voevent.ts';
 import { analyseSkymap, skyRaster } from '../../src/lib/sky/index.ts';
 import { VtpListener } from '../../src/lib/server/alerts/listener.ts';
 import { median, type BenchResult } from './run.ts';
+import { appProcessEnv } from '../../src/lib/server/platform/app-process.ts';
 
 const ROOT = fileURLToPath(new URL('../../', import.meta.url));
 const FIXTURES = join(ROOT, 'tests/fixtures/notices/');
@@ -116,7 +117,7 @@ export async function run(): Promise<BenchResult[]> {
 			cwd: ROOT,
 			stdio: ['ignore', 'ignore', 'inherit'],
 			env: {
-				...process.env,
+				...appProcessEnv(),
 				PORT: String(port),
 				HOST: '127.0.0.1',
 				ORIGIN: origin,

@@ -23,6 +23,7 @@ import { fileURLToPath } from 'node:url';
 import { median, type BenchResult } from './run.ts';
 import { prepareAppWorld } from './live/app-world.ts';
 import { freePort } from './live/protocol.ts';
+import { appProcessEnv } from '../../src/lib/server/platform/app-process.ts';
 
 const ROOT = fileURLToPath(new URL('../../', import.meta.url));
 const PYTHON = '/usr/bin/python3';
@@ -122,7 +123,7 @@ export async function run(): Promise<BenchResult[]> {
 			cwd: ROOT,
 			stdio: ['ignore', 'pipe', 'inherit'],
 			env: {
-				...process.env,
+				...appProcessEnv(),
 				PORT: String(port),
 				HOST: '127.0.0.1',
 				ORIGIN: origin,

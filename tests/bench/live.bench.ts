@@ -52,6 +52,7 @@ import { startBroker, type FakeBroker } from '../../fake-alert-broker/broker.ts'
 import { prepareAppWorld, type AppWorld } from './live/app-world.ts';
 import { flatMapFits, pointingsCsv, updateNoticeXml } from './live/added-load.ts';
 import { freePort, keyOf, nowMs, percentile, type ClientReport, type DriveRequest, type ExpectedMessage, type FromClients, type ToClients } from './live/protocol.ts';
+import { appProcessEnv } from '../../src/lib/server/platform/app-process.ts';
 
 const ROOT = fileURLToPath(new URL('../../', import.meta.url));
 const HERE = fileURLToPath(new URL('./live/', import.meta.url));
@@ -709,7 +710,7 @@ export async function run(): Promise<BenchResult[]> {
 						cwd: ROOT,
 						stdio: ['ignore', 'pipe', 'inherit'],
 						env: {
-							...process.env,
+							...appProcessEnv(),
 							PORT: String(port),
 							HOST: '127.0.0.1',
 							ORIGIN: `http://127.0.0.1:${port}`,

@@ -32,6 +32,7 @@ import { prepareAppWorld } from './live/app-world.ts';
 import { freePort, nowMs, percentile } from './live/protocol.ts';
 import { cpuSeconds, ensureBuilt, stop, waitForLine } from './live.bench.ts';
 import { addCrowdOfPointings } from './pages/crowd.ts';
+import { appProcessEnv } from '../../src/lib/server/platform/app-process.ts';
 
 const ROOT = fileURLToPath(new URL('../../', import.meta.url));
 const CLIENTS = 8;
@@ -167,7 +168,7 @@ export async function run(): Promise<BenchResult[]> {
 			cwd: ROOT,
 			stdio: ['ignore', 'pipe', 'inherit'],
 			env: {
-				...process.env,
+				...appProcessEnv(),
 				PORT: String(port),
 				HOST: '127.0.0.1',
 				ORIGIN: origin,

@@ -37,6 +37,7 @@ import { ensureBuilt, waitForLine } from './event-loop.bench.ts';
 import { prepareAppWorld } from './live/app-world.ts';
 import { freePort } from './live/protocol.ts';
 import { stop } from './live.bench.ts';
+import { appProcessEnv } from '../../src/lib/server/platform/app-process.ts';
 
 const ROOT = fileURLToPath(new URL('../../', import.meta.url));
 
@@ -220,7 +221,7 @@ async function catalogueDuringPages(dir: string): Promise<BenchResult[]> {
 		app = spawn(process.execPath, [...nodeArgs, 'server.js'], {
 			cwd: ROOT,
 			stdio: ['ignore', 'pipe', 'inherit'],
-			env: { ...process.env, PORT: String(port), HOST: '127.0.0.1', ORIGIN: origin, DATABASE_URL: dbFile, STORAGE_DIR: storageDir, VTP_BROKER: '', VTP_ARCHIVE_URL: '', FAKE_SMTP_PORT: '0', SMTP_URL: '' }
+			env: { ...appProcessEnv(), PORT: String(port), HOST: '127.0.0.1', ORIGIN: origin, DATABASE_URL: dbFile, STORAGE_DIR: storageDir, VTP_BROKER: '', VTP_ARCHIVE_URL: '', FAKE_SMTP_PORT: '0', SMTP_URL: '' }
 		});
 		await waitForLine(app, 'Strainline listening on', 60_000);
 		const headers = { authorization: `Bearer ${world.claimerTokens[1]}` }; // the coordinator: may import catalogues

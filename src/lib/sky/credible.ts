@@ -78,14 +78,35 @@ function histogram(a: MassAccess, pass: number, candidates: Uint32Array | null):
 	const { density, bits, order, areas, uniformArea } = a;
 	const n = candidates ? candidates.length : density.length;
 	if (order === null && candidates === null) {
-		// The whole flat map, the pass over every pixel: the top 16 bits only, read in stride.
-		for (let i = 0, w = HI; i < n; i++, w += 2) {
-			const key = bits[w] >>> 16;
-			mass[key] += density[i];
-			count[key]++;
+		// The whole flat map, the pass over every pixel: the top 16 bits only, read in stride. Four
+		// interleaved sub-histograms: most pixels of a map share a few buckets, and one histogram made
+		// every add wait for the one before to the same bucket (48 → 26 ms for 12.6 M pixels here).
+		const m4 = new Float64Array(4 * BUCKETS);
+		const c4 = new Uint32Array(4 * BUCKETS);
+		const whole = n - (n % 4);
+		for (let i = 0, w = HI; i < whole; i += 4, w += 8) {
+			const k0 = bits[w] >>> 16;
+			const k1 = (bits[w + 2] >>> 16) + BUCKETS;
+			const k2 = (bits[w + 4] >>> 16) + 2 * BUCKETS;
+			const k3 = (bits[w + 6] >>> 16) + 3 * BUCKETS;
+			m4[k0] += density[i];
+			c4[k0]++;
+			m4[k1] += density[i + 1];
+			c4[k1]++;
+			m4[k2] += density[i + 2];
+			c4[k2]++;
+			m4[k3] += density[i + 3];
+			c4[k3]++;
+		}
+		for (let i = whole; i < n; i++) {
+			const key = bits[2 * i + HI] >>> 16;
+			m4[key] += density[i];
+			c4[key]++;
 		}
 		for (let b = 0; b < BUCKETS; b++) {
-			mass[b] *= uniformArea;
+			// Summed in a fixed order, so the result does not depend on the run.
+			mass[b] = (m4[b] + m4[b + BUCKETS] + (m4[b + 2 * BUCKETS] + m4[b + 3 * BUCKETS])) * uniformArea;
+			count[b] = c4[b] + c4[b + BUCKETS] + c4[b + 2 * BUCKETS] + c4[b + 3 * BUCKETS];
 			area[b] = count[b] * uniformArea;
 		}
 	} else if (order === null) {

@@ -4,6 +4,7 @@ import { spawn, spawnSync } from 'node:child_process';
 import { openDatabase } from '../../../src/lib/server/platform/db';
 import { seedDemo } from '../../../seeds/demo';
 import { startE2eBroker } from './broker';
+import { appProcessEnv } from '../../../src/lib/server/platform/app-process.ts';
 
 const file = process.env.DATABASE_URL ?? 'tests/e2e/.artifacts/e2e.sqlite';
 for (const suffix of ['', '-wal', '-shm']) rmSync(file + suffix, { force: true });
@@ -18,7 +19,7 @@ if (!existsSync('build/handler.js')) {
 }
 // The app listens to a fake broker that stays silent until a test publishes (see broker.ts).
 const broker = await startE2eBroker((m) => console.log(`[e2e broker] ${m}`));
-const app = spawn('node', ['server.js'], { stdio: 'inherit', env: { STORAGE_DIR: 'tests/e2e/.artifacts/storage', ...process.env, ...broker.env } });
+const app = spawn('node', ['server.js'], { stdio: 'inherit', env: appProcessEnv({ STORAGE_DIR: 'tests/e2e/.artifacts/storage', ...process.env, ...broker.env }) });
 const stop = () => {
 	app.kill('SIGTERM');
 	void broker.stop();
