@@ -123,20 +123,8 @@ export async function runWork<K extends TaskName>(task: K, input: TaskInput<K>, 
 		const { TASKS } = await import('./work-tasks.ts');
 		return (TASKS[task] as (input: TaskInput<K>) => TaskOutput<K>)(input);
 	}
-	const { pool } = service(POOL, () => new WorkPool(workThreads()));
-	let reply: WorkReply;
-	try {
-		reply = await pool.run({ task, input }, { transferList: options.transfer ?? [] });
-	} catch (e) {
-		if (e instanceof Error && e.message === 'Task queue is at limit') throw new WorkPoolBusyError(task);
-		throw e;
-	}
-	ranOnPool.set(task, (ranOnPool.get(task) ?? 0) + 1);
-	if (!reply.ok) throw decodeError(reply.error);
-	return reply.value as TaskOutput<K>;
+	return (await runOn(POOL, workThreads(), { task, input }, options.transfer ?? [])) as TaskOutput<K>;
 }
-
-const ranOnPool = new Map<string, number>();
 
 /**
  * Run a transfer (`IO_TASKS`: a sky-map download) on a thread of the I/O pool, apart from the
@@ -148,17 +136,24 @@ export async function runIo<K extends IoTaskName>(task: K, input: IoTaskInput<K>
 		const { IO_TASKS } = await import('./io-tasks.ts');
 		return (await (IO_TASKS[task] as (input: IoTaskInput<K>) => Promise<IoTaskOutput<K>>)(input)) as IoTaskOutput<K>;
 	}
-	const { pool } = service(IO_POOL, () => new WorkPool(IO_THREADS));
+	return (await runOn(IO_POOL, IO_THREADS, { task, input, io: true }, [])) as IoTaskOutput<K>;
+}
+
+const ranOnPool = new Map<string, number>();
+
+/** One message to the named pool (started with `threads` threads when first used); its value, or its error rebuilt. */
+async function runOn(name: string, threads: number, message: { task: string; input: unknown; io?: boolean }, transferList: ArrayBuffer[]): Promise<unknown> {
+	const { pool } = service(name, () => new WorkPool(threads));
 	let reply: WorkReply;
 	try {
-		reply = await pool.run({ task, input, io: true });
+		reply = await pool.run(message, { transferList });
 	} catch (e) {
-		if (e instanceof Error && e.message === 'Task queue is at limit') throw new WorkPoolBusyError(task);
+		if (e instanceof Error && e.message === 'Task queue is at limit') throw new WorkPoolBusyError(message.task);
 		throw e;
 	}
-	ranOnPool.set(task, (ranOnPool.get(task) ?? 0) + 1);
+	ranOnPool.set(message.task, (ranOnPool.get(message.task) ?? 0) + 1);
 	if (!reply.ok) throw decodeError(reply.error);
-	return reply.value as IoTaskOutput<K>;
+	return reply.value;
 }
 
 /** Tasks of this name that ran on the pool's threads since the process started (inline runs are not counted; diagnostics, tests). */
