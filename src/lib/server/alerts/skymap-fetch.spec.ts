@@ -4,6 +4,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { fetchSkymap, hostAllowance, isPrivateAddress, SkymapFetchError } from './skymap-fetch';
 import { refusalOf } from '../platform/testing/refusal';
 import { stopWorkPool, workDone } from '../platform/work-pool';
+import { apiErrorFrom } from '../platform/api';
 
 let server: http.Server;
 let port = 0;
@@ -71,7 +72,12 @@ describe('fetchSkymap', () => {
 
 	it('refuses a host that is not on the allow-list, and schemes other than http(s)', async () => {
 		expect.hasAssertions();
-		expect((await refusal(fetchSkymap(`${base()}/map.fits`, { allowedHosts: ['maps.example.org'] }))).code).toBe('host_not_allowed');
+		const notAllowed = await refusal(fetchSkymap(`${base()}/map.fits`, { allowedHosts: ['maps.example.org'] }));
+		expect(notAllowed.code).toBe('host_not_allowed');
+		// Rebuilt from the I/O thread, it still answers as a refusal made here: 502 with its code and sentence.
+		const answer = apiErrorFrom(notAllowed);
+		expect(answer.status).toBe(502);
+		expect(await answer.json()).toEqual({ error: { code: 'host_not_allowed', message: 'sky-map host 127.0.0.1 is not on the allow-list (SKYMAP_HOSTS)' } });
 		expect((await refusal(fetchSkymap('file:///etc/passwd', { allowedHosts: allowed }))).code).toBe('scheme');
 		expect((await refusal(fetchSkymap('ftp://127.0.0.1/x', { allowedHosts: allowed }))).code).toBe('scheme');
 		expect((await refusal(fetchSkymap(`http://user:pw@127.0.0.1:${port}/map.fits`, { allowedHosts: allowed }))).code).toBe('bad_url');

@@ -109,6 +109,9 @@ function decodeError(e: EncodedError): Error {
 	Object.assign(error, e.fields);
 	Object.defineProperty(error, 'message', { value: e.message, writable: true, configurable: true });
 	if (!Ctor) error.name = e.name;
+	// Only plain values cross the thread; a refusal's per-field messages (none for the errors that
+	// cross today) come back empty rather than missing, so that it answers like one made here.
+	if (error instanceof DomainError && !error.fields) Object.defineProperty(error, 'fields', { value: {}, enumerable: true });
 	if (e.stack) Object.defineProperty(error, 'stack', { value: e.stack, writable: true, configurable: true });
 	return error;
 }
