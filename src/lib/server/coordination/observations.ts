@@ -68,10 +68,10 @@ export function report(reporter: Reporter, raw: ObservationInput, source: table.
 /**
  * Store several pointings (a CSV upload) all or nothing: every row is validated first, and a
  * single bad row stores none, with each problem numbered by its CSV line (`lines[i]`).
- * The rows are stored STORE_CHUNK at a time, one transaction each with a turn of the event loop
- * between (9,000 rows in one transaction held the server's thread for about a quarter of a
- * second, and every live message waited behind it); should a later chunk fail, what the earlier
- * ones stored is taken back (`undoStored`). They are announced with ONE live message per event
+ * Checking and storing go in slices of UPLOAD_SLICE_MS with a rest as long between them, the rows
+ * stored STORE_CHUNK per transaction (9,000 rows in one transaction held the server's thread for
+ * about a quarter of a second, and every live message waited behind it); should a later chunk
+ * fail, what the earlier ones stored is taken back (`undoStored`). They are announced with ONE live message per event
  * and telescope (`observation.uploaded`), not one per row, once all are stored: an upload of
  * thousands of pointings is one thing that happened, and each message costs an event-log row and
  * a refresh in every open page.
