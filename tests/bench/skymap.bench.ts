@@ -67,7 +67,7 @@ export async function run(): Promise<BenchResult[]> {
 					strainlineMs: median(t.same),
 					referenceMs: median(ref.ms),
 					reference: 'numpy argsort + cumsum (astropy read)',
-					note: `ratio ${(median(t.same) / median(ref.ms)).toFixed(3)}; area90 ${t.area90.toFixed(2)} deg², rel. diff ${agree.toExponential(1)}`
+					note: `ratio ${(median(t.same) / median(ref.ms)).toFixed(3)}; area90 ${t.area90.toFixed(2)} deg², rel. diff ${agree.toExponential(1)}; GLIBC_TUNABLES=${times.tunables || '(unset)'}`
 				});
 				results.push({ suite: 'skymap', name: `${name}: full analyse (50/90/99%, distance, peak; ${label})`, strainlineMs: median(t.full) });
 			}

@@ -40,14 +40,8 @@ export function skymapReadError(e: unknown): string {
 
 export { hostAllowance, isPrivateAddress, SkymapFetchError, type SkymapFetchErrorCode } from './skymap-download';
 
-export interface SkymapFetchOptions {
-	allowedHosts?: string[];
-	maxBytes?: number;
-	timeoutMs?: number;
-	maxRedirects?: number;
-	/** Names answered from this table instead of the system resolver (tests). */
-	resolveAs?: DownloadLimits['resolveAs'];
-}
+/** Limits that differ from the server's configuration (tests, a retry); `resolveAs` for tests only. */
+export type SkymapFetchOptions = Partial<DownloadLimits>;
 
 export interface FetchedSkymap {
 	bytes: Buffer;

@@ -49,12 +49,14 @@ export interface EncodedError {
 
 export type WorkReply = { ok: true; value: unknown } | { ok: false; error: EncodedError };
 
+/** Error classes the server's thread rebuilds by name, of both task tables. */
+const KNOWN_ERRORS = { ...ERROR_CLASSES, ...IO_ERROR_CLASSES };
+
 function encodeError(e: unknown): EncodedError {
 	if (!(e instanceof Error)) return { name: 'Error', message: String(e), fields: {} };
 	const fields: Record<string, unknown> = {};
 	for (const [k, v] of Object.entries(e)) if (v === null || ['string', 'number', 'boolean'].includes(typeof v)) fields[k] = v;
-	const classes = { ...ERROR_CLASSES, ...IO_ERROR_CLASSES };
-	const name = Object.keys(classes).find((n) => e.constructor === classes[n]) ?? e.name;
+	const name = Object.keys(KNOWN_ERRORS).find((n) => e.constructor === KNOWN_ERRORS[n]) ?? e.name;
 	return { name, message: e.message, stack: e.stack, fields };
 }
 
